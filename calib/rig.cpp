@@ -1,0 +1,127 @@
+#include "calib/rig.h"
+
+#include <opencv2/calib3d.hpp>
+
+#include <cmath>
+#include <sstream>
+#include <stdexcept>
+
+namespace dropfit::calib {
+
+namespace {
+
+template <typename Enum, size_t N>
+Enum FromString(const std::string& text, const std::pair<Enum, const char*> (&table)[N],
+                const char* what) {
+  for (const auto& [value, name] : table) {
+    if (text == name) return value;
+  }
+  std::ostringstream msg;
+  msg << "unknown " << what << " '" << text << "'; valid: ";
+  for (size_t i = 0; i < N; ++i) msg << (i ? ", " : "") << table[i].second;
+  throw std::invalid_argument(msg.str());
+}
+
+constexpr std::pair<UpSide, const char*> kUpSides[] = {
+    {UpSide::kTop, "top"}, {UpSide::kBottom, "bottom"}, {UpSide::kLeft, "left"}, {UpSide::kRight, "right"}};
+constexpr std::pair<YOrigin, const char*> kYOrigins[] = {{YOrigin::kFloor, "floor"},
+                                                          {YOrigin::kBoard, "board"}};
+
+bool AllFinite(const cv::Matx33d& m) {
+  for (int i = 0; i < 9; ++i) {
+    if (!std::isfinite(m.val[i])) return false;
+  }
+  return true;
+}
+
+cv::Point2d ApplyHomography(const cv::Matx33d& h, cv::Point2d p) {
+  const cv::Vec3d q = h * cv::Vec3d(p.x, p.y, 1.0);
+  return {q[0] / q[2], q[1] / q[2]};
+}
+
+}  // namespace
+
+std::string ToString(UpSide side) {
+  for (const auto& [value, name] : kUpSides) {
+    if (value == side) return name;
+  }
+  return "top";
+}
+UpSide UpSideFromString(const std::string& text) { return FromString(text, kUpSides, "up side"); }
+
+std::string ToString(YOrigin origin) { return origin == YOrigin::kFloor ? "floor" : "board"; }
+YOrigin YOriginFromString(const std::string& text) { return FromString(text, kYOrigins, "y_origin"); }
+
+std::optional<std::string> ValidateRig(const Rig& rig) {
+  if (rig.schema_version != Rig::kSchemaVersion) {
+    return "unknown rig schema version " + std::to_string(rig.schema_version) + " (this dropfit reads " +
+           std::to_string(Rig::kSchemaVersion) + ")";
+  }
+  if (rig.image_size.width <= 0 || rig.image_size.height <= 0) {
+    return "image size " + std::to_string(rig.image_size.width) + "x" + std::to_string(rig.image_size.height) +
+           " is not positive";
+  }
+  if (!AllFinite(rig.plane_from_undistorted)) return "the plane mapping holds a non-finite number";
+  const double det = cv::determinant(rig.plane_from_undistorted);
+  if (!std::isfinite(det) || std::abs(det) < 1e-300) return "the plane mapping is not invertible (determinant 0)";
+  if (rig.lens) {
+    if (!AllFinite(rig.lens->camera_matrix)) return "the camera matrix holds a non-finite number";
+    if (rig.lens->camera_matrix(0, 0) <= 0 || rig.lens->camera_matrix(1, 1) <= 0) {
+      return "the camera matrix has a non-positive focal length";
+    }
+    for (double d : rig.lens->distortion) {
+      if (!std::isfinite(d)) return "the distortion coefficients hold a non-finite number";
+    }
+    const size_t n = rig.lens->distortion.size();
+    if (!(n == 0 || n == 4 || n == 5 || n == 8)) {
+      return "the lens has " + std::to_string(n) + " distortion coefficients (expected 0, 4, 5 or 8)";
+    }
+  }
+  if (rig.corner_height_m && !std::isfinite(*rig.corner_height_m)) return "the corner height is not finite";
+  if (rig.capture_fps && !(std::isfinite(*rig.capture_fps) && *rig.capture_fps > 0)) {
+    return "the capture rate is not a positive number";
+  }
+  return std::nullopt;
+}
+
+cv::Point2d UndistortedFromImage(const Rig& rig, cv::Point2d image_px) {
+  if (!rig.lens || rig.lens->distortion.empty()) return image_px;
+  const cv::Matx33d& k = rig.lens->camera_matrix;
+  std::vector<cv::Point2d> src{image_px}, dst;
+  // Iterate to convergence: the default (5 iterations) leaves ~0.01 px at the corners of a
+  // k1 = -0.07 lens, which is a large share of our error budget.
+  cv::undistortPoints(src, dst, k, rig.lens->distortion, cv::noArray(), k,
+                      cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, 1e-12));
+  return dst[0];
+}
+
+cv::Point2d ImageFromUndistorted(const Rig& rig, cv::Point2d undistorted_px) {
+  if (!rig.lens || rig.lens->distortion.empty()) return undistorted_px;
+  const cv::Matx33d& k = rig.lens->camera_matrix;
+  // Back to normalised coordinates, then OpenCV's projection with identity pose.
+  const double x = (undistorted_px.x - k(0, 2)) / k(0, 0);
+  const double y = (undistorted_px.y - k(1, 2)) / k(1, 1);
+  std::vector<cv::Point3d> obj{{x, y, 1.0}};
+  std::vector<cv::Point2d> img;
+  cv::projectPoints(obj, cv::Vec3d(0, 0, 0), cv::Vec3d(0, 0, 0), k, rig.lens->distortion, img);
+  return img[0];
+}
+
+cv::Point2d PlaneFromImage(const Rig& rig, cv::Point2d image_px) {
+  return ApplyHomography(rig.plane_from_undistorted, UndistortedFromImage(rig, image_px));
+}
+
+cv::Point2d ImageFromPlane(const Rig& rig, cv::Point2d plane_m) {
+  return ImageFromUndistorted(rig, ApplyHomography(rig.plane_from_undistorted.inv(), plane_m));
+}
+
+cv::Vec2d ImageUpDirection(const Rig& rig, cv::Point2d image_px) {
+  const cv::Point2d p = PlaneFromImage(rig, image_px);
+  const double step_m = 1e-3;
+  const cv::Point2d q = ImageFromPlane(rig, {p.x, p.y + step_m});
+  cv::Vec2d d(q.x - image_px.x, q.y - image_px.y);
+  const double n = cv::norm(d);
+  return n > 0 ? d / n : d;
+}
+
+}  // namespace dropfit::calib

@@ -1,0 +1,94 @@
+#pragma once
+// The rig: everything dropfit knows about one camera set-up, made once by `dropfit calibrate`
+// and reused for every clip filmed with that set-up.
+//
+// Conventions (stated once, here):
+// - Image points are in pixels in OpenCV's convention: the centre of the top-left pixel is
+//   (0, 0), u to the right, v down. Every OpenCV function used (corner refinement,
+//   projection, calibration, undistortion) works this way.
+// - Plane points are in metres in the drop plane: x_m horizontal, y_m vertical UP (against
+//   gravity). y_m = 0 is the floor when the rig knows it (YOrigin::kFloor), otherwise the
+//   plane view's lowest row of inner corners (YOrigin::kBoard). x_m = 0 is the plane view's
+//   inner-corner column furthest to the left in the image.
+// - Names carry their frame: `plane_from_undistorted` maps undistorted pixels to plane metres.
+//
+// The rig file format (JSON) is read and written by cli/rig_io; this header holds the data
+// and the mapping only.
+
+#include <opencv2/core.hpp>
+
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace dropfit::calib {
+
+// The image side that physical "up" points to (`--up`).
+enum class UpSide { kTop, kBottom, kLeft, kRight };
+std::string ToString(UpSide side);
+// Throws std::invalid_argument naming the string and the valid ones ("top, bottom, left, right").
+UpSide UpSideFromString(const std::string& text);
+
+// Where y_m = 0 lies (the contract's "y_origin").
+enum class YOrigin { kFloor, kBoard };
+std::string ToString(YOrigin origin);
+YOrigin YOriginFromString(const std::string& text);
+
+// Pinhole camera with OpenCV's distortion model (k1, k2, p1, p2[, k3[, k4, k5, k6]]).
+struct LensModel {
+  cv::Matx33d camera_matrix = cv::Matx33d::eye();  // fx, 0, cx; 0, fy, cy; 0, 0, 1 [px]
+  std::vector<double> distortion;                  // OpenCV order; empty = none
+};
+
+// Calibration quality figures, in units the engineer understands.
+struct RigQuality {
+  double rms_reprojection_px = 0.0;           // overall RMS reprojection error of the lens fit
+  std::vector<std::string> view_names;        // views used in the lens fit
+  std::vector<double> view_rms_px;            // per-view RMS reprojection error
+  std::vector<std::string> dropped_views;     // views left out, with the reason
+  double plane_rms_px = 0.0;                  // RMS residual of the plane view's mapping
+  double square_error_mean_mm = 0.0;          // known square size measured back: mean |error|
+  double square_error_max_mm = 0.0;           // ... and worst
+  double metres_per_px_centre = 0.0;          // scale at the image centre
+  double board_coverage_fraction = 0.0;       // area of the plane view's board / image area
+};
+
+struct Rig {
+  static constexpr int kSchemaVersion = 1;
+  int schema_version = kSchemaVersion;
+  cv::Size image_size;                       // [px]
+  std::optional<LensModel> lens;             // absent: points are used as measured
+  // Homography from undistorted pixels (same camera matrix) to plane metres (x_m, y_m up).
+  cv::Matx33d plane_from_undistorted = cv::Matx33d::eye();
+  // Pose of the plane view's board frame in the camera (present with a lens model).
+  std::optional<cv::Vec3d> plane_rvec_rad;
+  std::optional<cv::Vec3d> plane_tvec_m;
+  UpSide up = UpSide::kTop;
+  YOrigin y_origin = YOrigin::kBoard;
+  // Height above the floor of the plane view's lowest row of inner corners (`--corner-height`).
+  std::optional<double> corner_height_m;
+  std::optional<double> capture_fps;         // [frames/s], when given at calibration
+  RigQuality quality;
+  std::string tool_version;
+  std::vector<std::pair<std::string, std::string>> input_hashes;  // (file, FNV-1a 64 hex)
+  std::vector<std::string> warnings;
+};
+
+// Returns a message naming what is wrong (NaN, non-invertible mapping, bad image size...),
+// or nothing when the rig can be used.
+std::optional<std::string> ValidateRig(const Rig& rig);
+
+// Removes lens distortion: distorted pixel -> undistorted pixel (same camera matrix).
+cv::Point2d UndistortedFromImage(const Rig& rig, cv::Point2d image_px);
+// Adds lens distortion: undistorted pixel -> distorted (measured) pixel.
+cv::Point2d ImageFromUndistorted(const Rig& rig, cv::Point2d undistorted_px);
+
+// Image pixel -> drop-plane metres (undistort, then the plane mapping).
+cv::Point2d PlaneFromImage(const Rig& rig, cv::Point2d image_px);
+// Drop-plane metres -> image pixel (inverse mapping, then distortion).
+cv::Point2d ImageFromPlane(const Rig& rig, cv::Point2d plane_m);
+
+// The unit vector, in the image, of the plane's +y_m (up) direction at an image point.
+cv::Vec2d ImageUpDirection(const Rig& rig, cv::Point2d image_px);
+
+}  // namespace dropfit::calib

@@ -1,0 +1,303 @@
+#include "cli/manifest.h"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <fstream>
+#include <map>
+#include <sstream>
+
+namespace dropfit::cli {
+
+namespace {
+
+struct CsvRecord {
+  int line = 0;  // line where the record starts
+  std::vector<std::string> fields;
+  bool comment_or_blank = false;
+};
+
+std::string Trim(std::string_view s) {
+  size_t b = 0, e = s.size();
+  while (b < e && (s[b] == ' ' || s[b] == '\t')) ++b;
+  while (e > b && (s[e - 1] == ' ' || s[e - 1] == '\t')) --e;
+  return std::string(s.substr(b, e - b));
+}
+
+// Splits CSV text into records (RFC 4180 quoting; CR before LF dropped).
+std::vector<CsvRecord> SplitRecords(std::string_view text, const std::string& display_name) {
+  std::vector<CsvRecord> records;
+  size_t i = 0;
+  int line = 1;
+  while (i < text.size()) {
+    CsvRecord rec;
+    rec.line = line;
+    // Comment and blank lines are recognised before any field parsing.
+    size_t j = i;
+    while (j < text.size() && (text[j] == ' ' || text[j] == '\t')) ++j;
+    if (j >= text.size() || text[j] == '\n' || text[j] == '\r' || text[j] == '#') {
+      const size_t eol = text.find('\n', i);
+      i = eol == std::string_view::npos ? text.size() : eol + 1;
+      ++line;
+      rec.comment_or_blank = true;
+      records.push_back(std::move(rec));
+      continue;
+    }
+    std::string field;
+    bool in_quotes = false, field_was_quoted = false;
+    bool done = false;
+    while (!done) {
+      if (i >= text.size()) {
+        if (in_quotes) {
+          throw ManifestStructureError(display_name + ":" + std::to_string(rec.line) +
+                                       ": a quoted field is never closed; add the closing '\"'");
+        }
+        rec.fields.push_back(field_was_quoted ? field : Trim(field));
+        done = true;
+        break;
+      }
+      const char c = text[i];
+      if (in_quotes) {
+        if (c == '"') {
+          if (i + 1 < text.size() && text[i + 1] == '"') {
+            field += '"';
+            i += 2;
+          } else {
+            in_quotes = false;
+            ++i;
+          }
+        } else {
+          if (c == '\n') ++line;
+          field += c;
+          ++i;
+        }
+        continue;
+      }
+      if (c == '"' && Trim(field).empty()) {
+        in_quotes = true;
+        field_was_quoted = true;
+        field.clear();
+        ++i;
+      } else if (c == ',') {
+        rec.fields.push_back(field_was_quoted ? field : Trim(field));
+        field.clear();
+        field_was_quoted = false;
+        ++i;
+      } else if (c == '\r' && i + 1 < text.size() && text[i + 1] == '\n') {
+        ++i;  // CRLF: the LF ends the record
+      } else if (c == '\n') {
+        rec.fields.push_back(field_was_quoted ? field : Trim(field));
+        ++i;
+        ++line;
+        done = true;
+      } else if (c == '\0') {
+        throw ManifestStructureError(display_name + ":" + std::to_string(line) +
+                                     ": holds a NUL byte: this is not a CSV text file");
+      } else {
+        if (!field_was_quoted) field += c;
+        ++i;
+      }
+    }
+    records.push_back(std::move(rec));
+  }
+  return records;
+}
+
+bool IsValidUtf8(std::string_view s) {
+  size_t i = 0;
+  while (i < s.size()) {
+    const auto c = static_cast<unsigned char>(s[i]);
+    const size_t extra = c < 0x80 ? 0 : (c >> 5) == 0x6 ? 1 : (c >> 4) == 0xE ? 2 : (c >> 3) == 0x1E ? 3 : 4;
+    if (extra == 4 || i + extra >= s.size()) return false;
+    for (size_t k = 1; k <= extra; ++k) {
+      if ((static_cast<unsigned char>(s[i + k]) >> 6) != 0x2) return false;
+    }
+    i += extra + 1;
+  }
+  return true;
+}
+
+enum class Column { kClip, kDropHeight, kMass, kFps, kSpecimen, kFreeRadius, kTreadWidth, kSectionRadius };
+
+const std::vector<std::pair<std::string, Column>>& KnownColumns() {
+  static const std::vector<std::pair<std::string, Column>> columns{
+      {"clip", Column::kClip},
+      {"drop_height_m", Column::kDropHeight},
+      {"mass_kg", Column::kMass},
+      {"capture_fps", Column::kFps},
+      {"specimen", Column::kSpecimen},
+      {"free_radius_m", Column::kFreeRadius},
+      {"tread_width_m", Column::kTreadWidth},
+      {"section_radius_m", Column::kSectionRadius},
+  };
+  return columns;
+}
+
+struct NumberSpec {
+  const char* what;  // what the number is, for "what to do"
+  const char* unit;
+};
+
+// Parses a strictly positive finite number; returns an error text (empty when fine).
+std::string ParsePositive(const std::string& text, const NumberSpec& spec, double& value) {
+  if (text.empty()) return std::string("is empty; give the ") + spec.what + " in " + spec.unit;
+  const char* begin = text.data();
+  const char* end = begin + text.size();
+  auto [ptr, ec] = std::from_chars(begin, end, value);
+  if (ec != std::errc() || ptr != end || !std::isfinite(value)) {
+    return "'" + text + "' is not a number; give the " + spec.what + " in " + spec.unit;
+  }
+  if (value <= 0) return "'" + text + "' is not positive; give the " + spec.what + " in " + spec.unit;
+  return {};
+}
+
+bool LeavesFolder(const std::filesystem::path& clip) {
+  if (clip.is_absolute() || clip.has_root_name() || clip.has_root_directory()) return true;
+  int depth = 0;
+  for (const auto& part : clip.lexically_normal()) {
+    if (part == "..") {
+      if (--depth < 0) return true;
+    } else if (part != "." && !part.empty()) {
+      ++depth;
+    }
+  }
+  return false;
+}
+
+}  // namespace
+
+std::string ClipIdOf(const std::filesystem::path& clip) {
+  std::filesystem::path p = clip.lexically_normal();
+  if (!p.has_filename()) p = p.parent_path();  // "seq/" -> "seq"
+  if (std::filesystem::is_directory(p)) return p.filename().string();
+  return p.stem().string();
+}
+
+Manifest ParseManifest(std::string_view text, const std::filesystem::path& folder, const std::string& display_name,
+                       bool check_files) {
+  Manifest manifest;
+  manifest.folder = folder;
+  manifest.display_name = display_name;
+  if (text.size() >= 3 && text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);
+  if (!IsValidUtf8(text)) {
+    throw ManifestStructureError(display_name + ": is not UTF-8 text; save the manifest as UTF-8 CSV");
+  }
+  const std::vector<CsvRecord> records = SplitRecords(text, display_name);
+  auto header_it = std::find_if(records.begin(), records.end(), [](const CsvRecord& r) { return !r.comment_or_blank; });
+  if (header_it == records.end()) {
+    throw ManifestStructureError(display_name +
+                                 ": has no header row; the first line must name the columns, e.g. "
+                                 "clip,drop_height_m,mass_kg");
+  }
+  const CsvRecord& header = *header_it;
+  std::map<Column, size_t> index;
+  std::map<std::string, int> seen;
+  for (size_t c = 0; c < header.fields.size(); ++c) {
+    const std::string& name = header.fields[c];
+    if (seen[name]++ > 0) {
+      throw ManifestStructureError(display_name + ":" + std::to_string(header.line) + ": column '" + name +
+                                   "' is named twice; keep one");
+    }
+    bool known = false;
+    for (const auto& [known_name, column] : KnownColumns()) {
+      if (name == known_name) {
+        index[column] = c;
+        known = true;
+      }
+    }
+    if (!known) {
+      manifest.warnings.push_back(display_name + ":" + std::to_string(header.line) + ": column '" + name +
+                                  "' is not one dropfit reads; it is ignored");
+    }
+  }
+  std::string found;
+  for (const auto& f : header.fields) found += (found.empty() ? "" : ", ") + f;
+  for (const char* required : {"clip", "drop_height_m", "mass_kg"}) {
+    if (std::none_of(header.fields.begin(), header.fields.end(), [&](const std::string& f) { return f == required; })) {
+      throw ManifestStructureError(display_name + ":" + std::to_string(header.line) + ": required column '" +
+                                   required + "' is missing (found: " + found +
+                                   "); the header needs clip, drop_height_m and mass_kg");
+    }
+  }
+
+  std::map<std::string, int> first_line_of_id;
+  for (auto it = std::next(header_it); it != records.end(); ++it) {
+    if (it->comment_or_blank) continue;
+    ManifestRow row;
+    row.line = it->line;
+    const std::string where = display_name + ":" + std::to_string(row.line) + ": ";
+    auto fail = [&](const std::string& column, const std::string& what) {
+      if (row.error.empty()) row.error = where + "column '" + column + "': " + what;
+    };
+    const auto& f = it->fields;
+    if (f.size() != header.fields.size()) {
+      row.error = where + "has " + std::to_string(f.size()) + " fields but the header has " +
+                  std::to_string(header.fields.size()) + "; check for a missing or extra comma";
+      if (!f.empty() && index.count(Column::kClip) && index[Column::kClip] < f.size()) {
+        row.clip = f[index[Column::kClip]];
+        row.clip_id = ClipIdOf(folder / row.clip);
+      }
+      manifest.rows.push_back(std::move(row));
+      continue;
+    }
+    auto get = [&](Column c) -> const std::string& { return f[index.at(c)]; };
+    row.clip = get(Column::kClip);
+    if (row.clip.empty()) {
+      fail("clip", "is empty; give the clip's file or folder name, relative to the manifest's folder");
+    } else if (LeavesFolder(row.clip)) {
+      fail("clip", "'" + row.clip + "' leaves the clip folder; put the clip inside " + folder.string() +
+                       " and give its path relative to it");
+    } else {
+      row.clip_id = ClipIdOf(folder / row.clip);
+      if (check_files && !std::filesystem::exists(folder / row.clip)) {
+        fail("clip", "'" + row.clip + "' does not exist in " + folder.string() + "; check the file name");
+      }
+    }
+    double value = 0;
+    std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
+    if (err.empty()) row.drop_height_m = value; else fail("drop_height_m", err);
+    err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
+    if (err.empty()) row.mass_kg = value; else fail("mass_kg", err);
+    const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
+        {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
+        {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
+        {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
+        {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
+    };
+    for (const auto& [column, name, target, spec] : optional_numbers) {
+      if (!index.count(column) || get(column).empty()) continue;
+      err = ParsePositive(get(column), spec, value);
+      if (err.empty()) *target = value; else fail(name, err + " (or leave it empty)");
+    }
+    if (index.count(Column::kSpecimen)) row.specimen = get(Column::kSpecimen);
+    if (!row.clip_id.empty()) {
+      auto [pos, inserted] = first_line_of_id.emplace(row.clip_id, row.line);
+      if (!inserted) {
+        row.error = where + "column 'clip': clip id '" + row.clip_id + "' is already used at line " +
+                    std::to_string(pos->second) + "; remove the duplicate row or rename the clip";
+      }
+    }
+    manifest.rows.push_back(std::move(row));
+  }
+  if (manifest.rows.empty()) {
+    manifest.warnings.push_back(display_name + ": lists no clips");
+  }
+  return manifest;
+}
+
+Manifest ReadManifest(const std::filesystem::path& folder) {
+  const std::filesystem::path file = folder / "manifest.csv";
+  const std::string display_name = file.string();
+  if (!std::filesystem::is_directory(folder)) {
+    throw ManifestStructureError(folder.string() + ": is not a folder; give the folder that holds manifest.csv");
+  }
+  std::ifstream in(file, std::ios::binary);
+  if (!in) {
+    throw ManifestStructureError(display_name + ": cannot be read; the clip folder needs a manifest.csv (see README)");
+  }
+  std::ostringstream ss;
+  ss << in.rdbuf();
+  return ParseManifest(ss.str(), folder, display_name, true);
+}
+
+}  // namespace dropfit::cli

@@ -1,0 +1,23 @@
+#include <memory>
+
+#include "cli/calibrate_command.h"
+#include "cli/subcommands.h"
+
+namespace dropfit::cli {
+
+void AddCalibrateCommand(CLI::App& app, CommandAction& action) {
+  auto opts = std::make_shared<CalibrateCommandOptions>();
+  CLI::App* sub = app.add_subcommand("calibrate", "Checkerboard images -> rig file (once per camera set-up)");
+  sub->add_option("inputs", opts->inputs, "Checkerboard images, folders of images, or a video")->required();
+  sub->add_option("--board", opts->board, "Inner corners, columns x rows (e.g. 9x6)");
+  sub->add_option("--square", opts->square_m, "Square size [m]");
+  sub->add_option("--plane", opts->plane_image, "Image whose board lies in the drop plane")->required();
+  sub->add_option("--corner-height", opts->corner_height_m, "Height of the plane view's lowest inner-corner row above the floor [m]");
+  sub->add_option("--up", opts->up, "Image side that physical up points to: top|bottom|left|right");
+  sub->add_option("--fps", opts->fps, "Capture rate of clips filmed with this rig [frames/s]");
+  sub->add_option("-o,--output", opts->out_path, "Rig file to write (JSON)")->required();
+  sub->footer("Example:\n  dropfit calibrate calib_images/ --board 9x6 --square 0.025 --plane calib_images/plane.png --corner-height 0.100 -o rig.json");
+  sub->callback([opts, &action] { action = [opts] { return RunCalibrate(*opts); }; });
+}
+
+}  // namespace dropfit::cli

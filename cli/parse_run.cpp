@@ -1,0 +1,19 @@
+#include <memory>
+
+#include "cli/run_command.h"
+#include "cli/subcommands.h"
+
+namespace dropfit::cli {
+
+void AddRunCommand(CLI::App& app, CommandAction& action) {
+  auto opts = std::make_shared<RunCommandOptions>();
+  CLI::App* sub = app.add_subcommand("run", "A folder of drop clips -> per-height summary, fitted laws, report");
+  sub->add_option("folder", opts->folder, "Clip folder holding manifest.csv")->required();
+  sub->add_option("--rig", opts->rig_path, "Rig file from `dropfit calibrate`")->required();
+  sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
+  sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")->check(CLI::NonNegativeNumber);
+  sub->footer("Example:\n  dropfit run demo_clips --rig demo_clips/rig.json -o demo_out --jobs 2");
+  sub->callback([opts, &action] { action = [opts] { return RunRun(*opts); }; });
+}
+
+}  // namespace dropfit::cli

@@ -1,0 +1,117 @@
+// CSV halves of cli/results.h (the JSON halves are in results_json.cpp).
+#include <charconv>
+#include <cmath>
+#include <fstream>
+#include <sstream>
+#include <stdexcept>
+
+#include "cli/atomic_write.h"
+#include "cli/results.h"
+
+namespace dropfit::cli {
+
+namespace {
+
+std::string Optional(const std::optional<double>& v) { return v ? FormatNumber(*v) : std::string(); }
+
+std::optional<double> ParseOptional(const std::string& text, const std::string& where) {
+  if (text.empty()) return std::nullopt;
+  double value = 0;
+  auto [ptr, ec] = std::from_chars(text.data(), text.data() + text.size(), value);
+  if (ec != std::errc() || ptr != text.data() + text.size()) {
+    throw std::runtime_error(where + ": '" + text + "' is not a number");
+  }
+  return value;
+}
+
+std::vector<std::string> SplitComma(const std::string& line) {
+  std::vector<std::string> out;
+  std::string field;
+  std::istringstream ss(line);
+  while (std::getline(ss, field, ',')) out.push_back(field);
+  if (!line.empty() && line.back() == ',') out.emplace_back();
+  return out;
+}
+
+constexpr const char* kTrackHeader = "frame,t_s,u_px,v_px,x_m,y_m,quality";
+constexpr const char* kSummaryHeader =
+    "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
+    "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
+    "peak_force_n_mean,peak_force_n_sd";
+
+// Quotes a free-text CSV field when it needs it (RFC 4180).
+std::string CsvText(const std::string& s) {
+  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
+  std::string out = "\"";
+  for (char c : s) {
+    if (c == '"') out += '"';
+    out += c;
+  }
+  return out + "\"";
+}
+
+}  // namespace
+
+std::string FormatNumber(double value) {
+  if (!std::isfinite(value)) return {};
+  char buf[64];
+  auto [ptr, ec] = std::to_chars(buf, buf + sizeof(buf), value);
+  return ec == std::errc() ? std::string(buf, ptr) : std::string();
+}
+
+void WriteTrackCsv(const std::filesystem::path& path, const std::vector<TrackRow>& rows) {
+  WriteFileAtomically(path, [&](std::ostream& out) {
+    out << kTrackHeader << '\n';
+    for (const TrackRow& r : rows) {
+      out << r.frame << ',' << FormatNumber(r.t_s) << ',' << Optional(r.u_px) << ',' << Optional(r.v_px) << ','
+          << Optional(r.x_m) << ',' << Optional(r.y_m) << ',' << FormatNumber(r.quality) << '\n';
+    }
+  });
+}
+
+std::vector<TrackRow> ReadTrackCsv(const std::filesystem::path& path) {
+  std::ifstream in(path);
+  if (!in) throw std::runtime_error(path.string() + ": cannot be read");
+  std::string line;
+  if (!std::getline(in, line) || line != kTrackHeader) {
+    throw std::runtime_error(path.string() + ":1: header is not '" + std::string(kTrackHeader) + "'");
+  }
+  std::vector<TrackRow> rows;
+  int line_no = 1;
+  while (std::getline(in, line)) {
+    ++line_no;
+    if (line.empty()) continue;
+    const std::string where = path.string() + ":" + std::to_string(line_no);
+    const auto f = SplitComma(line);
+    if (f.size() != 7) throw std::runtime_error(where + ": expected 7 fields, found " + std::to_string(f.size()));
+    TrackRow r;
+    const auto frame = ParseOptional(f[0], where);
+    const auto t = ParseOptional(f[1], where);
+    if (!frame || !t) throw std::runtime_error(where + ": frame and t_s are required");
+    r.frame = static_cast<int>(*frame);
+    r.t_s = *t;
+    r.u_px = ParseOptional(f[2], where);
+    r.v_px = ParseOptional(f[3], where);
+    r.x_m = ParseOptional(f[4], where);
+    r.y_m = ParseOptional(f[5], where);
+    r.quality = ParseOptional(f[6], where).value_or(0.0);
+    rows.push_back(r);
+  }
+  return rows;
+}
+
+void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<SummaryGroup>& groups) {
+  WriteFileAtomically(path, [&](std::ostream& out) {
+    out << kSummaryHeader << '\n';
+    for (const SummaryGroup& g : groups) {
+      out << CsvText(g.specimen) << ',' << FormatNumber(g.drop_height_m) << ',' << g.clips << ','
+          << FormatNumber(g.impact_speed_mps_mean) << ',' << Optional(g.impact_speed_mps_sd) << ','
+          << FormatNumber(g.cor_mean) << ',' << Optional(g.cor_sd) << ',' << FormatNumber(g.contact_duration_s_mean)
+          << ',' << Optional(g.contact_duration_s_sd) << ',' << FormatNumber(g.max_deflection_m_mean) << ','
+          << Optional(g.max_deflection_m_sd) << ',' << FormatNumber(g.peak_force_n_mean) << ','
+          << Optional(g.peak_force_n_sd) << '\n';
+    }
+  });
+}
+
+}  // namespace dropfit::cli

@@ -1,0 +1,147 @@
+#pragma once
+// The result files of ../shared/contract.md ("What one run writes"), as plain data, with their
+// writers and readers. Field names here are the contract's names; `extra` lists hold the
+// additional figures a result carries beside them (the contract allows adding fields), written
+// in the order given.
+//
+// Every writer goes through WriteFileAtomically. Numbers are written with enough digits to
+// round-trip metres to the nanometre; a non-finite number is written as JSON null / empty CSV.
+
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+namespace dropfit::cli {
+
+using NamedValues = std::vector<std::pair<std::string, double>>;
+using NamedTexts = std::vector<std::pair<std::string, std::string>>;
+
+// One row of track.csv. Coordinates are empty where the marker was not found (never invented).
+struct TrackRow {
+  int frame = 0;                    // counts from 0 in the clip
+  double t_s = 0.0;                 // frame / capture rate: mid-exposure time
+  std::optional<double> u_px, v_px;  // image position, OpenCV pixel convention
+  std::optional<double> x_m, y_m;    // drop-plane position, y up
+  double quality = 0.0;             // [0, 1]
+};
+
+struct GravityCheck {
+  std::optional<double> flight_accel_mps2;  // measured in free flight (downward positive)
+  double expected_mps2 = 9.80665;           // standard gravity (3rd CGPM, 1901) or the user's local g
+};
+
+struct ImpactRecord {
+  double t_contact_s = 0.0;
+  double t_separation_s = 0.0;
+  double impact_speed_mps = 0.0;
+  double rebound_speed_mps = 0.0;
+  double cor = 0.0;
+  double contact_duration_s = 0.0;
+  double max_deflection_m = 0.0;
+  double peak_force_n = 0.0;
+  double onset_height_m = 0.0;
+  std::string onset_height_source = "track";  // "geometry" | "fit" | "track"
+  std::string source = "track";               // "track" or a law id
+  bool complete = true;
+  NamedValues extra;  // uncertainties, track-only estimates, energy lost, ...
+};
+
+struct FitRecord {
+  std::string law;                 // a law id of analysis/contact_law.h
+  NamedValues params;              // contract names, in the law's order
+  NamedValues param_sd;            // standard deviations, same names
+  double onset_height_m = 0.0;
+  std::string onset_height_source = "fit";  // "geometry" or "fit"
+  std::vector<int> bounces;        // indices into `impacts`
+  double rms_residual_m = 0.0;
+  double bic = 0.0;
+  bool converged = false;
+  NamedValues extra;               // e.g. iterations, cost
+  NamedTexts notes;                // e.g. formula, geometry assumed
+};
+
+struct ClipResult {
+  std::string clip;
+  double capture_fps = 0.0;
+  std::string capture_fps_source;  // "option" | "manifest" | "rig" | "container"
+  int frames = 0;
+  int tracked_frames = 0;
+  std::string y_origin = "board";  // "floor" | "board"
+  GravityCheck gravity_check;
+  std::vector<ImpactRecord> impacts;
+  std::vector<FitRecord> fits;
+  std::optional<std::string> best_law;
+  std::vector<std::string> warnings;
+  std::vector<std::string> errors;
+  NamedValues extra;               // e.g. noise estimate, tilt
+  NamedTexts info;                 // e.g. marker kind chosen and why
+};
+
+// One row of summary.csv: a (specimen, nominal height) group. `*_sd` empty for one clip.
+struct SummaryGroup {
+  std::string specimen;
+  double drop_height_m = 0.0;
+  int clips = 0;
+  double impact_speed_mps_mean = 0.0;
+  std::optional<double> impact_speed_mps_sd;
+  double cor_mean = 0.0;
+  std::optional<double> cor_sd;
+  double contact_duration_s_mean = 0.0;
+  std::optional<double> contact_duration_s_sd;
+  double max_deflection_m_mean = 0.0;
+  std::optional<double> max_deflection_m_sd;
+  double peak_force_n_mean = 0.0;
+  std::optional<double> peak_force_n_sd;
+};
+
+struct HoldoutRecord {
+  double drop_height_m = 0.0;
+  double cor_error = 0.0;
+  double contact_duration_error_s = 0.0;
+  double max_deflection_error_m = 0.0;
+};
+
+struct JointFitRecord {
+  FitRecord fit;
+  std::vector<HoldoutRecord> holdout;
+};
+
+struct SpecimenSummary {
+  std::string specimen;
+  std::optional<std::string> best_law;
+  std::vector<JointFitRecord> joint_fits;
+};
+
+struct ClipMessage {
+  std::string clip;
+  std::string message;
+};
+
+struct Summary {
+  std::vector<SummaryGroup> groups;
+  std::vector<SpecimenSummary> specimens;
+  std::vector<ClipMessage> errors;
+  std::vector<ClipMessage> warnings;
+};
+
+// track.csv
+void WriteTrackCsv(const std::filesystem::path& path, const std::vector<TrackRow>& rows);
+// Throws std::runtime_error naming the file and line on a malformed file.
+std::vector<TrackRow> ReadTrackCsv(const std::filesystem::path& path);
+
+// result.json
+void WriteClipResult(const std::filesystem::path& path, const ClipResult& result);
+ClipResult ReadClipResult(const std::filesystem::path& path);
+
+// summary.csv and summary.json
+void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<SummaryGroup>& groups);
+void WriteSummaryJson(const std::filesystem::path& path, const Summary& summary);
+Summary ReadSummaryJson(const std::filesystem::path& path);
+
+// Formats a number for CSV: shortest text that round-trips a double (%.17g trimmed), empty for
+// a non-finite value.
+std::string FormatNumber(double value);
+
+}  // namespace dropfit::cli

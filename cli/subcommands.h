@@ -1,0 +1,21 @@
+#pragma once
+// CLI11 bindings of the subcommands (only main.cpp and parse_*.cpp include this file).
+// Each Add<Command>Command adds its subcommand to `app` with options bound to a plain options
+// struct, and, when the subcommand is chosen, sets `action` to call Run<Command>(options).
+
+#include <CLI/CLI.hpp>
+
+#include <functional>
+
+namespace dropfit::cli {
+
+using CommandAction = std::function<int()>;
+
+void AddCalibrateCommand(CLI::App& app, CommandAction& action);
+void AddTrackCommand(CLI::App& app, CommandAction& action);
+void AddAnalyzeCommand(CLI::App& app, CommandAction& action);
+void AddRunCommand(CLI::App& app, CommandAction& action);
+void AddRenderCommand(CLI::App& app, CommandAction& action);
+void AddReportCommand(CLI::App& app, CommandAction& action);
+
+}  // namespace dropfit::cli
