@@ -248,8 +248,8 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
       fail("clip", "'" + row.clip + "' leaves the clip folder; put the clip inside " + folder.string() +
                        " and give its path relative to it");
     } else {
-      row.clip_id = ClipIdOf(folder / row.clip);
-      if (check_files && !std::filesystem::exists(folder / row.clip)) {
+      row.clip_id = ClipIdOf(folder / std::filesystem::path(row.clip).lexically_normal());
+      if (check_files && !std::filesystem::exists(folder / std::filesystem::path(row.clip).lexically_normal())) {
         fail("clip", "'" + row.clip + "' does not exist in " + folder.string() + "; check the file name");
       }
     }

@@ -13,8 +13,9 @@ namespace dropfit::cli {
 
 namespace {
 
-using nlohmann::json;
 using nlohmann::ordered_json;
+// Read with insertion order kept, so parameter lists come back in the law's order.
+using json = nlohmann::ordered_json;
 
 ordered_json Number(double v) { return std::isfinite(v) ? ordered_json(v) : ordered_json(nullptr); }
 ordered_json Number(const std::optional<double>& v) { return v ? Number(*v) : ordered_json(nullptr); }
