@@ -1,6 +1,8 @@
 #include "analysis/contact_law.h"
 
 #include <array>
+#include <cmath>
+#include <sstream>
 #include <stdexcept>
 #include <utility>
 
@@ -55,5 +57,58 @@ LawId LawIdFromString(const std::string& text) {
 }
 
 const std::vector<std::string>& ParameterNames(LawId law) { return Info(law).parameters; }
+
+int ParameterCount(LawId law) { return static_cast<int>(Info(law).parameters.size()); }
+
+bool IsMultiplicativeDamping(LawId law) {
+  return law == LawId::kHuntCrossley || law == LawId::kHertz || law == LawId::kVolumetric;
+}
+
+std::string ValidateLawParameters(LawId law, const std::vector<double>& params) {
+  const auto& names = ParameterNames(law);
+  std::ostringstream message;
+  message << ToString(law) << ": ";
+  if (params.size() != names.size()) {
+    message << "expected " << names.size() << " parameters, got " << params.size();
+    return message.str();
+  }
+  for (std::size_t i = 0; i < params.size(); ++i) {
+    if (!std::isfinite(params[i])) {
+      message << names[i] << " = " << params[i] << " is not finite";
+      return message.str();
+    }
+  }
+  auto fail = [&](std::size_t i, const char* requirement) {
+    message << names[i] << " = " << params[i] << " " << requirement;
+    return message.str();
+  };
+  switch (law) {
+    case LawId::kKelvinVoigt:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (!(params[1] >= 0.0)) return fail(1, "must not be negative");
+      break;
+    case LawId::kHuntCrossley:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (!(params[1] >= 1.0 && params[1] <= 4.0)) return fail(1, "is outside [1, 4]");
+      if (!(params[2] >= 0.0)) return fail(2, "must not be negative");
+      break;
+    case LawId::kHertz:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (params[1] != 1.5) return fail(1, "must be 1.5 (fixed for the hertz law)");
+      if (!(params[2] >= 0.0)) return fail(2, "must not be negative");
+      break;
+    case LawId::kBilinear:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (!(params[1] > 0.0)) return fail(1, "must be positive");
+      if (!(params[2] > 0.0)) return fail(2, "must be positive");
+      if (!(params[3] >= 0.0)) return fail(3, "must not be negative");
+      break;
+    case LawId::kVolumetric:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (!(params[1] >= 0.0)) return fail(1, "must not be negative");
+      break;
+  }
+  return "";
+}
 
 }  // namespace dropfit::analysis

@@ -19,6 +19,8 @@
 #include <string>
 #include <vector>
 
+#include "analysis/geometry.h"
+
 namespace dropfit::analysis {
 
 enum class LawId { kKelvinVoigt, kHuntCrossley, kHertz, kBilinear, kVolumetric };
@@ -34,4 +36,64 @@ LawId LawIdFromString(const std::string& text);
 // The parameter names the contract fixes for each law, in a fixed order.
 const std::vector<std::string>& ParameterNames(LawId law);
 
+// ---------------------------------------------------------------------------------------
+// Force evaluation.
+//
+// Parameter arrays hold the law's parameters in ParameterNames(law) order, in the units of
+// those names:
+//   kelvin-voigt   {k_n_per_m, c_ns_per_m}
+//   hunt-crossley  {k [N/m^n], n [-], alpha_s_per_m}
+//   hertz          {k [N/m^1.5], n (must be 1.5; the force always uses 1.5), alpha_s_per_m}
+//   bilinear       {k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m}
+//   volumetric     {kv_n_per_m3, a_s_per_m}   (+ the TreadGeometry, which is data)
+// Valid ranges (checked by ValidateLawParameters): stiffnesses > 0 and finite; damping
+// c, alpha, a >= 0; 1 <= n <= 4 (hunt-crossley); n == 1.5 (hertz); knee_m > 0.
+//
+// Equations and sources:
+//   kelvin-voigt   F = k delta + c delta_dot (linear spring-dashpot; with separation where
+//                  F returns to zero: Schwager & Poeschel 2007, Granular Matter 9, eq. 21).
+//   hunt-crossley  F = k delta^n (1 + alpha delta_dot)  (Hunt & Crossley 1975, ASME J. Appl.
+//                  Mech. 42:440-445; their damping coefficient lambda = alpha k).
+//   hertz          F = k delta^1.5 (1 + alpha delta_dot) (Hertz contact of a sphere;
+//                  K. L. Johnson, Contact Mechanics 1985, section 11.4, FROM MEMORY).
+//   bilinear       F = S(delta) + c delta_dot, S = k1 delta for delta <= knee,
+//                  k1 knee + k2 (delta - knee) beyond (continuous; common practice, no source).
+//   volumetric     F = kv V(delta) (1 + a delta_dot), V the interpenetration volume of the
+//                  tread (Gonthier et al. 2004, Multibody Syst. Dyn. 11:209-233; equation
+//                  number unconfirmed). With no geometry a cylinder of unit width.
+constexpr int kMaxLawParameters = 4;
+
+// Number of parameters of the law (= ParameterNames(law).size()).
+int ParameterCount(LawId law);
+
+// Empty string when the parameters are valid for the law; otherwise a message naming the
+// law, the parameter and its value, e.g. "hunt-crossley: n = 7 is outside [1, 4]".
+std::string ValidateLawParameters(LawId law, const std::vector<double>& params);
+
+// The law's force before clamping, F_raw(delta, delta_dot) in newtons, for delta > 0.
+// For delta <= 0 it returns a smooth odd continuation (the power-law and volumetric terms
+// become -K(-delta); the linear ones stay linear) so that an integrator may evaluate stages
+// just past separation; callers that want the physical force use ContactForce.
+// `params` points to ParameterCount(law) values. `geometry` is used by volumetric only.
+template <typename T>
+T UnclampedContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m,
+                        const T& delta_dot_mps);
+
+// The physical contact force: 0 for delta <= 0, else max(0, F_raw). Never tensile.
+template <typename T>
+T ContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m,
+               const T& delta_dot_mps);
+
+// The elastic part S(delta) = F_raw(delta, 0) >= 0 (delta >= 0), e.g. for the static
+// deflection m g = S(delta_static).
+template <typename T>
+T ElasticContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m);
+
+// True for the laws whose force factors as K(delta) (1 + d delta_dot) (hunt-crossley, hertz,
+// volumetric): their force is zero exactly where delta = 0 or 1 + d delta_dot = 0.
+// False for the additive laws (kelvin-voigt, bilinear): F = S(delta) + c delta_dot.
+bool IsMultiplicativeDamping(LawId law);
+
 }  // namespace dropfit::analysis
+
+#include "analysis/contact_law_detail.h"

@@ -52,6 +52,37 @@ UpSide UpSideFromString(const std::string& text) { return FromString(text, kUpSi
 std::string ToString(YOrigin origin) { return origin == YOrigin::kFloor ? "floor" : "board"; }
 YOrigin YOriginFromString(const std::string& text) { return FromString(text, kYOrigins, "y_origin"); }
 
+BoardSpec BoardSizeFromString(const std::string& text, double square_m) {
+  BoardSpec board;
+  board.square_m = square_m;
+  const auto x = text.find_first_of("xX");
+  bool ok = x != std::string::npos && x > 0 && x + 1 < text.size();
+  if (ok) {
+    try {
+      size_t used_c = 0, used_r = 0;
+      board.columns = std::stoi(text.substr(0, x), &used_c);
+      board.rows = std::stoi(text.substr(x + 1), &used_r);
+      ok = used_c == x && used_r == text.size() - x - 1;
+    } catch (const std::exception&) {
+      ok = false;
+    }
+  }
+  if (!ok || board.columns < 3 || board.rows < 3) {
+    throw std::invalid_argument("board size '" + text +
+                                "' is not COLUMNSxROWS of inner corners, each at least 3 (e.g. 9x6 for a board of "
+                                "10 x 7 squares)");
+  }
+  if (!(std::isfinite(square_m) && square_m > 0)) {
+    throw std::invalid_argument("square size " + std::to_string(square_m) +
+                                " m is not a positive number; give the side of one square in metres (e.g. 0.025)");
+  }
+  return board;
+}
+
+std::string BoardSizeToString(const BoardSpec& board) {
+  return std::to_string(board.columns) + "x" + std::to_string(board.rows);
+}
+
 std::optional<std::string> ValidateRig(const Rig& rig) {
   if (rig.schema_version != Rig::kSchemaVersion) {
     return "unknown rig schema version " + std::to_string(rig.schema_version) + " (this dropfit reads " +

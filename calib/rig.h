@@ -19,6 +19,7 @@
 
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace dropfit::calib {
@@ -51,7 +52,23 @@ struct RigQuality {
   double square_error_max_mm = 0.0;           // ... and worst
   double metres_per_px_centre = 0.0;          // scale at the image centre
   double board_coverage_fraction = 0.0;       // area of the plane view's board / image area
+  // Added with `dropfit calibrate`:
+  std::string distortion_terms;               // lens terms fitted, e.g. "k1,k2" ("" without a lens)
+  double views_coverage_fraction = 0.0;       // share of the frame covered by the lens views' boards
+  double tilt_spread_deg = 0.0;               // largest angle between two lens views' board normals
+  double lowest_corner_row_px = 0.0;          // plane view: image row (v) of the lowest inner corners
 };
+
+// The checkerboard: inner corners (not squares: a board of 10 x 7 squares has 9 x 6 inner
+// corners) and the side of one square.
+struct BoardSpec {
+  int columns = 9;        // inner corners per row, >= 3
+  int rows = 6;           // inner corners per column, >= 3
+  double square_m = 0.025;  // side of one square [m], > 0
+};
+// "9x6" <-> BoardSpec{9, 6}. Throws std::invalid_argument naming the text and the expected form.
+BoardSpec BoardSizeFromString(const std::string& text, double square_m);
+std::string BoardSizeToString(const BoardSpec& board);
 
 struct Rig {
   static constexpr int kSchemaVersion = 1;
@@ -72,6 +89,11 @@ struct Rig {
   std::string tool_version;
   std::vector<std::pair<std::string, std::string>> input_hashes;  // (file, FNV-1a 64 hex)
   std::vector<std::string> warnings;
+  // Added with `dropfit calibrate`:
+  BoardSpec board;                           // the board the rig was calibrated with
+  std::string plane_view;                    // name of the view that lies in the drop plane
+  // The options the calibration ran with, as (name, value) text, so a rig can be remade.
+  std::vector<std::pair<std::string, std::string>> settings;
 };
 
 // Returns a message naming what is wrong (NaN, non-invertible mapping, bad image size...),

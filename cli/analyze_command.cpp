@@ -1,14 +1,282 @@
 #include "cli/analyze_command.h"
 
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
 #include <iostream>
+#include <sstream>
+#include <stdexcept>
 
+#include "calib/rig.h"
 #include "cli/exit_status.h"
+#include "cli/manifest.h"
+#include "cli/rig_io.h"
+#include "cli/track_command.h"
+#include "tracker/frame_source.h"
+#include "tracker/track.h"
 
 namespace dropfit::cli {
+namespace {
 
-int RunAnalyze(const AnalyzeCommandOptions& /*options*/) {
-  std::cerr << "dropfit analyze: not built yet (its issue is open); nothing was written\n";
+namespace fs = std::filesystem;
+using analysis::Estimate;
+
+constexpr double kStandardGravityMps2 = 9.80665;  // 3rd CGPM, 1901
+
+std::string Num(double v) {
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.10g", v);
+  return buf;
+}
+
+int BadUsage(const std::string& message) {
+  std::cerr << "dropfit analyze: " << message << "\n";
   return kExitBadUsage;
+}
+
+// value, and its sd beside it under `sd_name`.
+void AddEstimate(NamedValues& extra, const std::string& name, const std::string& sd_name, const Estimate& e) {
+  extra.push_back({name, e.value});
+  extra.push_back({sd_name, e.sd});
+}
+
+std::string PositiveRangeMessage(const std::string& option, double value, double max, const std::string& unit) {
+  return option + " " + Num(value) + " is outside (0, " + Num(max) + "] " + unit;
+}
+
+}  // namespace
+
+std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o) {
+  auto in_range = [](double v, double max) { return std::isfinite(v) && v > 0.0 && v <= max; };
+  if (!in_range(o.mass_kg, 1e4)) return PositiveRangeMessage("--mass", o.mass_kg, 1e4, "kg: give the dropped mass");
+  if (o.fps && !in_range(*o.fps, 1e7)) return PositiveRangeMessage("--fps", *o.fps, 1e7, "frames/s");
+  if (o.drop_height_m && !in_range(*o.drop_height_m, 100.0))
+    return PositiveRangeMessage("--drop-height", *o.drop_height_m, 100.0, "m");
+  if (o.free_radius_m && !in_range(*o.free_radius_m, 10.0))
+    return PositiveRangeMessage("--free-radius", *o.free_radius_m, 10.0, "m");
+  if (o.gravity_mps2 && !in_range(*o.gravity_mps2, 100.0))
+    return PositiveRangeMessage("--gravity", *o.gravity_mps2, 100.0, "m/s^2 (standard gravity is 9.80665)");
+  if (o.out_dir.empty()) return std::string("-o DIR is required: the folder for result.json and track.csv");
+  return std::nullopt;
+}
+
+analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps) {
+  const int first_frame = rows.empty() ? 0 : rows.front().frame;
+  analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(rows.size()), fps, first_frame);
+  for (size_t i = 0; i < rows.size(); ++i) {
+    if (rows[i].frame != first_frame + static_cast<int>(i)) {
+      throw std::invalid_argument("track rows are not consecutive frames: row " + std::to_string(i) + " is frame " +
+                                  std::to_string(rows[i].frame) + ", expected " +
+                                  std::to_string(first_frame + static_cast<int>(i)));
+    }
+    if (rows[i].x_m && rows[i].y_m) {
+      series.x_m[i] = *rows[i].x_m;
+      series.y_m[i] = *rows[i].y_m;
+      series.valid[i] = true;
+    }
+  }
+  return series;
+}
+
+void AddKinematicsToResult(const analysis::KinematicsResult& kin, const std::string& clip, ClipResult& result) {
+  const analysis::Segmentation& seg = kin.segmentation;
+  result.gravity_check.expected_mps2 = kin.checks.gravity.expected_mps2;
+  if (std::isfinite(kin.checks.gravity.flight_accel_mps2.value))
+    result.gravity_check.flight_accel_mps2 = kin.checks.gravity.flight_accel_mps2.value;
+  for (const analysis::ImpactFigures& f : kin.impacts) {
+    ImpactRecord r;
+    r.t_contact_s = f.t_contact_s.value;
+    r.impact_speed_mps = f.impact_speed_mps.value;
+    r.rebound_speed_mps = f.rebound_speed_mps.value;
+    r.cor = f.cor.value;
+    r.max_deflection_m = f.max_deflection_m.value;
+    r.onset_height_m = f.onset_height_m;
+    r.onset_height_source = analysis::ToString(f.onset_height_source);
+    r.complete = f.complete;
+    // No law fitted yet: the track-only estimates stand in the contract's fields.
+    r.source = "track";
+    r.t_separation_s = f.t_separation_track_s.value;
+    r.contact_duration_s = f.contact_duration_track_s.value;
+    r.peak_force_n = f.peak_force_track_n.value;
+    NamedValues& x = r.extra;
+    x.push_back({"bounce", static_cast<double>(f.bounce_index)});
+    x.push_back({"t_contact_sd_s", f.t_contact_s.sd});
+    x.push_back({"impact_speed_sd_mps", f.impact_speed_mps.sd});
+    x.push_back({"rebound_speed_sd_mps", f.rebound_speed_mps.sd});
+    x.push_back({"cor_sd", f.cor.sd});
+    x.push_back({"max_deflection_sd_m", f.max_deflection_m.sd});
+    x.push_back({"onset_height_sd_m", f.onset_height_sd_m});
+    AddEstimate(x, "cor_from_apex", "cor_from_apex_sd", f.cor_from_apex);
+    AddEstimate(x, "drop_height_above_onset_m", "drop_height_above_onset_sd_m", f.drop_height_above_onset_m);
+    AddEstimate(x, "rebound_height_above_onset_m", "rebound_height_above_onset_sd_m", f.rebound_height_above_onset_m);
+    AddEstimate(x, "t_separation_track_s", "t_separation_track_sd_s", f.t_separation_track_s);
+    AddEstimate(x, "contact_duration_track_s", "contact_duration_track_sd_s", f.contact_duration_track_s);
+    AddEstimate(x, "peak_force_track_n", "peak_force_track_sd_n", f.peak_force_track_n);
+    x.push_back({"t_peak_force_track_s", f.t_peak_force_track_s});
+    AddEstimate(x, "energy_lost_j", "energy_lost_sd_j", f.energy_lost_j);
+    const analysis::Bounce& b = seg.bounces[static_cast<size_t>(f.bounce_index)];
+    x.push_back({"t_lowest_s", b.t_lowest_s});
+    x.push_back({"y_lowest_m", b.y_lowest_m});
+    result.impacts.push_back(r);
+  }
+  NamedValues& x = result.extra;
+  x.push_back({"noise_sd_m", seg.noise_sd_m});
+  x.push_back({"onset_height_m", seg.onset_height_m});
+  x.push_back({"onset_height_sd_m", seg.onset_height_sd_m});
+  result.info.push_back({"onset_height_source", analysis::ToString(seg.onset_height_source)});
+  x.push_back({"flight_accel_sd_mps2", kin.checks.gravity.flight_accel_mps2.sd});
+  x.push_back({"gravity_ratio", kin.checks.gravity.ratio});
+  x.push_back({"flights", static_cast<double>(seg.flights.size())});
+  if (kin.checks.tilt) {
+    x.push_back({"tilt_deg", kin.checks.tilt->tilt_deg.value});
+    x.push_back({"tilt_sd_deg", kin.checks.tilt->tilt_deg.sd});
+  }
+  if (kin.checks.drop_height) {
+    x.push_back({"expected_impact_speed_mps", kin.checks.drop_height->expected_speed_mps});
+    x.push_back({"implied_drop_height_m", kin.checks.drop_height->implied_height_m});
+  }
+  for (const std::string& w : kin.warnings) result.warnings.push_back(clip + ": " + w);
+  if (kin.failure) result.errors.push_back(clip + ": " + *kin.failure);
+}
+
+int RunAnalyze(const AnalyzeCommandOptions& options) {
+  // Everything the command cannot start from is checked before anything is written.
+  if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(*message);
+  tracker::TrackOptions track_options;
+  try {
+    track_options.marker = tracker::MarkerKindFromString(options.marker);
+    if (!options.seed.empty()) track_options.seed_px = ParseSeed(options.seed);
+  } catch (const std::invalid_argument& e) {
+    return BadUsage(e.what());
+  }
+  if (auto message = tracker::ValidateTrackOptions(track_options)) return BadUsage(*message);
+  calib::Rig rig;
+  try {
+    rig = ReadRigFile(options.rig_path);
+  } catch (const std::exception& e) {
+    return BadUsage(std::string(e.what()) + "; nothing was written");
+  }
+  const fs::path clip_path(options.clip);
+  std::error_code ec;
+  if (!fs::exists(clip_path, ec)) return BadUsage(options.clip + ": no such file or folder; check the path");
+
+  std::unique_ptr<tracker::FrameSource> source;
+  std::string open_error;
+  try {
+    source = tracker::FrameSource::Open(clip_path);
+  } catch (const std::exception& e) {
+    open_error = e.what();
+  }
+  const std::optional<double> container_fps = source ? source->info().container_fps : std::nullopt;
+  const std::optional<CaptureRate> rate = ResolveCaptureRate(options.fps, std::nullopt, rig.capture_fps, container_fps);
+  if (source && !rate) {
+    return BadUsage(options.clip + ": no capture rate is known (no --fps, none in " + options.rig_path +
+                    ", none in the clip's container); give --fps N with the camera's true frames per second");
+  }
+  if (source && !rig.image_size.empty() && source->info().size != rig.image_size) {
+    const cv::Size s = source->info().size;
+    return BadUsage(options.rig_path + " was made for " + std::to_string(rig.image_size.width) + "x" +
+                    std::to_string(rig.image_size.height) + " images but " + options.clip + " has " +
+                    std::to_string(s.width) + "x" + std::to_string(s.height) +
+                    " frames; calibrate this camera set-up (dropfit calibrate) and pass its rig");
+  }
+  const fs::path out(options.out_dir);
+  fs::create_directories(out, ec);
+  if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
+
+  ClipResult result;
+  result.clip = ClipIdOf(clip_path);
+  result.y_origin = calib::ToString(rig.y_origin);
+  const double gravity = options.gravity_mps2.value_or(kStandardGravityMps2);
+
+  // The onset height from the geometry needs the floor (y = 0) and the free radius.
+  std::optional<double> onset_height_m;
+  if (options.free_radius_m) {
+    if (rig.y_origin == calib::YOrigin::kFloor) {
+      onset_height_m = *options.free_radius_m;
+    } else {
+      result.warnings.push_back(result.clip + ": --free-radius is not used: " + options.rig_path +
+                                " does not know the floor (y_origin \"board\"); the onset height is estimated from "
+                                "the track. Calibrate with the board's corner height to use the geometry");
+    }
+  }
+
+  // The effective options, written beside the results.
+  {
+    std::ostringstream text;
+    text << "mass_kg=" << Num(options.mass_kg);
+    if (rate) text << " fps=" << Num(rate->fps) << " (" << rate->source << ")";
+    text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
+    if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
+    if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
+    text << " onset_height=" << (onset_height_m ? "geometry" : "track");
+    text << " marker=" << options.marker;
+    if (!options.seed.empty()) text << " seed=" << options.seed;
+    text << " rig=" << options.rig_path;
+    result.info.push_back({"clip_path", options.clip});
+    result.info.push_back({"analyze_options", text.str()});
+  }
+
+  std::vector<TrackRow> rows;
+  if (!source) {
+    result.errors.push_back(open_error);
+  } else {
+    result.capture_fps = rate->fps;
+    result.capture_fps_source = rate->source;
+    if (rate->warning) result.warnings.push_back(options.clip + ": " + *rate->warning);
+    tracker::Track track;
+    try {
+      track = tracker::TrackClip(*source, track_options);
+    } catch (const std::exception& e) {
+      return BadUsage(e.what());
+    }
+    AddTrackToResult(track, result);
+    rows = TrackRowsFromTrack(track, rig, rate->fps);
+    if (track.frames == 0) {
+      result.errors.push_back(options.clip + ": no frames could be read");
+    } else if (track.tracked_frames == 0) {
+      result.errors.push_back(result.clip + ": the hub marker was not found on any frame; check the marker kind "
+                                            "(--marker) or give its position with --seed U,V");
+    } else {
+      analysis::KinematicsOptions kin_options;
+      kin_options.mass_kg = options.mass_kg;
+      kin_options.gravity_mps2 = gravity;
+      kin_options.onset_height_m = onset_height_m;
+      kin_options.onset_height_source = analysis::OnsetHeightSource::kGeometry;
+      kin_options.drop_height_m = options.drop_height_m;
+      kin_options.capture_fps = rate->fps;
+      const analysis::KinematicsResult kinematics =
+          analysis::AnalyzeKinematics(TimeSeriesFromTrackRows(rows, rate->fps), kin_options);
+      AddKinematicsToResult(kinematics, result.clip, result);
+
+      // ---- Contact-law fits go here (analysis/law_fit.h, helper-6 / the lead). ----
+      // From `kinematics.segmentation` and `kinematics.impacts` (analysis::MakeFitClip), fit
+      // every law (analysis::FitAllLaws); fill result.fits and result.best_law; for the best
+      // law, replace each impact's t_separation_s, contact_duration_s and peak_force_n with
+      // the law's force-zero instant and force history, set source to the law id (the
+      // track-only figures stay beside them as *_track_*), and, when the onset height was not
+      // from the geometry, re-run analysis::AnalyzeKinematics with the fitted onset height
+      // (onset_height_source kFit) so that speeds and COR are read at that height.
+    }
+  }
+
+  WriteTrackCsv(out / "track.csv", rows);
+  WriteClipResult(out / "result.json", result);
+
+  for (const std::string& w : result.warnings) std::cerr << "warning: " << w << "\n";
+  for (const std::string& e : result.errors) std::cerr << "error: " << e << "\n";
+  std::cout << result.clip << ": " << result.tracked_frames << " of " << result.frames << " frames tracked, "
+            << result.impacts.size() << " impact" << (result.impacts.size() == 1 ? "" : "s");
+  for (const ImpactRecord& r : result.impacts) {
+    if (!r.complete) continue;
+    char line[160];
+    std::snprintf(line, sizeof line, "; first complete: impact %.4f m/s, rebound %.4f m/s, COR %.4f", r.impact_speed_mps,
+                  r.rebound_speed_mps, r.cor);
+    std::cout << line;
+    break;
+  }
+  std::cout << "\nwrote " << (out / "track.csv").string() << " and " << (out / "result.json").string() << "\n";
+  return result.errors.empty() ? kExitDone : kExitPartial;
 }
 
 }  // namespace dropfit::cli

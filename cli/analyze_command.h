@@ -1,23 +1,58 @@
 #pragma once
-// `dropfit analyze`: one clip -> impacts, COR, fitted contact laws (result.json, track.csv).
+// `dropfit analyze`: one clip -> hub track, impacts with COR and their uncertainties, set-up
+// self-checks (result.json, track.csv per ../shared/contract.md).
+//
+// Steps: read the rig (cli/rig_io.h); track the hub marker (tracker/track.h); pixels to
+// drop-plane metres (calib::PlaneFromImage); the track-only analysis
+// (analysis/kinematics.h: segmentation, impact figures, gravity / tilt / drop-height checks);
+// [contact-law fits: see the marked place in analyze_command.cpp]; write the files.
+//
+// Onset height: with --free-radius and a rig whose y_origin is "floor", the hub height at
+// which contact begins is the free radius (source "geometry"); otherwise it is estimated from
+// the track ("track"), to be refined by a law fit ("fit").
+//
+// Exit status (contract): 0 done (warnings allowed); 1 the clip could not be analysed (no
+// frames, no impact found...), the reason in result.json's errors and on stderr, both files
+// still written; 2 bad options or an unreadable rig, nothing written.
 
 #include <optional>
 #include <string>
 #include <vector>
 
+#include "analysis/kinematics.h"
+#include "analysis/time_series.h"
+#include "cli/results.h"
+
 namespace dropfit::cli {
 
 struct AnalyzeCommandOptions {
-  std::string clip;                 // video file or folder of numbered images
-  std::string rig_path;             // rig.json
-  double mass_kg = 0.0;             // dropped mass [kg]
-  std::optional<double> fps;        // true capture rate [frames/s]
-  std::optional<double> drop_height_m;   // nominal drop height [m]
-  std::optional<double> free_radius_m;   // unloaded radius, hub to tread [m]
-  std::string out_dir;              // folder for result.json and track.csv
+  std::string clip;                      // video file or folder of numbered images
+  std::string rig_path;                  // rig.json from `dropfit calibrate`
+  double mass_kg = 0.0;                  // dropped mass [kg]; (0, 1e4]
+  std::optional<double> fps;             // true capture rate [frames/s]; > 0; overrides rig and container
+  std::optional<double> drop_height_m;   // nominal drop height [m]; (0, 100]; for the drop-height check
+  std::optional<double> free_radius_m;   // unloaded radius, hub to tread [m]; (0, 10]
+  std::optional<double> gravity_mps2;    // local gravity [m/s^2]; (0, 100]; default standard
+                                         // gravity 9.80665 (3rd CGPM, 1901)
+  std::string marker = "auto";           // auto|quadrant|dot|template (tracker/marker_kind.h)
+  std::string seed;                      // "U,V" [px] to pick one marker among several
+  std::string out_dir;                   // folder for result.json and track.csv
 };
+// A message naming the first bad option and its valid range, or nothing.
+std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& options);
 
 // Returns the contract's exit status.
 int RunAnalyze(const AnalyzeCommandOptions& options);
+
+// The analysis library's time series from track.csv rows (frames consecutive from the first
+// row's; a row without metres is a missing sample). Throws std::invalid_argument when the
+// rows are not consecutive frames or fps is not > 0.
+analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps);
+
+// Fills result.json's analysis fields from a track-only analysis: gravity_check, impacts
+// (contract fields, source "track"; uncertainties and track-only figures beside them as
+// <figure>_sd_<unit> and *_track_*), clip extras (noise_sd_m, onset height, tilt, checks),
+// warnings, and an error when the analysis failed. `clip` prefixes the error.
+void AddKinematicsToResult(const analysis::KinematicsResult& kinematics, const std::string& clip, ClipResult& result);
 
 }  // namespace dropfit::cli

@@ -1,6 +1,16 @@
 #pragma once
 // `dropfit calibrate`: checkerboard images -> rig file (once per camera set-up).
+//
+//   dropfit calibrate IMAGES_OR_FOLDER_OR_VIDEO... --board 9x6 --square 0.025 --plane IMAGE
+//                     [--corner-height M] [--up top|bottom|left|right] [--fps N] [--force] -o rig.json
+//
+// Reads the inputs (calib/calibration_input.h), calibrates (calib/calibrate.h), prints the
+// quality figures, and writes the rig (cli/rig_io.h) with the effective options under
+// "calibrate_options". Exit status: 0 rig written (warnings on stderr); 2 bad usage, an input
+// that cannot be read, or a calibration refused by its quality gates (the reason and what to do
+// on stderr), with nothing written.
 
+#include <iosfwd>
 #include <optional>
 #include <string>
 #include <vector>
@@ -15,10 +25,13 @@ struct CalibrateCommandOptions {
   std::optional<double> corner_height_m;  // height of the plane view's lowest inner-corner row above the floor [m]
   std::string up = "top";           // image side that physical up points to
   std::optional<double> fps;        // capture rate of the clips filmed with this rig [frames/s]
+  bool force = false;               // write the rig despite too few views or a high RMS (with warnings)
   std::string out_path;             // rig.json to write
 };
 
-// Returns the contract's exit status.
+// Returns the contract's exit status. Messages go to `err`, the summary to `out`.
+int RunCalibrate(const CalibrateCommandOptions& options, std::ostream& out, std::ostream& err);
+// Same, on std::cout and std::cerr.
 int RunCalibrate(const CalibrateCommandOptions& options);
 
 }  // namespace dropfit::cli

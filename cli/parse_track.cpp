@@ -1,21 +1,32 @@
 #include <memory>
 
-#include "cli/track_command.h"
 #include "cli/subcommands.h"
+#include "cli/track_command.h"
 
 namespace dropfit::cli {
 
 void AddTrackCommand(CLI::App& app, CommandAction& action) {
   auto opts = std::make_shared<TrackCommandOptions>();
   CLI::App* sub = app.add_subcommand("track", "One clip -> sub-pixel hub-marker track (track.csv, result.json)");
-  sub->add_option("clip", opts->clip, "Video file or folder of numbered images")->required();
-  sub->add_option("--rig", opts->rig_path, "Rig file from `dropfit calibrate`")->required();
-  sub->add_option("--fps", opts->fps, "True capture rate [frames/s]");
-  sub->add_option("--marker", opts->marker, "Marker kind: auto|quadrant|dot|template");
-  sub->add_option("--seed", opts->seed, "Marker position U,V [px] in the first frame");
-  sub->add_option("--overlay", opts->overlay_path, "Write an overlay video for checking by eye");
-  sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
-  sub->footer("Example:\n  dropfit track demo_clips/drop_0400_a.avi --rig demo_clips/rig.json -o out/track_a");
+  sub->add_option("clip", opts->clip, "Video file (e.g. MJPG .avi) or folder of numbered images (PNG, TIFF, BMP, JPEG)")
+      ->required();
+  sub->add_option("--rig", opts->rig_path, "Rig file from `dropfit calibrate` (pixels -> metres)")->required();
+  sub->add_option("--fps", opts->fps,
+                  "True capture rate [frames/s]; wins over the rig's and the container's (a container rate of "
+                  "120 or less is taken for a playback rate and warned about)");
+  sub->add_option("--marker", opts->marker,
+                  "Marker kind: auto (detect; quadrant discs first), quadrant (disc of black and white quarters), "
+                  "dot (plain dot, bright or dark), template (any textured patch; needs --seed)")
+      ->default_val("auto");
+  sub->add_option("--seed", opts->seed, "Marker centre U,V [px] in the first frame, to pick one among several");
+  sub->add_option("--overlay", opts->overlay_path,
+                  "Also write a video (.avi, .mp4, .mov, .mkv) showing the found centre, search window and trail");
+  sub->add_option("-o,--output", opts->out_dir, "Output folder for track.csv and result.json")->required();
+  sub->footer(
+      "Exit status: 0 tracked; 1 tracked in part or not at all (reasons in result.json and on stderr);\n"
+      "2 bad usage or unusable input (nothing written).\n"
+      "Example:\n  dropfit track clips/drop_0400_a.avi --rig rig.json --fps 2000 -o out/drop_0400_a "
+      "--overlay out/drop_0400_a/overlay.avi\n");
   sub->callback([opts, &action] { action = [opts] { return RunTrack(*opts); }; });
 }
 

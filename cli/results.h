@@ -27,6 +27,20 @@ struct TrackRow {
   double quality = 0.0;             // [0, 1]
 };
 
+// A sampled curve kept for the report, so `dropfit report` can redraw without re-running.
+// `kind` says what it shows and fixes the axes:
+//   "trajectory"            t_s -> y_m of a law's simulated hub height (name = law id)
+//   "residual"              t_s -> measured minus simulated y_m (name = law id)
+//   "force_deflection"      delta_m -> force_n from a law (name = law id)
+//   "force_deflection_track" delta_m -> force_n from the filtered track (m (a + g))
+//   "cor_vs_speed"          impact_speed_mps -> cor predicted by a law (name = law id)
+//   "cor_measured"          impact_speed_mps -> cor measured (one point per clip)
+struct Curve {
+  std::string name;
+  std::string kind;
+  std::vector<double> x, y;
+};
+
 struct GravityCheck {
   std::optional<double> flight_accel_mps2;  // measured in free flight (downward positive)
   double expected_mps2 = 9.80665;           // standard gravity (3rd CGPM, 1901) or the user's local g
@@ -77,6 +91,7 @@ struct ClipResult {
   std::vector<std::string> errors;
   NamedValues extra;               // e.g. noise estimate, tilt
   NamedTexts info;                 // e.g. marker kind chosen and why
+  std::vector<Curve> curves;       // for the report
 };
 
 // One row of summary.csv: a (specimen, nominal height) group. `*_sd` empty for one clip.
@@ -112,6 +127,7 @@ struct SpecimenSummary {
   std::string specimen;
   std::optional<std::string> best_law;
   std::vector<JointFitRecord> joint_fits;
+  std::vector<Curve> curves;       // for the report (COR against impact speed)
 };
 
 struct ClipMessage {
@@ -124,6 +140,8 @@ struct Summary {
   std::vector<SpecimenSummary> specimens;
   std::vector<ClipMessage> errors;
   std::vector<ClipMessage> warnings;
+  NamedValues rig_quality;  // the rig's quality figures, for the report
+  NamedTexts run;           // effective options and versions of the run
 };
 
 // track.csv

@@ -73,6 +73,33 @@ void ReadExtras(const json& j, const auto& keys, NamedValues& numbers, NamedText
   }
 }
 
+ordered_json CurvesToJson(const std::vector<Curve>& curves) {
+  ordered_json a = ordered_json::array();
+  for (const Curve& c : curves) {
+    ordered_json x = ordered_json::array(), y = ordered_json::array();
+    for (double v : c.x) x.push_back(Number(v));
+    for (double v : c.y) y.push_back(Number(v));
+    a.push_back({{"name", c.name}, {"kind", c.kind}, {"x", x}, {"y", y}});
+  }
+  return a;
+}
+
+std::vector<double> NumbersOf(const json& a) {
+  std::vector<double> out;
+  for (const json& v : a) out.push_back(v.is_null() ? std::nan("") : v.get<double>());
+  return out;
+}
+
+std::vector<Curve> CurvesFromJson(const json& j) {
+  std::vector<Curve> out;
+  if (!j.contains("curves")) return out;
+  for (const json& c : j.at("curves")) {
+    out.push_back({c.at("name").get<std::string>(), c.at("kind").get<std::string>(), NumbersOf(c.at("x")),
+                   NumbersOf(c.at("y"))});
+  }
+  return out;
+}
+
 ordered_json FitToJson(const FitRecord& f) {
   ordered_json j;
   j["law"] = f.law;
@@ -155,6 +182,7 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
   j["errors"] = r.errors;
   AddExtra(j, r.extra);
   AddTexts(j, r.info);
+  j["curves"] = CurvesToJson(r.curves);
   WriteJson(path, j);
 }
 
@@ -195,8 +223,10 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     r.errors = j.value("errors", std::vector<std::string>{});
     static const char* const kTop[] = {"clip",   "capture_fps", "capture_fps_source", "frames",
                                        "tracked_frames", "y_origin", "gravity_check", "impacts",
-                                       "fits",   "best_law",    "warnings",           "errors"};
+                                       "fits",   "best_law",    "warnings",           "errors",
+                                       "curves"};
     ReadExtras(j, kTop, r.extra, &r.info);
+    r.curves = CurvesFromJson(j);
     return r;
   } catch (const json::exception& e) {
     throw std::runtime_error(path.string() + ": not a dropfit result (" + std::string(e.what()) + ")");
@@ -238,6 +268,7 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
       }
       js["joint_fits"].push_back(f);
     }
+    js["curves"] = CurvesToJson(sp.curves);
     j["specimens"].push_back(js);
   }
   auto messages = [](const std::vector<ClipMessage>& list) {
@@ -247,6 +278,10 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
   };
   j["errors"] = messages(s.errors);
   j["warnings"] = messages(s.warnings);
+  j["rig_quality"] = Values(s.rig_quality);
+  ordered_json run = ordered_json::object();
+  for (const auto& [k, v] : s.run) run[k] = v;
+  j["run"] = run;
   WriteJson(path, j);
 }
 
@@ -287,10 +322,16 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
         }
         sp.joint_fits.push_back(rec);
       }
+      sp.curves = CurvesFromJson(js);
       s.specimens.push_back(sp);
     }
     for (const json& m : j.value("errors", json::array())) s.errors.push_back({m.at("clip"), m.at("message")});
     for (const json& m : j.value("warnings", json::array())) s.warnings.push_back({m.at("clip"), m.at("message")});
+    s.rig_quality = GetValues(j.value("rig_quality", json::object()));
+    const json run = j.value("run", json::object());
+    for (const auto& [k, v] : run.items()) {
+      if (v.is_string()) s.run.emplace_back(k, v.get<std::string>());
+    }
     return s;
   } catch (const json::exception& e) {
     throw std::runtime_error(path.string() + ": not a dropfit summary (" + std::string(e.what()) + ")");

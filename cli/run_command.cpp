@@ -1,27 +1,287 @@
 #include "cli/run_command.h"
 
-#include <iostream>
+#include <unistd.h>
 
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cstdio>
+#include <fstream>
+#include <iostream>
+#include <mutex>
+#include <sstream>
+#include <thread>
+
+#include "cli/atomic_write.h"
+#include "cli/clip_pipeline.h"
 #include "cli/exit_status.h"
+#include "cli/joint_stage.h"
 #include "cli/manifest.h"
+#include "cli/report_command.h"
+#include "cli/report_html.h"
+#include "cli/results.h"
+#include "cli/rig_io.h"
+#include "cli/summary_build.h"
+#include "dropfit/version.h"
 
 namespace dropfit::cli {
 
+namespace {
+
+// FNV-1a 64 over a file's bytes (fingerprints for the re-run cache; not cryptographic).
+std::string HashFile(const std::filesystem::path& path) {
+  std::uint64_t h = 1469598103934665603ull;
+  auto add = [&](const char* data, std::streamsize n) {
+    for (std::streamsize i = 0; i < n; ++i) {
+      h ^= static_cast<unsigned char>(data[i]);
+      h *= 1099511628211ull;
+    }
+  };
+  std::vector<std::filesystem::path> files;
+  if (std::filesystem::is_directory(path)) {
+    for (const auto& e : std::filesystem::directory_iterator(path)) {
+      if (e.is_regular_file()) files.push_back(e.path());
+    }
+    std::sort(files.begin(), files.end());
+  } else {
+    files.push_back(path);
+  }
+  std::vector<char> buf(1 << 16);
+  for (const auto& f : files) {
+    add(f.filename().string().data(), static_cast<std::streamsize>(f.filename().string().size()));
+    std::ifstream in(f, std::ios::binary);
+    while (in) {
+      in.read(buf.data(), static_cast<std::streamsize>(buf.size()));
+      add(buf.data(), in.gcount());
+    }
+  }
+  char text[17];
+  std::snprintf(text, sizeof(text), "%016llx", static_cast<unsigned long long>(h));
+  return text;
+}
+
+std::string OptionalText(const std::optional<double>& v) { return v ? FormatNumber(*v) : "-"; }
+
+// What a clip's result depends on besides the clip file and the rig.
+std::string SettingsText(const ManifestRow& row) {
+  std::ostringstream s;
+  s << "dropfit " << kVersion << "; mass_kg=" << FormatNumber(row.mass_kg)
+    << "; drop_height_m=" << FormatNumber(row.drop_height_m) << "; capture_fps=" << OptionalText(row.capture_fps)
+    << "; free_radius_m=" << OptionalText(row.free_radius_m) << "; tread_width_m=" << OptionalText(row.tread_width_m)
+    << "; section_radius_m=" << OptionalText(row.section_radius_m) << "; specimen=" << row.specimen;
+  return s.str();
+}
+
+std::string InfoValue(const ClipResult& r, const std::string& key) {
+  for (const auto& [k, v] : r.info) {
+    if (k == key) return v;
+  }
+  return {};
+}
+
+// Progress on a terminal: one line rewritten in place; otherwise plain log lines.
+class ProgressDisplay {
+ public:
+  explicit ProgressDisplay(int total) : total_(total), tty_(::isatty(STDERR_FILENO) == 1) {}
+  void Frames(const std::string& clip, int done, int total) {
+    if (!tty_) return;
+    std::lock_guard<std::mutex> lock(mutex_);
+    const auto now = std::chrono::steady_clock::now();
+    if (now - last_ < std::chrono::milliseconds(100)) return;
+    last_ = now;
+    std::fprintf(stderr, "\r\033[K[%d/%d clips] %s: frame %d/%d", done_, total_, clip.c_str(), done, total);
+    std::fflush(stderr);
+  }
+  void ClipDone(const std::string& line) {
+    std::lock_guard<std::mutex> lock(mutex_);
+    ++done_;
+    if (tty_) std::fprintf(stderr, "\r\033[K");
+    std::fprintf(stderr, "[%d/%d] %s\n", done_, total_, line.c_str());
+    std::fflush(stderr);
+  }
+  void Line(const std::string& line) {
+    std::lock_guard<std::mutex> lock(mutex_);
+    if (tty_) std::fprintf(stderr, "\r\033[K");
+    std::fprintf(stderr, "%s\n", line.c_str());
+  }
+
+ private:
+  int total_;
+  int done_ = 0;
+  bool tty_;
+  std::mutex mutex_;
+  std::chrono::steady_clock::time_point last_{};
+};
+
+struct ClipSlot {
+  const ManifestRow* row = nullptr;
+  ClipResult result;
+  std::vector<TrackRow> track;
+  bool analysed = false;
+  bool reused = false;
+  double seconds = 0.0;
+};
+
+}  // namespace
+
 int RunRun(const RunCommandOptions& options) {
+  const auto started = std::chrono::steady_clock::now();
+  if (options.jobs < 0) {
+    std::cerr << "dropfit run: --jobs " << options.jobs << " is negative; give 0 (all cores) or a positive count\n";
+    return kExitBadUsage;
+  }
   Manifest manifest;
+  calib::Rig rig;
   try {
     manifest = ReadManifest(options.folder);
   } catch (const ManifestStructureError& e) {
     std::cerr << "dropfit run: " << e.what() << "\n";
     return kExitBadUsage;
   }
-  for (const auto& w : manifest.warnings) std::cerr << "warning: " << w << "\n";
-  for (const auto& row : manifest.rows) {
-    if (!row.ok()) std::cerr << "error: " << row.error << "\n";
+  try {
+    rig = ReadRigFile(options.rig_path);
+  } catch (const std::exception& e) {
+    std::cerr << "dropfit run: " << e.what() << "\n";
+    return kExitBadUsage;
   }
-  std::cerr << "dropfit run: the folder run is not built yet (its issue is open); the manifest lists "
-            << manifest.rows.size() << " clips; nothing was written\n";
-  return kExitBadUsage;
+  const std::filesystem::path out(options.out_dir);
+  std::error_code ec;
+  std::filesystem::create_directories(out / "clips", ec);
+  if (ec) {
+    std::cerr << "dropfit run: cannot create " << (out / "clips").string() << ": " << ec.message() << "\n";
+    return kExitBadUsage;
+  }
+  const std::string rig_hash = HashFile(options.rig_path);
+  const unsigned cores = std::max(1u, std::thread::hardware_concurrency());
+  const int jobs = options.jobs > 0 ? options.jobs : static_cast<int>(cores);
+
+  Summary summary;
+  for (const std::string& w : manifest.warnings) summary.warnings.push_back({"", w});
+  std::vector<ClipSlot> slots;
+  for (const ManifestRow& row : manifest.rows) {
+    if (!row.ok()) {
+      summary.errors.push_back({row.clip_id.empty() ? row.clip : row.clip_id, row.error});
+      std::cerr << "error: " << row.error << "\n";
+      continue;
+    }
+    slots.push_back({&row, {}, {}, false, false, 0.0});
+  }
+
+  ProgressDisplay progress(static_cast<int>(slots.size()));
+  progress.Line("dropfit run: " + std::to_string(slots.size()) + " clips from " + manifest.display_name + ", " +
+                std::to_string(jobs) + " in parallel");
+  std::atomic<size_t> next{0};
+  auto worker = [&] {
+    for (size_t i = next++; i < slots.size(); i = next++) {
+      ClipSlot& slot = slots[i];
+      const ManifestRow& row = *slot.row;
+      const auto t0 = std::chrono::steady_clock::now();
+      const std::filesystem::path clip_path = manifest.folder / std::filesystem::path(row.clip).lexically_normal();
+      const std::filesystem::path clip_out = out / "clips" / row.clip_id;
+      const std::string fingerprint = HashFile(clip_path) + "/" + rig_hash + "/" + SettingsText(row);
+      // Re-run: reuse a result made from the same clip, rig and settings.
+      if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
+        try {
+          ClipResult old = ReadClipResult(clip_out / "result.json");
+          if (InfoValue(old, "input_fingerprint") == fingerprint) {
+            slot.result = std::move(old);
+            slot.track = ReadTrackCsv(clip_out / "track.csv");
+            slot.analysed = slot.result.errors.empty();
+            slot.reused = true;
+            progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
+            continue;
+          }
+        } catch (const std::exception&) {
+          // An unreadable old result is simply redone.
+        }
+      }
+      ClipRequest request;
+      request.clip_path = clip_path;
+      request.clip_id = row.clip_id;
+      request.mass_kg = row.mass_kg;
+      request.drop_height_m = row.drop_height_m;
+      request.free_radius_m = row.free_radius_m;
+      request.tread_width_m = row.tread_width_m;
+      request.section_radius_m = row.section_radius_m;
+      request.fps_manifest = row.capture_fps;
+      ClipAnalysis analysis;
+      try {
+        analysis = AnalyzeClip(request, rig, [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
+      } catch (const std::exception& e) {
+        analysis.result.clip = row.clip_id;
+        analysis.result.errors.push_back(row.clip + ": " + e.what());
+      }
+      slot.result = std::move(analysis.result);
+      slot.track = std::move(analysis.track);
+      slot.analysed = analysis.analysed;
+      slot.result.info.emplace_back("input_fingerprint", fingerprint);
+      slot.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+      try {
+        std::filesystem::create_directories(clip_out);
+        WriteTrackCsv(clip_out / "track.csv", slot.track);
+        WriteClipResult(clip_out / "result.json", slot.result);
+      } catch (const std::exception& e) {
+        slot.analysed = false;
+        slot.result.errors.push_back(e.what());
+      }
+      char line[256];
+      std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(),
+                    slot.analysed ? "analysed" : "FAILED", slot.seconds);
+      progress.ClipDone(line);
+    }
+  };
+  std::vector<std::thread> threads;
+  for (int j = 0; j < std::min<int>(jobs, static_cast<int>(slots.size())); ++j) threads.emplace_back(worker);
+  for (auto& t : threads) t.join();
+
+  std::vector<AnalysedClip> analysed;
+  int reused = 0;
+  for (const ClipSlot& slot : slots) {
+    reused += slot.reused ? 1 : 0;
+    for (const std::string& w : slot.result.warnings) summary.warnings.push_back({slot.row->clip_id, w});
+    for (const std::string& e : slot.result.errors) {
+      summary.errors.push_back({slot.row->clip_id, e});
+      std::cerr << "error: " << slot.row->clip_id << ": " << e << "\n";
+    }
+    if (slot.analysed) analysed.push_back({slot.row, &slot.result});
+  }
+  summary.groups = BuildSummaryGroups(analysed);
+
+  // Joint fits per specimen over all its clips and heights.
+  std::vector<JointClip> joint_inputs;
+  for (const ClipSlot& slot : slots) {
+    if (slot.analysed) joint_inputs.push_back({slot.row, &slot.result, &slot.track});
+  }
+  summary.specimens = FitSpecimens(joint_inputs, rig, [&](const std::string& line) { progress.Line(line); });
+
+  summary.rig_quality = {{"rms_reprojection_px", rig.quality.rms_reprojection_px},
+                         {"plane_rms_px", rig.quality.plane_rms_px},
+                         {"square_error_mean_mm", rig.quality.square_error_mean_mm},
+                         {"square_error_max_mm", rig.quality.square_error_max_mm},
+                         {"metres_per_px_centre", rig.quality.metres_per_px_centre}};
+  summary.run = {{"tool_version", kVersion},
+                 {"folder", options.folder},
+                 {"rig", options.rig_path},
+                 {"rig_fnv1a64", rig_hash},
+                 {"out", options.out_dir},
+                 {"jobs", std::to_string(jobs)},
+                 {"clips_reused", std::to_string(reused)}};
+  try {
+    WriteSummaryCsv(out / "summary.csv", summary.groups);
+    WriteSummaryJson(out / "summary.json", summary);
+    std::vector<ClipReportData> report_clips;
+    for (const ClipSlot& slot : slots) report_clips.push_back({slot.result, slot.track});
+    WriteFileAtomically(out / "report.html", BuildReportHtml(summary, report_clips, NowText()));
+  } catch (const std::exception& e) {
+    std::cerr << "dropfit run: " << e.what() << "\n";
+    return kExitPartial;
+  }
+  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+  char line[256];
+  std::snprintf(line, sizeof(line), "dropfit run: %zu of %zu clips analysed (%d reused), %zu failed, in %.1f s",
+                analysed.size(), manifest.rows.size(), reused, summary.errors.size(), seconds);
+  progress.Line(line);
+  return summary.errors.empty() ? kExitDone : kExitPartial;
 }
 
 }  // namespace dropfit::cli

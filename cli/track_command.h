@@ -1,9 +1,29 @@
 #pragma once
 // `dropfit track`: one clip -> sub-pixel hub-marker track (track.csv, result.json).
+//
+//   dropfit track CLIP --rig rig.json [--fps N] [--marker auto|quadrant|dot|template]
+//                 [--seed U,V] [--overlay FILE] -o DIR
+//
+// Writes DIR/track.csv (../shared/contract.md: frame,t_s,u_px,v_px,x_m,y_m,quality; coordinates
+// empty where the marker was not found) and DIR/result.json with the tracking fields (clip,
+// capture_fps and its source, frames, tracked_frames, y_origin, warnings, errors; the marker
+// chosen and why, the lost frame ranges and the options used under "info").
+//
+// Exit status (cli/exit_status.h): 0 tracked (warnings allowed); 1 the clip could be tracked
+// only in part or not at all (unreadable frames, truncated file, marker never found), with the
+// reasons in result.json's errors and on stderr and both files written; 2 bad usage or an input
+// the command cannot start from (bad option, unreadable rig, missing clip, no capture rate, a
+// rig made for another image size), nothing written.
+//
+// The pieces below are shared with `analyze` and `run` (cli/clip_pipeline.h).
 
 #include <optional>
 #include <string>
 #include <vector>
+
+#include "calib/rig.h"
+#include "cli/results.h"
+#include "tracker/track.h"
 
 namespace dropfit::cli {
 
@@ -13,11 +33,37 @@ struct TrackCommandOptions {
   std::optional<double> fps;        // true capture rate [frames/s]; overrides rig and container
   std::string marker = "auto";      // auto|quadrant|dot|template
   std::string seed;                 // "U,V" [px] to pick one marker among several
-  std::string overlay_path;         // optional overlay video
+  std::string overlay_path;         // optional overlay video (.avi, .mp4, .mov, .mkv)
   std::string out_dir;              // folder for track.csv and result.json
 };
 
 // Returns the contract's exit status.
 int RunTrack(const TrackCommandOptions& options);
+
+// The capture rate of a clip and where it came from.
+struct CaptureRate {
+  double fps = 0.0;                   // [frames/s]
+  std::string source;                 // "option" | "manifest" | "rig" | "container"
+  std::optional<std::string> warning; // set when only the container's rate was found and it
+                                      // looks like a playback rate (<= kPlaybackRateMaxFps)
+};
+// Highest container rate still taken for a playback rate [frames/s] (the 120).
+inline constexpr double kPlaybackRateMaxFps = 120.0;
+
+// The contract's precedence: command-line option, manifest, rig file, container. Non-finite or
+// non-positive values are skipped. Nothing when no rate is known.
+std::optional<CaptureRate> ResolveCaptureRate(std::optional<double> option_fps, std::optional<double> manifest_fps,
+                                              std::optional<double> rig_fps, std::optional<double> container_fps);
+
+// Parses "U,V" (pixels, two finite numbers). Throws std::invalid_argument naming the text.
+cv::Point2d ParseSeed(const std::string& text);
+
+// track.csv rows of a track: t_s = frame / fps; metres through the rig (calib::PlaneFromImage:
+// undistort, then the plane mapping) where the marker was found; empty otherwise.
+std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
+
+// Fills result.json's tracking fields from a track: frames, tracked_frames, warnings, errors,
+// and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
+void AddTrackToResult(const tracker::Track& track, ClipResult& result);
 
 }  // namespace dropfit::cli

@@ -1,0 +1,54 @@
+#pragma once
+// Synthetic fitter input straight from the forward model (analysis/forward_model.h), for
+// tests and benchmarks of the contact-law fits: a drop is simulated, sampled at a capture
+// rate, optionally given white Gaussian position noise, and cut into one window per complete
+// bounce the way MakeFitClip cuts a measured track (flights shared by two bounces split at
+// their apex). The starting values imitate what the kinematics would deliver, with its
+// known biases: the track-only contact duration one frame late, the deflection from the
+// lowest sample, the onset height (when it is to be fitted) off by `onset_guess_error_m`.
+// No video, tracker or segmentation is involved: this checks the fitter alone.
+
+#include <cstdint>
+#include <optional>
+#include <string>
+
+#include "analysis/forward_model.h"
+#include "analysis/law_fit.h"
+
+namespace dropfit::analysis {
+
+// Fields (ranges in brackets):
+//   capture_fps            sampling rate of the hub track (0, 1e6] frames/s.
+//   noise_sd_m             white Gaussian noise added to each height [0, 1] m.
+//   seed                   the noise generator's seed (std::mt19937_64).
+//   max_bounces            at most this many complete bounces become windows [1, 1000].
+//   max_flight_samples     flight samples kept on each side of a contact [5, 100000].
+//   geometry_known         true: the clip's onset height is known (fixed in the fit).
+//   onset_guess_error_m    added to the true onset height for the starting value when it
+//                          is fitted [-1, 1] m.
+//   drop_height_m          nominal drop height stored in the clip (grouping only).
+struct SyntheticClipOptions {
+  double capture_fps = 2000.0;
+  double noise_sd_m = 0.0;
+  std::uint64_t seed = 1;
+  int max_bounces = 3;
+  int max_flight_samples = 300;
+  bool geometry_known = true;
+  double onset_guess_error_m = 5e-4;
+  double drop_height_m = 0.0;
+};
+std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptions& options);
+
+// A synthetic clip and the truth behind it.
+struct SyntheticClip {
+  FitClip clip;
+  Trajectory truth;  // the simulated drop
+};
+
+// Simulates `scenario` and builds the fitter's input. Throws std::invalid_argument for an
+// invalid scenario or options (message from the validators), std::runtime_error when the
+// simulated drop has no complete bounce.
+SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& scenario,
+                                const SyntheticClipOptions& options);
+
+}  // namespace dropfit::analysis

@@ -1,0 +1,827 @@
+#include "analysis/law_fit.h"
+
+#include <ceres/ceres.h>
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <array>
+#include <chrono>
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <numeric>
+#include <sstream>
+#include <stdexcept>
+
+namespace dropfit::analysis {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// Iterations each start of a multi-start gets before the best one is continued.
+constexpr int kScreeningIterations = 8;
+constexpr double kInf = std::numeric_limits<double>::infinity();
+
+// ---------------------------------------------------------------------------------------
+// Internal parametrisation (see the header).
+
+int InternalDim(LawId law) {
+  switch (law) {
+    case LawId::kKelvinVoigt: return 2;
+    case LawId::kHuntCrossley: return 3;
+    case LawId::kHertz: return 2;
+    case LawId::kBilinear: return 4;
+    case LawId::kVolumetric: return 2;
+  }
+  return 0;
+}
+
+template <typename T>
+void ToLawParams(LawId law, const T* x, double delta_ref_m, T* p) {
+  using std::exp;
+  switch (law) {
+    case LawId::kKelvinVoigt:
+    case LawId::kVolumetric:
+      p[0] = exp(x[0]);
+      p[1] = exp(x[1]);
+      return;
+    case LawId::kHuntCrossley:
+      p[0] = exp(x[0] - x[1] * std::log(delta_ref_m));
+      p[1] = x[1];
+      p[2] = exp(x[2]);
+      return;
+    case LawId::kHertz:
+      p[0] = exp(x[0]);
+      p[1] = T(1.5);
+      p[2] = exp(x[1]);
+      return;
+    case LawId::kBilinear:
+      for (int i = 0; i < 4; ++i) p[i] = exp(x[i]);
+      return;
+  }
+}
+
+std::vector<double> FromLawParams(LawId law, const std::vector<double>& p, double delta_ref_m) {
+  switch (law) {
+    case LawId::kKelvinVoigt:
+    case LawId::kVolumetric:
+      return {std::log(p[0]), std::log(p[1])};
+    case LawId::kHuntCrossley:
+      return {std::log(p[0]) + p[1] * std::log(delta_ref_m), p[1], std::log(p[2])};
+    case LawId::kHertz:
+      return {std::log(p[0]), std::log(p[2])};
+    case LawId::kBilinear:
+      return {std::log(p[0]), std::log(p[1]), std::log(p[2]), std::log(p[3])};
+  }
+  return {};
+}
+
+// d params / d x (ParameterCount(law) x InternalDim(law)).
+Eigen::MatrixXd LawParamJacobian(LawId law, const std::vector<double>& p, double delta_ref_m) {
+  const int np = ParameterCount(law);
+  const int nx = InternalDim(law);
+  Eigen::MatrixXd g = Eigen::MatrixXd::Zero(np, nx);
+  switch (law) {
+    case LawId::kKelvinVoigt:
+    case LawId::kVolumetric:
+    case LawId::kBilinear:
+      for (int i = 0; i < np; ++i) g(i, i) = p[i];
+      break;
+    case LawId::kHuntCrossley:
+      g(0, 0) = p[0];
+      g(0, 1) = -p[0] * std::log(delta_ref_m);
+      g(1, 1) = 1.0;
+      g(2, 2) = p[2];
+      break;
+    case LawId::kHertz:
+      g(0, 0) = p[0];
+      g(2, 1) = p[2];
+      break;
+  }
+  return g;
+}
+
+// ---------------------------------------------------------------------------------------
+// Cost of one window.
+
+struct WindowData {
+  ContactSetup setup;
+  ForwardModelOptions model;
+  double delta_ref_m = 0.0;
+  double inv_scale = 1.0;  // residuals are (model - data) / scale, scale ~ the noise
+  const FitWindow* window = nullptr;
+};
+
+template <int kDim>
+struct WindowCost {
+  explicit WindowCost(WindowData d) : data(std::move(d)) {}
+  template <typename T>
+  bool operator()(const T* x, const T* onset, const T* state, T* residuals) const {
+    T params[kMaxLawParameters];
+    ToLawParams(data.setup.law, x, data.delta_ref_m, params);
+    const FitWindow& w = *data.window;
+    const int n = static_cast<int>(w.t_s.size());
+    const SimulationStatus status = SimulateHubHeights(data.setup, params, onset[0], w.start_time_s, state[0],
+                                                       state[1], w.t_s.data(), n, residuals, nullptr, data.model);
+    if (status != SimulationStatus::kOk) return false;
+    for (int i = 0; i < n; ++i) {
+      residuals[i] = (residuals[i] - w.y_m[i]) * data.inv_scale;
+      if (!std::isfinite(detail::ScalarValue(residuals[i]))) return false;
+    }
+    return true;
+  }
+  WindowData data;
+};
+
+ceres::CostFunction* MakeWindowCost(WindowData data) {
+  const int n = static_cast<int>(data.window->t_s.size());
+  switch (InternalDim(data.setup.law)) {
+    case 2:
+      return new ceres::AutoDiffCostFunction<WindowCost<2>, ceres::DYNAMIC, 2, 1, 2>(new WindowCost<2>(data), n);
+    case 3:
+      return new ceres::AutoDiffCostFunction<WindowCost<3>, ceres::DYNAMIC, 3, 1, 2>(new WindowCost<3>(data), n);
+    case 4:
+      return new ceres::AutoDiffCostFunction<WindowCost<4>, ceres::DYNAMIC, 4, 1, 2>(new WindowCost<4>(data), n);
+    default:
+      break;
+  }
+  assert(false && "law dimension without a cost instantiation");
+  return nullptr;
+}
+
+// The unknowns of one start, at stable addresses for the Ceres problem.
+struct Unknowns {
+  std::vector<double> x;
+  double onset = 0.0;
+  std::vector<double> known_onsets;               // per clip (used where known)
+  std::vector<std::array<double, 2>> states;      // per window, flattened over clips
+};
+
+struct WindowRef {
+  int clip = 0;
+  const FitWindow* window = nullptr;
+};
+
+struct Solved {
+  std::unique_ptr<Unknowns> unknowns;
+  std::unique_ptr<ceres::Problem> problem;
+  ceres::Solver::Summary summary;
+};
+
+double Median(std::vector<double> v) {
+  v.erase(std::remove_if(v.begin(), v.end(), [](double a) { return !std::isfinite(a); }), v.end());
+  if (v.empty()) return kNaN;
+  std::sort(v.begin(), v.end());
+  const size_t m = v.size() / 2;
+  return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
+}
+
+std::string FormatG(double v, int digits = 4) {
+  std::ostringstream s;
+  s.precision(digits);
+  s << v;
+  return s.str();
+}
+
+// First impact of a simulation that starts at the window start.
+struct WindowSimulation {
+  Trajectory trajectory;
+  ImpactTruth impact;
+  bool ok = false;
+};
+
+WindowSimulation SimulateWindow(const ContactSetup& setup, const std::vector<double>& params, double onset_m,
+                                double t0_s, double y0_m, double v0_mps, double end_s,
+                                const ForwardModelOptions& model) {
+  WindowSimulation out;
+  DropScenario scenario;
+  scenario.setup = setup;
+  scenario.law_params = params;
+  scenario.onset_height_m = onset_m;
+  scenario.start_time_s = t0_s;
+  scenario.start_height_m = y0_m;
+  scenario.start_velocity_mps = v0_mps;
+  scenario.end_time_s = end_s;
+  if (!Validate(scenario).empty()) return out;
+  try {
+    out.trajectory = SimulateDrop(scenario, model);
+  } catch (const std::exception&) {
+    return out;
+  }
+  for (const ImpactTruth& impact : out.trajectory.impacts()) {
+    if (std::isfinite(impact.t_contact_s)) {
+      out.impact = impact;
+      out.ok = true;
+      break;
+    }
+  }
+  return out;
+}
+
+// The figures whose SDs are propagated, in a fixed order.
+constexpr int kPropagatedFigures = 5;
+std::array<double, kPropagatedFigures> PropagatedFigures(const ImpactTruth& i) {
+  return {i.t_separation_s, i.contact_duration_s, i.peak_force_n, i.max_deflection_m, i.cor};
+}
+
+}  // namespace
+
+// ---------------------------------------------------------------------------------------
+
+std::optional<std::string> ValidateFitWindowOptions(const FitWindowOptions& options) {
+  if (options.max_flight_samples < 5 || options.max_flight_samples > 100000) {
+    return "max_flight_samples = " + std::to_string(options.max_flight_samples) + " is outside [5, 100000]";
+  }
+  return std::nullopt;
+}
+
+std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& o) {
+  std::ostringstream m;
+  if (!(o.gravity_mps2 >= 0.0 && o.gravity_mps2 <= 100.0)) m << "gravity_mps2 = " << o.gravity_mps2 << " is outside [0, 100]";
+  else if (o.max_iterations < 1 || o.max_iterations > 1000) m << "max_iterations = " << o.max_iterations << " is outside [1, 1000]";
+  else if (!(o.function_tolerance > 0.0 && o.function_tolerance <= 1e-2))
+    m << "function_tolerance = " << o.function_tolerance << " is outside (0, 1e-2]";
+  else if (!(o.parameter_tolerance > 0.0 && o.parameter_tolerance <= 1e-2))
+    m << "parameter_tolerance = " << o.parameter_tolerance << " is outside (0, 1e-2]";
+  else if (o.curve_points < 2 || o.curve_points > 10000) m << "curve_points = " << o.curve_points << " is outside [2, 10000]";
+  else if (o.min_contact_samples < 1 || o.min_contact_samples > 1000)
+    m << "min_contact_samples = " << o.min_contact_samples << " is outside [1, 1000]";
+  else if (const std::string e = Validate(o.model); !e.empty()) m << e;
+  else if (const std::string e2 = Validate(o.tread); !e2.empty()) m << "tread: " << e2;
+  if (m.str().empty()) return std::nullopt;
+  return m.str();
+}
+
+std::string LawFormula(LawId law, const TreadGeometry& tread) {
+  const std::string common =
+      "; F [N] contact force on the hub, upward, never tensile (0 where the expression is negative); "
+      "delta [m] penetration = onset height - hub height (> 0 in contact); delta_dot [m/s] its rate "
+      "(> 0 compressing)";
+  switch (law) {
+    case LawId::kKelvinVoigt:
+      return "F = k*delta + c*delta_dot; k [N/m], c [N s/m]" + common;
+    case LawId::kHuntCrossley:
+      return "F = k*delta^n*(1 + alpha*delta_dot); k [N/m^n], n [-], alpha [s/m] (Hunt-Crossley damping "
+             "lambda = alpha*k [N s/m^(n+1)])" + common;
+    case LawId::kHertz:
+      return "F = k*delta^1.5*(1 + alpha*delta_dot); k [N/m^1.5], n = 1.5 fixed, alpha [s/m]" + common;
+    case LawId::kBilinear:
+      return "F = S(delta) + c*delta_dot, S = k1*delta for delta <= knee, k1*knee + k2*(delta - knee) beyond; "
+             "k1, k2 [N/m], knee [m], c [N s/m]" + common;
+    case LawId::kVolumetric: {
+      std::ostringstream g;
+      if (tread.shape == TreadShape::kTorus) {
+        g << "torus tread, free radius " << tread.free_radius_m << " m, section radius " << tread.section_radius_m << " m";
+      } else {
+        g << "cylinder tread, radius " << tread.free_radius_m << " m, width " << tread.tread_width_m << " m";
+      }
+      std::string out = "F = kv*V(delta)*(1 + a*delta_dot); kv [N/m^3], a [s/m], V [m^3] the volume of the unloaded "
+                        "tread below the floor (" + g.str() + ")";
+      if (!tread.note.empty()) out += "; " + tread.note;
+      return out + common;
+    }
+  }
+  return "";
+}
+
+FitClip MakeFitClip(const std::string& clip, double drop_height_m, double mass_kg, const TimeSeries& series,
+                    const Segmentation& segmentation, const std::vector<ImpactFigures>& figures,
+                    const FitWindowOptions& options) {
+  if (const auto e = ValidateFitWindowOptions(options)) throw std::invalid_argument("MakeFitClip: " + *e);
+  if (figures.size() != segmentation.bounces.size()) {
+    throw std::invalid_argument("MakeFitClip: " + std::to_string(figures.size()) + " impact figures for " +
+                                std::to_string(segmentation.bounces.size()) +
+                                " bounces; pass MeasureImpacts' output for this segmentation");
+  }
+  FitClip out;
+  out.clip = clip;
+  out.drop_height_m = drop_height_m;
+  out.mass_kg = mass_kg;
+  out.noise_sd_m = segmentation.noise_sd_m;
+  if (std::isfinite(segmentation.onset_height_m)) {
+    if (segmentation.onset_height_source == OnsetHeightSource::kGeometry) {
+      out.known_onset_height_m = segmentation.onset_height_m;
+    }
+    out.onset_height_guess_m = segmentation.onset_height_m;
+  }
+  const auto& bounces = segmentation.bounces;
+  const int max_flight = options.max_flight_samples;
+  for (size_t b = 0; b < bounces.size(); ++b) {
+    const Bounce& bounce = bounces[b];
+    if (!bounce.complete || !bounce.flight_before || !bounce.flight_after) continue;
+    const FlightPhase& before = segmentation.flights.at(*bounce.flight_before);
+    const FlightPhase& after = segmentation.flights.at(*bounce.flight_after);
+    int first = before.first_index;
+    if (b > 0 && bounces[b - 1].flight_after == bounce.flight_before) first = (before.first_index + before.last_index) / 2 + 1;
+    first = std::max(first, before.last_index - max_flight + 1);
+    int last = after.last_index;
+    if (b + 1 < bounces.size() && bounces[b + 1].flight_before == bounce.flight_after) {
+      last = (after.first_index + after.last_index) / 2;
+    }
+    last = std::min(last, after.first_index + max_flight - 1);
+    FitWindow w;
+    w.bounce_index = bounce.index;
+    w.start_time_s = series.t_s.at(first);
+    for (int i = first; i <= last; ++i) {
+      if (!series.valid[i]) continue;
+      w.t_s.push_back(series.t_s[i]);
+      w.y_m.push_back(series.y_m[i]);
+    }
+    w.start_height_m = before.y_fit.Value(w.start_time_s);
+    w.start_velocity_mps = before.y_fit.Derivative(w.start_time_s, 1);
+    const ImpactFigures& f = figures[b];
+    w.figures.impact_speed_mps = f.impact_speed_mps.value;
+    w.figures.cor = f.cor.value;
+    w.figures.contact_duration_s = f.contact_duration_track_s.value;
+    w.figures.max_deflection_m = f.max_deflection_m.value;
+    out.windows.push_back(std::move(w));
+  }
+  return out;
+}
+
+ImpactTruth PredictImpact(LawId law, const std::vector<double>& params, double onset_height_m, double mass_kg,
+                          double start_time_s, double start_height_m, double start_velocity_mps,
+                          const LawFitOptions& options) {
+  ContactSetup setup;
+  setup.law = law;
+  setup.tread = options.tread;
+  setup.mass_kg = mass_kg;
+  setup.gravity_mps2 = options.gravity_mps2;
+  // Long enough for the fall, the contact and the rise through the onset height.
+  const double fall_s = options.gravity_mps2 > 0.0
+                            ? (std::abs(start_velocity_mps) +
+                               std::sqrt(start_velocity_mps * start_velocity_mps +
+                                         2.0 * options.gravity_mps2 * std::max(0.0, start_height_m - onset_height_m))) /
+                                  options.gravity_mps2
+                            : std::max(0.0, start_height_m - onset_height_m) / std::max(1e-3, -start_velocity_mps);
+  const double end_s = start_time_s + 1.5 * fall_s + 0.5;
+  return SimulateWindow(setup, params, onset_height_m, start_time_s, start_height_m, start_velocity_mps, end_s,
+                        options.model)
+      .impact;
+}
+
+LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOptions& options) {
+  if (const auto e = ValidateLawFitOptions(options)) throw std::invalid_argument("FitLaw: " + *e);
+  const auto t_begin = std::chrono::steady_clock::now();
+  LawFitResult result;
+  result.law = law;
+  result.param_names = ParameterNames(law);
+  result.formula = LawFormula(law, options.tread);
+
+  std::vector<WindowRef> windows;
+  for (size_t c = 0; c < clips.size(); ++c) {
+    if (!(clips[c].mass_kg > 0.0) || !std::isfinite(clips[c].mass_kg)) {
+      throw std::invalid_argument("FitLaw: clip '" + clips[c].clip + "' has mass " + std::to_string(clips[c].mass_kg) +
+                                  " kg; give the dropped mass (> 0)");
+    }
+    result.bounces.emplace_back();
+    for (const FitWindow& w : clips[c].windows) {
+      if (w.t_s.size() < 3 || w.t_s.size() != w.y_m.size()) continue;
+      windows.push_back({static_cast<int>(c), &w});
+      result.bounces.back().push_back(w.bounce_index);
+    }
+  }
+  if (windows.empty()) {
+    result.failure = "no complete bounce with samples to fit";
+    return result;
+  }
+
+  // Onset height: fixed per clip where known, else one shared unknown.
+  bool onset_free = false;
+  std::vector<double> onset_guesses;
+  for (const FitClip& clip : clips) {
+    if (clip.known_onset_height_m) continue;
+    onset_free = true;
+    if (std::isfinite(clip.onset_height_guess_m)) onset_guesses.push_back(clip.onset_height_guess_m);
+  }
+  // Starting figures: the median over bounces of each figure.
+  std::vector<double> v_in, cor, t_c, defl, rest_guess;
+  for (const WindowRef& ref : windows) {
+    const ImpactGuessFigures& f = ref.window->figures;
+    v_in.push_back(f.impact_speed_mps);
+    cor.push_back(f.cor);
+    t_c.push_back(f.contact_duration_s);
+    defl.push_back(f.max_deflection_m);
+    if (onset_free && !clips[ref.clip].known_onset_height_m && std::isfinite(f.max_deflection_m)) {
+      const auto lowest = std::min_element(ref.window->y_m.begin(), ref.window->y_m.end());
+      rest_guess.push_back(*lowest + f.max_deflection_m);
+    }
+  }
+  ImpactGuessFigures median_figures{Median(v_in), Median(cor), Median(t_c), Median(defl)};
+  double onset_guess = Median(onset_guesses);
+  if (onset_free && !std::isfinite(onset_guess)) onset_guess = Median(rest_guess);
+  if (onset_free && !std::isfinite(onset_guess)) {
+    result.failure = "the onset height is neither known nor estimated, and no deflection gives a start for it";
+    return result;
+  }
+  const double mass_ref = clips[windows.front().clip].mass_kg;
+  const InitialGuessResult guess = GuessLawParameters(law, median_figures, mass_ref, options.tread);
+  if (!guess.guess) {
+    result.failure = "no starting values: " + guess.failure;
+    return result;
+  }
+  result.start_note = guess.guess->note;
+  double delta_ref = median_figures.max_deflection_m;
+  if (!(delta_ref > 0.0) || !std::isfinite(delta_ref)) delta_ref = 0.01;  // any positive value works; 1 cm is typical
+
+  const int dim = InternalDim(law);
+  const double scale_m = 1e-4;  // residual unit for Ceres' tolerances; cancels in the covariance
+  std::vector<std::vector<double>> starts = guess.guess->starts;
+  if (!options.multi_start) starts.resize(1);
+
+  ceres::Solver::Options solver;
+  solver.linear_solver_type = ceres::DENSE_QR;
+  solver.max_num_iterations = options.max_iterations;
+  solver.function_tolerance = options.function_tolerance;
+  solver.parameter_tolerance = options.parameter_tolerance;
+  solver.gradient_tolerance = 1e-16;
+  solver.num_threads = 1;
+  solver.logging_type = ceres::SILENT;
+  solver.minimizer_progress_to_stdout = false;
+
+  std::optional<Solved> best;
+  for (const std::vector<double>& start : starts) {
+    Solved s;
+    s.unknowns = std::make_unique<Unknowns>();
+    Unknowns& u = *s.unknowns;
+    u.x = FromLawParams(law, start, delta_ref);
+    u.onset = onset_free ? onset_guess : 0.0;
+    for (const FitClip& clip : clips) u.known_onsets.push_back(clip.known_onset_height_m.value_or(kNaN));
+    for (const WindowRef& ref : windows) u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
+    s.problem = std::make_unique<ceres::Problem>();
+    for (size_t i = 0; i < windows.size(); ++i) {
+      const WindowRef& ref = windows[i];
+      WindowData d;
+      d.setup.law = law;
+      d.setup.tread = options.tread;
+      d.setup.mass_kg = clips[ref.clip].mass_kg;
+      d.setup.gravity_mps2 = options.gravity_mps2;
+      d.model = options.model;
+      d.delta_ref_m = delta_ref;
+      d.inv_scale = 1.0 / scale_m;
+      d.window = ref.window;
+      double* onset_block = clips[ref.clip].known_onset_height_m ? &u.known_onsets[ref.clip] : &u.onset;
+      s.problem->AddResidualBlock(MakeWindowCost(d), nullptr, u.x.data(), onset_block, u.states[i].data());
+      if (clips[ref.clip].known_onset_height_m) s.problem->SetParameterBlockConstant(onset_block);
+    }
+    // Bounds keep the integrator away from absurd laws; they are far from any real value.
+    for (int j = 0; j < dim; ++j) {
+      const bool is_exponent = law == LawId::kHuntCrossley && j == 1;
+      if (is_exponent) {
+        s.problem->SetParameterLowerBound(u.x.data(), j, 1.0);
+        s.problem->SetParameterUpperBound(u.x.data(), j, 4.0);
+      } else {
+        s.problem->SetParameterLowerBound(u.x.data(), j, u.x[j] - 25.0);
+        s.problem->SetParameterUpperBound(u.x.data(), j, u.x[j] + 12.0);
+      }
+    }
+    if (law == LawId::kBilinear) s.problem->SetParameterUpperBound(u.x.data(), 2, std::log(20.0 * delta_ref));
+    // With several starts, each gets a short budget first; only the best is run to the end.
+    ceres::Solver::Options first = solver;
+    if (starts.size() > 1) first.max_num_iterations = std::min(solver.max_num_iterations, kScreeningIterations);
+    ceres::Solve(first, s.problem.get(), &s.summary);
+    result.iterations += static_cast<int>(s.summary.iterations.size()) - 1;
+    ++result.starts;
+    if (!s.summary.IsSolutionUsable()) continue;
+    if (!best || s.summary.final_cost < best->summary.final_cost) best = std::move(s);
+  }
+  if (!best) {
+    result.failure = "no start of the solver gave a usable solution";
+    return result;
+  }
+  if (starts.size() > 1 && best->summary.termination_type == ceres::NO_CONVERGENCE) {
+    ceres::Solver::Options rest = solver;
+    rest.max_num_iterations = std::max(1, solver.max_num_iterations - kScreeningIterations);
+    ceres::Solve(rest, best->problem.get(), &best->summary);
+    result.iterations += static_cast<int>(best->summary.iterations.size()) - 1;
+  }
+  Unknowns& u = *best->unknowns;
+  const ceres::Solver::Summary& summary = best->summary;
+  result.converged = summary.termination_type == ceres::CONVERGENCE;
+  result.termination = summary.message;
+  if (!result.converged) result.warnings.push_back("the fit did not converge: " + summary.message);
+
+  // Parameters, residuals, BIC.
+  std::vector<double> x_params(kMaxLawParameters);
+  ToLawParams(law, u.x.data(), delta_ref, x_params.data());
+  x_params.resize(ParameterCount(law));
+  result.params = x_params;
+  result.onset_height_fitted = onset_free;
+  result.onset_height_m = onset_free ? u.onset : clips[windows.front().clip].known_onset_height_m.value();
+  for (const WindowRef& ref : windows) result.samples += static_cast<int>(ref.window->t_s.size());
+  result.free_parameters = dim + (onset_free ? 1 : 0) + 2 * static_cast<int>(windows.size());
+  const double rss = 2.0 * summary.final_cost * scale_m * scale_m;
+  const int n = result.samples;
+  result.rms_residual_m = std::sqrt(rss / n);
+  result.bic = n * std::log(std::max(rss, 1e-300) / n) + result.free_parameters * std::log(static_cast<double>(n));
+  const int dof = n - result.free_parameters;
+
+  // Covariance of the internal unknowns: law x, onset (if free), states.
+  std::vector<const double*> blocks{u.x.data()};
+  std::vector<int> offsets{0};
+  int total = dim;
+  if (onset_free) {
+    blocks.push_back(&u.onset);
+    offsets.push_back(total);
+    total += 1;
+  }
+  const int state_offset = total;
+  for (auto& st : u.states) {
+    blocks.push_back(st.data());
+    offsets.push_back(total);
+    total += 2;
+  }
+  Eigen::MatrixXd cov = Eigen::MatrixXd::Constant(total, total, kNaN);
+  std::vector<bool> undetermined(total, false);
+  bool have_cov = false;
+  if (dof > 0) {
+    const double s2 = 2.0 * summary.final_cost / dof;  // in units of scale_m^2, as the Jacobian
+    ceres::Covariance::Options copt;
+    copt.algorithm_type = ceres::DENSE_SVD;
+    copt.min_reciprocal_condition_number = 1e-14;
+    copt.null_space_rank = 0;
+    copt.apply_loss_function = false;
+    copt.num_threads = 1;
+    ceres::Covariance covariance(copt);
+    Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> c(total, total);
+    if (covariance.Compute(blocks, best->problem.get()) && covariance.GetCovarianceMatrix(blocks, c.data())) {
+      cov = s2 * c;
+      have_cov = true;
+    } else {
+      // Rank-deficient: pseudo-inverse of the column-scaled J^T J, with the parameters that
+      // have weight in the null space marked undetermined (infinite SD).
+      ceres::Problem::EvaluateOptions eo;
+      std::vector<double*> mutable_blocks;
+      for (const double* b : blocks) mutable_blocks.push_back(const_cast<double*>(b));
+      eo.parameter_blocks = mutable_blocks;
+      ceres::CRSMatrix crs;
+      if (best->problem->Evaluate(eo, nullptr, nullptr, nullptr, &crs)) {
+        Eigen::MatrixXd j = Eigen::MatrixXd::Zero(crs.num_rows, crs.num_cols);
+        for (int r = 0; r < crs.num_rows; ++r)
+          for (int k = crs.rows[r]; k < crs.rows[r + 1]; ++k) j(r, crs.cols[k]) = crs.values[k];
+        Eigen::VectorXd norms = j.colwise().norm();
+        for (int i = 0; i < total; ++i) norms[i] = norms[i] > 0.0 ? norms[i] : 1.0;
+        const Eigen::MatrixXd js = j * norms.cwiseInverse().asDiagonal();
+        Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(js.transpose() * js);
+        const Eigen::VectorXd& ev = eig.eigenvalues();
+        const double cutoff = 1e-12 * ev.maxCoeff();
+        Eigen::MatrixXd pinv = Eigen::MatrixXd::Zero(total, total);
+        for (int k = 0; k < total; ++k) {
+          const Eigen::VectorXd vk = eig.eigenvectors().col(k);
+          if (ev[k] > cutoff) {
+            pinv += vk * vk.transpose() / ev[k];
+          } else {
+            for (int i = 0; i < total; ++i)
+              if (vk[i] * vk[i] > 1e-6) undetermined[i] = true;
+          }
+        }
+        cov = s2 * norms.cwiseInverse().asDiagonal() * pinv * norms.cwiseInverse().asDiagonal();
+        for (int i = 0; i < total; ++i) {
+          if (!undetermined[i]) continue;
+          cov.row(i).setConstant(kNaN);
+          cov.col(i).setConstant(kNaN);
+          cov(i, i) = kInf;
+        }
+        have_cov = true;
+        result.warnings.push_back("the data do not determine every unknown (rank-deficient Jacobian): "
+                                  "their SDs are reported as infinite");
+      }
+    }
+    // s2 is in units of scale_m^2 and the Jacobian in 1/scale_m: the product is in metres.
+  } else {
+    result.warnings.push_back("no more samples than unknowns: no uncertainty can be estimated");
+  }
+
+  // Law parameter covariance by propagation.
+  const int np = ParameterCount(law);
+  const Eigen::MatrixXd g = LawParamJacobian(law, result.params, delta_ref);
+  Eigen::MatrixXd cov_x = cov.topLeftCorner(dim, dim);
+  Eigen::MatrixXd cov_p = Eigen::MatrixXd::Constant(np, np, kNaN);
+  if (have_cov) {
+    bool any_undetermined = false;
+    for (int i = 0; i < dim; ++i) any_undetermined = any_undetermined || undetermined[i];
+    if (!any_undetermined) {
+      cov_p = g * cov_x * g.transpose();
+    } else {
+      for (int i = 0; i < np; ++i) {
+        bool touches = false;
+        for (int j = 0; j < dim; ++j) touches = touches || (g(i, j) != 0.0 && undetermined[j]);
+        cov_p(i, i) = touches ? kInf : (g.row(i) * cov_x.unaryExpr([](double v) { return std::isfinite(v) ? v : 0.0; }) *
+                                        g.row(i).transpose())(0, 0);
+      }
+    }
+  }
+  result.param_sd.resize(np);
+  result.param_covariance.assign(np, std::vector<double>(np, kNaN));
+  for (int i = 0; i < np; ++i) {
+    result.param_sd[i] = have_cov ? std::sqrt(std::max(0.0, cov_p(i, i))) : kInf;
+    if (std::isnan(cov_p(i, i))) result.param_sd[i] = kInf;
+    for (int j = 0; j < np; ++j) result.param_covariance[i][j] = cov_p(i, j);
+  }
+  if (law == LawId::kHertz) result.param_sd[1] = 0.0;  // fixed exponent
+  result.onset_height_sd_m = onset_free ? (have_cov ? std::sqrt(cov(dim, dim)) : kInf) : 0.0;
+
+  // Per-bounce figures, curves, and their SDs.
+  std::vector<double> max_deflections;
+  for (size_t i = 0; i < windows.size(); ++i) {
+    const WindowRef& ref = windows[i];
+    const FitClip& clip = clips[ref.clip];
+    const FitWindow& w = *ref.window;
+    ContactSetup setup;
+    setup.law = law;
+    setup.tread = options.tread;
+    setup.mass_kg = clip.mass_kg;
+    setup.gravity_mps2 = options.gravity_mps2;
+    const double onset = clip.known_onset_height_m.value_or(u.onset);
+    const double end_s = w.t_s.back() + 0.05;
+    const WindowSimulation sim = SimulateWindow(setup, result.params, onset, w.start_time_s, u.states[i][0],
+                                                u.states[i][1], end_s, options.model);
+    BounceFitFigures f;
+    f.clip_index = ref.clip;
+    f.bounce_index = w.bounce_index;
+    f.start_height_m = u.states[i][0];
+    f.start_velocity_mps = u.states[i][1];
+    f.samples = static_cast<int>(w.t_s.size());
+    double ss = 0.0;
+    for (size_t k = 0; k < w.t_s.size(); ++k) {
+      if (w.y_m[k] < onset) ++f.contact_samples;
+      if (sim.ok) {
+        const double r = sim.trajectory.HeightAt(w.t_s[k]) - w.y_m[k];
+        ss += r * r;
+      }
+    }
+    f.rms_residual_m = sim.ok ? std::sqrt(ss / f.samples) : kNaN;
+    if (sim.ok) {
+      const ImpactTruth& t = sim.impact;
+      f.t_contact_s = t.t_contact_s;
+      f.t_separation_s = t.t_separation_s;
+      f.contact_duration_s = t.contact_duration_s;
+      f.peak_force_n = t.peak_force_n;
+      f.max_deflection_m = t.max_deflection_m;
+      f.impact_speed_mps = t.impact_speed_mps;
+      f.rebound_speed_mps = t.rebound_speed_mps;
+      f.cor = t.cor;
+      f.separation_speed_mps = t.separation_speed_mps;
+      max_deflections.push_back(t.max_deflection_m);
+      // Force-deflection curve over the contact.
+      ForceDeflectionCurve curve;
+      curve.clip_index = ref.clip;
+      curve.bounce_index = w.bounce_index;
+      const double t_end = std::isfinite(t.t_separation_s) ? t.t_separation_s : t.t_contact_s + 0.0;
+      for (int k = 0; k < options.curve_points && t_end > t.t_contact_s; ++k) {
+        const double tk = t.t_contact_s + (t_end - t.t_contact_s) * k / (options.curve_points - 1);
+        const HubState st = sim.trajectory.At(tk);
+        curve.t_s.push_back(tk);
+        curve.deflection_m.push_back(onset - st.y_m);
+        curve.force_n.push_back(st.contact_force_n);
+      }
+      result.curves.push_back(std::move(curve));
+    } else {
+      f.t_contact_s = f.t_separation_s = f.contact_duration_s = f.peak_force_n = f.max_deflection_m = kNaN;
+      f.impact_speed_mps = f.rebound_speed_mps = f.cor = f.separation_speed_mps = kNaN;
+      result.warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip +
+                                "': the fitted law gives no complete impact in the window");
+    }
+    f.t_separation_sd_s = f.contact_duration_sd_s = f.peak_force_sd_n = f.max_deflection_sd_m = f.cor_sd = kNaN;
+    // SDs by central differences over (law x, onset if free, state of this window).
+    if (sim.ok && have_cov && options.figure_uncertainties) {
+      std::vector<int> idx;
+      for (int j = 0; j < dim; ++j) idx.push_back(j);
+      if (onset_free && !clip.known_onset_height_m) idx.push_back(dim);
+      idx.push_back(state_offset + 2 * static_cast<int>(i));
+      idx.push_back(state_offset + 2 * static_cast<int>(i) + 1);
+      const int m = static_cast<int>(idx.size());
+      Eigen::MatrixXd sub(m, m);
+      bool finite = true;
+      for (int a = 0; a < m; ++a)
+        for (int b = 0; b < m; ++b) {
+          sub(a, b) = cov(idx[a], idx[b]);
+          finite = finite && std::isfinite(sub(a, b));
+        }
+      if (finite) {
+        Eigen::MatrixXd jac = Eigen::MatrixXd::Zero(kPropagatedFigures, m);
+        bool ok = true;
+        for (int a = 0; a < m && ok; ++a) {
+          const double h = 1e-3 * std::sqrt(std::max(sub(a, a), 0.0));
+          if (!(h > 0.0)) continue;
+          std::array<std::array<double, kPropagatedFigures>, 2> val{};
+          for (int side = 0; side < 2; ++side) {
+            std::vector<double> xx = u.x;
+            double on = onset;
+            double y0 = u.states[i][0], v0 = u.states[i][1];
+            const double step = side == 0 ? h : -h;
+            const int k = idx[a];
+            if (k < dim) xx[k] += step;
+            else if (k == dim && onset_free && !clip.known_onset_height_m) on += step;
+            else if (k == idx[m - 2]) y0 += step;
+            else v0 += step;
+            std::vector<double> pp(kMaxLawParameters);
+            ToLawParams(law, xx.data(), delta_ref, pp.data());
+            pp.resize(np);
+            const WindowSimulation sp = SimulateWindow(setup, pp, on, w.start_time_s, y0, v0, end_s, options.model);
+            if (!sp.ok) {
+              ok = false;
+              break;
+            }
+            val[side] = PropagatedFigures(sp.impact);
+          }
+          if (!ok) break;
+          for (int q = 0; q < kPropagatedFigures; ++q) jac(q, a) = (val[0][q] - val[1][q]) / (2.0 * h);
+        }
+        if (ok) {
+          const Eigen::MatrixXd fc = jac * sub * jac.transpose();
+          f.t_separation_sd_s = std::sqrt(std::max(0.0, fc(0, 0)));
+          f.contact_duration_sd_s = std::sqrt(std::max(0.0, fc(1, 1)));
+          f.peak_force_sd_n = std::sqrt(std::max(0.0, fc(2, 2)));
+          f.max_deflection_sd_m = std::sqrt(std::max(0.0, fc(3, 3)));
+          f.cor_sd = std::sqrt(std::max(0.0, fc(4, 4)));
+        }
+      } else {
+        f.t_separation_sd_s = f.contact_duration_sd_s = f.peak_force_sd_n = f.max_deflection_sd_m = f.cor_sd = kInf;
+      }
+    }
+    if (f.contact_samples < options.min_contact_samples) {
+      result.warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip + "' has only " +
+                                std::to_string(f.contact_samples) +
+                                " samples in contact (below the onset height): the law is poorly determined by it");
+    }
+    result.figures.push_back(f);
+  }
+
+  if (law == LawId::kHuntCrossley && (result.params[1] < 1.0 + 1e-6 || result.params[1] > 4.0 - 1e-6)) {
+    result.warnings.push_back("the exponent n = " + FormatG(result.params[1]) +
+                              " sits on its bound [1, 4]: the law does not describe these data well");
+  }
+  // Degenerate-data warnings.
+  if (onset_free && windows.size() == 1) {
+    result.warnings.push_back(
+        "a single bounce with a fitted onset height: stiffness, exponent and onset height trade off "
+        "(an exponent is pinned only to a few tenths); read the SDs, or give free_radius_m with a floor");
+  }
+  const double typical_deflection = Median(max_deflections);
+  if (std::isfinite(typical_deflection) && result.rms_residual_m > 0.2 * typical_deflection) {
+    result.warnings.push_back("the residual RMS (" + FormatG(result.rms_residual_m) +
+                              " m) is comparable with the deflection (" + FormatG(typical_deflection) +
+                              " m): the law is not determined by these data");
+  }
+  for (int i = 0; i < np; ++i) {
+    if (law == LawId::kHertz && i == 1) continue;
+    const double rel = result.param_sd[i] / std::abs(result.params[i]);
+    if (!(rel <= 0.5)) {
+      result.warnings.push_back(result.param_names[i] + " = " + FormatG(result.params[i]) + " has an SD of " +
+                                FormatG(result.param_sd[i]) + ": not determined by the data");
+    }
+  }
+  result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
+  return result;
+}
+
+int InternalParameterCount(LawId law) { return InternalDim(law); }
+
+std::vector<double> InternalFromLawParameters(LawId law, const std::vector<double>& params, double delta_ref_m) {
+  if (static_cast<int>(params.size()) != ParameterCount(law)) {
+    throw std::invalid_argument("InternalFromLawParameters: " + std::to_string(params.size()) + " values for " +
+                                ToString(law) + ", which has " + std::to_string(ParameterCount(law)));
+  }
+  return FromLawParams(law, params, delta_ref_m);
+}
+
+std::unique_ptr<ceres::CostFunction> MakeWindowCostFunction(LawId law, const FitWindow& window, double mass_kg,
+                                                            double delta_ref_m, double residual_scale_m,
+                                                            const LawFitOptions& options) {
+  WindowData d;
+  d.setup.law = law;
+  d.setup.tread = options.tread;
+  d.setup.mass_kg = mass_kg;
+  d.setup.gravity_mps2 = options.gravity_mps2;
+  d.model = options.model;
+  d.delta_ref_m = delta_ref_m;
+  d.inv_scale = 1.0 / residual_scale_m;
+  d.window = &window;
+  return std::unique_ptr<ceres::CostFunction>(MakeWindowCost(d));
+}
+
+std::vector<int> RankByBic(const std::vector<LawFitResult>& fits) {
+  std::vector<int> order(fits.size());
+  std::iota(order.begin(), order.end(), 0);
+  const auto key = [&](int i) {
+    const LawFitResult& f = fits[i];
+    return f.failure ? kInf : f.bic;
+  };
+  std::stable_sort(order.begin(), order.end(), [&](int a, int b) { return key(a) < key(b); });
+  return order;
+}
+
+LawComparison FitAllLaws(const std::vector<FitClip>& clips, const LawFitOptions& options) {
+  LawComparison out;
+  for (LawId law : AllLaws()) out.fits.push_back(FitLaw(law, clips, options));
+  for (int i : RankByBic(out.fits)) {
+    if (!out.fits[i].failure && out.fits[i].converged) {
+      out.best = i;
+      break;
+    }
+  }
+  return out;
+}
+
+}  // namespace dropfit::analysis

@@ -1,0 +1,649 @@
+#include "calib/calibrate.h"
+
+#include <opencv2/calib3d.hpp>
+#include <opencv2/imgproc.hpp>
+
+#include <algorithm>
+#include <cassert>
+#include <cfloat>
+#include <cmath>
+#include <iomanip>
+#include <numeric>
+#include <sstream>
+#include <stdexcept>
+
+#include "dropfit/version.h"
+
+namespace dropfit::calib {
+
+namespace {
+
+constexpr double kPi = 3.14159265358979323846;
+// A Gaussian edge rises from 10 % to 90 % over 2 * sqrt(2) * erfinv(0.8) sigma = 2.5631 sigma.
+constexpr double kRise10To90PerSigma = 2.5631;
+// Fewest views with which a lens model is fitted at all (Zhang 2000: two views fix four
+// intrinsics; a third makes the problem over-determined with distortion).
+constexpr int kFewestLensViews = 3;
+
+std::string Fmt(double v, int decimals) {
+  std::ostringstream s;
+  s << std::fixed << std::setprecision(decimals) << v;
+  return s.str();
+}
+std::string Num(double v) {
+  std::ostringstream s;
+  s << v;
+  return s.str();
+}
+std::string JoinNames(const std::vector<std::string>& names) {
+  std::string out;
+  for (size_t i = 0; i < names.size(); ++i) out += (i ? ", " : "") + names[i];
+  return out;
+}
+std::string Plural(size_t n, const std::string& one, const std::string& many) {
+  return std::to_string(n) + " " + (n == 1 ? one : many);
+}
+
+std::vector<cv::Point3f> BoardPoints3d(const BoardSpec& b) {
+  std::vector<cv::Point3f> pts;
+  for (int j = 0; j < b.rows; ++j) {
+    for (int i = 0; i < b.columns; ++i) {
+      pts.emplace_back(static_cast<float>(i * b.square_m), static_cast<float>(j * b.square_m), 0.f);
+    }
+  }
+  return pts;
+}
+
+double Bilinear(const cv::Mat& grey, double x, double y) {
+  const int x0 = std::clamp(static_cast<int>(std::floor(x)), 0, grey.cols - 2);
+  const int y0 = std::clamp(static_cast<int>(std::floor(y)), 0, grey.rows - 2);
+  const double fx = std::clamp(x - x0, 0.0, 1.0), fy = std::clamp(y - y0, 0.0, 1.0);
+  const auto at = [&](int yy, int xx) { return static_cast<double>(grey.at<uchar>(yy, xx)); };
+  return (1 - fy) * ((1 - fx) * at(y0, x0) + fx * at(y0, x0 + 1)) + fy * ((1 - fx) * at(y0 + 1, x0) + fx * at(y0 + 1, x0 + 1));
+}
+
+double Median(std::vector<double> v) {
+  assert(!v.empty());
+  std::nth_element(v.begin(), v.begin() + static_cast<long>(v.size() / 2), v.end());
+  return v[v.size() / 2];
+}
+
+// The four outer inner-corners, in order around the board.
+std::vector<cv::Point2f> OuterQuad(const std::vector<cv::Point2f>& c, const BoardSpec& b) {
+  const size_t last = c.size() - 1;
+  return {c[0], c[static_cast<size_t>(b.columns) - 1], c[last], c[last - static_cast<size_t>(b.columns) + 1]};
+}
+
+bool FindCorners(const cv::Mat& grey, const BoardSpec& b, std::vector<cv::Point2f>& corners) {
+  return cv::findChessboardCornersSB(grey, cv::Size(b.columns, b.rows), corners, cv::CALIB_CB_NORMALIZE_IMAGE);
+}
+
+struct LensFit {
+  double rms_px = 0.0;
+  cv::Matx33d camera_matrix;
+  std::vector<double> distortion;
+  std::vector<cv::Mat> rvecs, tvecs;
+  std::string terms;
+  std::vector<double> view_rms_px;
+};
+
+LensFit FitLens(const std::vector<std::vector<cv::Point3f>>& object, const std::vector<std::vector<cv::Point2f>>& image,
+                cv::Size size) {
+  struct Candidate {
+    int flags;
+    const char* terms;
+    int n_terms;
+  };
+  const Candidate candidates[] = {
+      {cv::CALIB_FIX_K2 | cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1", 1},
+      {cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1,k2", 2},
+      {cv::CALIB_FIX_K3, "k1,k2,p1,p2", 4},
+      {0, "k1,k2,p1,p2,k3", 5},
+  };
+  size_t corners = 0;
+  for (const auto& v : image) corners += v.size();
+  const double n = 2.0 * static_cast<double>(corners);
+  LensFit best;
+  double best_bic = INFINITY;
+  for (const Candidate& c : candidates) {
+    cv::Mat k, dist;
+    std::vector<cv::Mat> rvecs, tvecs;
+    const double rms = cv::calibrateCamera(object, image, size, k, dist, rvecs, tvecs, c.flags,
+                                           cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, DBL_EPSILON));
+    if (!std::isfinite(rms)) continue;
+    // BIC (Schwarz 1978) with RSS/n = rms^2 / 2; the constant offset does not change the choice.
+    const double bic = n * std::log(std::max(rms * rms, 1e-300)) + c.n_terms * std::log(n);
+    if (bic < best_bic) {
+      best_bic = bic;
+      best.rms_px = rms;
+      best.camera_matrix = cv::Matx33d(k);
+      best.distortion.assign(dist.begin<double>(), dist.end<double>());
+      best.rvecs = rvecs;
+      best.tvecs = tvecs;
+      best.terms = c.terms;
+    }
+  }
+  if (!std::isfinite(best_bic)) throw std::runtime_error("cv::calibrateCamera returned no finite fit");
+  best.distortion.resize(5, 0.0);
+  for (size_t v = 0; v < image.size(); ++v) {
+    std::vector<cv::Point2f> projected;
+    cv::projectPoints(object[v], best.rvecs[v], best.tvecs[v], best.camera_matrix, best.distortion, projected);
+    double sum = 0;
+    for (size_t i = 0; i < projected.size(); ++i) {
+      const cv::Point2f d = projected[i] - image[v][i];
+      sum += d.dot(d);
+    }
+    best.view_rms_px.push_back(std::sqrt(sum / static_cast<double>(projected.size())));
+  }
+  return best;
+}
+
+// Largest angle between two views' board normals [deg].
+double TiltSpreadDeg(const std::vector<cv::Mat>& rvecs) {
+  std::vector<cv::Vec3d> normals;
+  for (const cv::Mat& r : rvecs) {
+    cv::Matx33d rot;
+    cv::Rodrigues(r, rot);
+    normals.emplace_back(rot(0, 2), rot(1, 2), rot(2, 2));
+  }
+  double spread = 0;
+  for (size_t i = 0; i < normals.size(); ++i) {
+    for (size_t j = i + 1; j < normals.size(); ++j) {
+      const double c = std::clamp(normals[i].dot(normals[j]), -1.0, 1.0);
+      spread = std::max(spread, std::acos(c) * 180.0 / kPi);
+    }
+  }
+  return spread;
+}
+
+// Share of a 20 x 20 grid of cell centres inside at least one board's outer quad.
+double CoverageFraction(const std::vector<std::vector<cv::Point2f>>& quads, cv::Size size) {
+  constexpr int kCells = 20;
+  int covered = 0;
+  for (int gy = 0; gy < kCells; ++gy) {
+    for (int gx = 0; gx < kCells; ++gx) {
+      const cv::Point2f p((gx + 0.5f) * static_cast<float>(size.width) / kCells - 0.5f,
+                          (gy + 0.5f) * static_cast<float>(size.height) / kCells - 0.5f);
+      for (const auto& q : quads) {
+        if (cv::pointPolygonTest(q, p, false) >= 0) {
+          ++covered;
+          break;
+        }
+      }
+    }
+  }
+  return covered / static_cast<double>(kCells * kCells);
+}
+
+struct DetectedView {
+  std::string name;
+  BoardDetection detection;
+};
+
+// Looks for a board of a nearby size (the user may have counted squares, or swapped nothing but
+// miscounted) in the first few images, so the "no board" message can name the right --board.
+std::optional<std::pair<BoardSpec, std::string>> FindOtherBoardSize(const std::vector<const CalibrationImage*>& images,
+                                                                    const BoardSpec& given) {
+  std::vector<BoardSpec> sizes;
+  for (int d = 1; d <= 2; ++d) {
+    for (int dc = -2; dc <= 2; ++dc) {
+      for (int dr = -2; dr <= 2; ++dr) {
+        if (std::abs(dc) + std::abs(dr) != d) continue;
+        BoardSpec b = given;
+        b.columns += dc;
+        b.rows += dr;
+        if (b.columns >= 3 && b.rows >= 3) sizes.push_back(b);
+      }
+    }
+  }
+  constexpr size_t kImagesTried = 2;  // ~0.1-0.5 s per size and image
+  for (size_t i = 0; i < std::min(kImagesTried, images.size()); ++i) {
+    for (const BoardSpec& b : sizes) {
+      std::vector<cv::Point2f> corners;
+      if (FindCorners(images[i]->grey, b, corners)) {
+        return std::make_pair(b, images[i]->name);
+      }
+    }
+  }
+  return std::nullopt;
+}
+
+void CheckImage(const CalibrationImage& image, cv::Size size) {
+  if (image.grey.empty()) throw std::invalid_argument("image " + image.name + " is empty");
+  if (image.grey.type() != CV_8UC1) {
+    throw std::invalid_argument("image " + image.name + " is not 8-bit grey (convert it before calibrating)");
+  }
+  if (image.grey.size() != size) {
+    throw std::invalid_argument("image " + image.name + " is " + std::to_string(image.grey.cols) + "x" +
+                                std::to_string(image.grey.rows) + " px but the plane view is " +
+                                std::to_string(size.width) + "x" + std::to_string(size.height) +
+                                " px; all views must come from the same camera at the same resolution");
+  }
+}
+
+void RecordSettings(const CalibrateOptions& o, Rig& rig) {
+  auto& s = rig.settings;
+  s.emplace_back("board", BoardSizeToString(o.board));
+  s.emplace_back("square_m", Num(o.board.square_m));
+  s.emplace_back("corner_height_m", o.corner_height_m ? Num(*o.corner_height_m) : "");
+  s.emplace_back("up", ToString(o.up));
+  s.emplace_back("capture_fps", o.capture_fps ? Num(*o.capture_fps) : "");
+  s.emplace_back("force", o.force ? "true" : "false");
+  s.emplace_back("min_lens_views", std::to_string(o.min_lens_views));
+  s.emplace_back("max_rms_px", Num(o.max_rms_px));
+  s.emplace_back("warn_rms_px", Num(o.warn_rms_px));
+  s.emplace_back("outlier_factor", Num(o.outlier_factor));
+  s.emplace_back("outlier_floor_px", Num(o.outlier_floor_px));
+  s.emplace_back("max_blur_px", Num(o.max_blur_px));
+  s.emplace_back("min_board_coverage_fraction", Num(o.min_board_coverage_fraction));
+  s.emplace_back("min_views_coverage_fraction", Num(o.min_views_coverage_fraction));
+  s.emplace_back("min_tilt_spread_deg", Num(o.min_tilt_spread_deg));
+  s.emplace_back("subpix_half_window_px", std::to_string(o.subpix_half_window_px));
+  s.emplace_back("max_video_views", std::to_string(o.max_video_views));
+  s.emplace_back("video_candidates_per_view", std::to_string(o.video_candidates_per_view));
+}
+
+}  // namespace
+
+std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& o) {
+  const auto bad = [](const std::string& name, double value, const std::string& range) {
+    return std::optional<std::string>(name + " = " + Num(value) + " is out of range (" + range + ")");
+  };
+  if (o.board.columns < 3 || o.board.rows < 3) {
+    return "board " + BoardSizeToString(o.board) + " is out of range (at least 3x3 inner corners)";
+  }
+  if (!(std::isfinite(o.board.square_m) && o.board.square_m > 0)) return bad("square_m", o.board.square_m, "> 0 m");
+  if (o.corner_height_m && !(std::isfinite(*o.corner_height_m) && *o.corner_height_m >= 0)) {
+    return bad("corner_height_m", *o.corner_height_m, ">= 0 m");
+  }
+  if (o.capture_fps && !(std::isfinite(*o.capture_fps) && *o.capture_fps > 0)) {
+    return bad("capture_fps", *o.capture_fps, "> 0 frames/s");
+  }
+  if (o.min_lens_views < kFewestLensViews || o.min_lens_views > 1000) return bad("min_lens_views", o.min_lens_views, "3..1000");
+  if (!(o.max_rms_px > 0)) return bad("max_rms_px", o.max_rms_px, "> 0 px");
+  if (!(o.warn_rms_px > 0 && o.warn_rms_px <= o.max_rms_px)) return bad("warn_rms_px", o.warn_rms_px, "> 0 px, <= max_rms_px");
+  if (!(o.outlier_factor > 1)) return bad("outlier_factor", o.outlier_factor, "> 1");
+  if (!(o.outlier_floor_px >= 0)) return bad("outlier_floor_px", o.outlier_floor_px, ">= 0 px");
+  if (!(o.max_blur_px > 0)) return bad("max_blur_px", o.max_blur_px, "> 0 px");
+  if (!(o.min_board_coverage_fraction >= 0 && o.min_board_coverage_fraction <= 1)) {
+    return bad("min_board_coverage_fraction", o.min_board_coverage_fraction, "0..1");
+  }
+  if (!(o.min_views_coverage_fraction >= 0 && o.min_views_coverage_fraction <= 1)) {
+    return bad("min_views_coverage_fraction", o.min_views_coverage_fraction, "0..1");
+  }
+  if (!(o.min_tilt_spread_deg >= 0 && o.min_tilt_spread_deg <= 90)) return bad("min_tilt_spread_deg", o.min_tilt_spread_deg, "0..90 deg");
+  if (o.subpix_half_window_px < 2 || o.subpix_half_window_px > 30) return bad("subpix_half_window_px", o.subpix_half_window_px, "2..30 px");
+  if (o.max_video_views < 3 || o.max_video_views > 200) return bad("max_video_views", o.max_video_views, "3..200");
+  if (o.video_candidates_per_view < 1 || o.video_candidates_per_view > 20) {
+    return bad("video_candidates_per_view", o.video_candidates_per_view, "1..20");
+  }
+  return std::nullopt;
+}
+
+double EstimateEdgeBlurPx(const cv::Mat& grey, const std::vector<cv::Point2f>& corners_px, const BoardSpec& board) {
+  constexpr double kStepPx = 0.25;       // profile sampling step
+  constexpr double kMaxReachPx = 15.0;   // profile half-length cap
+  constexpr double kMinContrast = 20.0;  // grey levels; flatter profiles are not edges
+  std::vector<double> sigmas;
+  const auto measure = [&](cv::Point2f a, cv::Point2f b) {
+    const cv::Point2d d(b.x - a.x, b.y - a.y);
+    const double len = std::hypot(d.x, d.y);
+    if (len < 4) return;
+    const cv::Point2d mid((a.x + b.x) / 2.0, (a.y + b.y) / 2.0), nrm(-d.y / len, d.x / len);
+    const double reach = std::min(0.35 * len, kMaxReachPx);
+    std::vector<double> p;
+    for (double t = -reach; t <= reach + 1e-9; t += kStepPx) p.push_back(Bilinear(grey, mid.x + t * nrm.x, mid.y + t * nrm.y));
+    if (p.size() < 8) return;
+    if (p.back() < p.front()) std::reverse(p.begin(), p.end());
+    const double lo = (p[0] + p[1] + p[2]) / 3.0, hi = (p[p.size() - 1] + p[p.size() - 2] + p[p.size() - 3]) / 3.0;
+    if (hi - lo < kMinContrast) return;
+    int inside = 0;
+    for (double v : p) {
+      const double f = (v - lo) / (hi - lo);
+      if (f > 0.1 && f < 0.9) ++inside;
+    }
+    sigmas.push_back(inside * kStepPx / kRise10To90PerSigma);
+  };
+  for (int j = 0; j < board.rows; ++j) {
+    for (int i = 0; i < board.columns; ++i) {
+      const size_t k = static_cast<size_t>(j * board.columns + i);
+      if (i + 1 < board.columns) measure(corners_px[k], corners_px[k + 1]);
+      if (j + 1 < board.rows) measure(corners_px[k], corners_px[k + static_cast<size_t>(board.columns)]);
+    }
+  }
+  return sigmas.empty() ? 0.0 : Median(sigmas);
+}
+
+BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subpix_half_window_px) {
+  if (grey.empty() || grey.type() != CV_8UC1) {
+    throw std::invalid_argument("DetectBoard needs a non-empty 8-bit grey image");
+  }
+  BoardDetection out;
+  out.found = FindCorners(grey, board, out.corners_px);
+  if (!out.found) {
+    out.corners_px.clear();
+    return out;
+  }
+  // The refinement window must stay inside the four squares around a corner.
+  double spacing = INFINITY;
+  for (int j = 0; j < board.rows; ++j) {
+    for (int i = 0; i + 1 < board.columns; ++i) {
+      const size_t k = static_cast<size_t>(j * board.columns + i);
+      spacing = std::min(spacing, cv::norm(out.corners_px[k + 1] - out.corners_px[k]));
+    }
+  }
+  const int half = std::clamp(static_cast<int>(0.4 * spacing), 2, subpix_half_window_px);
+  cv::cornerSubPix(grey, out.corners_px, cv::Size(half, half), cv::Size(-1, -1),
+                   cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 50, 1e-3));
+  out.blur_px = EstimateEdgeBlurPx(grey, out.corners_px, board);
+  return out;
+}
+
+CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const CalibrationImage& plane,
+                             const CalibrateOptions& options) {
+  if (const auto problem = ValidateCalibrateOptions(options)) throw std::invalid_argument(*problem);
+  if (plane.grey.empty()) throw std::invalid_argument("the plane view " + plane.name + " is empty");
+  const cv::Size size = plane.grey.size();
+  CheckImage(plane, size);
+  for (const CalibrationImage& v : views) CheckImage(v, size);
+
+  const BoardSpec& board = options.board;
+  const std::string board_text = BoardSizeToString(board);
+  CalibrationOutcome out;
+  const auto warn = [&out](const std::string& w) { out.warnings.push_back(w); };
+  const auto refuse = [&out](const std::string& why) {
+    out.refusal = why;
+    return out;
+  };
+
+  // 1. Corners.
+  const auto detect = [&](const cv::Mat& grey) { return DetectBoard(grey, board, options.subpix_half_window_px); };
+  const BoardDetection plane_det = detect(plane.grey);
+  std::vector<DetectedView> usable;
+  std::vector<std::string> no_board, blurred, dropped;
+  std::vector<const CalibrationImage*> all_images{&plane};
+  for (const CalibrationImage& v : views) {
+    if (v.name == plane.name) continue;
+    all_images.push_back(&v);
+    BoardDetection d = detect(v.grey);
+    if (!d.found) {
+      no_board.push_back(v.name);
+    } else if (d.blur_px > options.max_blur_px) {
+      blurred.push_back(v.name);
+      dropped.push_back(v.name + ": blurred (edge blur " + Fmt(d.blur_px, 1) + " px, limit " + Num(options.max_blur_px) + " px)");
+    } else {
+      usable.push_back({v.name, std::move(d)});
+    }
+  }
+  const size_t lens_images = all_images.size() - 1;
+
+  if (!plane_det.found && no_board.size() == lens_images) {
+    std::string msg = "no checkerboard with " + board_text + " inner corners was found in any of the " +
+                      Plural(all_images.size(), "image", "images");
+    if (const auto other = FindOtherBoardSize(all_images, board)) {
+      return refuse(msg + ", but one with " + BoardSizeToString(other->first) + " inner corners was found in " +
+                    other->second + ": pass --board " + BoardSizeToString(other->first) +
+                    " (inner corners, not squares)");
+    }
+    return refuse(msg + "; check --board (count inner corners, not squares: a board of 10 x 7 squares has 9x6 inner "
+                        "corners) and that the whole board, with its white border, is in view and in focus");
+  }
+  if (!plane_det.found) {
+    return refuse("no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
+                  ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it");
+  }
+  if (plane_det.blur_px > options.max_blur_px) {
+    const std::string msg = "the plane view " + plane.name + " is blurred (edge blur " + Fmt(plane_det.blur_px, 1) +
+                            " px, limit " + Num(options.max_blur_px) + " px): retake it in focus with the board still";
+    if (!options.force) return refuse(msg + ", or pass --force");
+    warn("forced (--force): " + msg);
+  }
+  if (!no_board.empty()) {
+    out.notes.push_back("no " + board_text + " board found in " + Plural(no_board.size(), "image", "images") + ": " +
+                        JoinNames(no_board));
+    warn("no " + board_text + " board found in " + std::to_string(no_board.size()) + " of " +
+         Plural(lens_images, "view", "views") + " (left out): " + JoinNames(no_board));
+  }
+  if (!blurred.empty()) {
+    warn(Plural(blurred.size(), "view was", "views were") + " left out as blurred (edge blur above " +
+         Num(options.max_blur_px) + " px): " + JoinNames(blurred) +
+         "; refocus, shorten the exposure or hold the board still");
+  }
+
+  // 2. Lens model.
+  Rig rig;
+  rig.image_size = size;
+  rig.board = board;
+  rig.plane_view = plane.name;
+  rig.up = options.up;
+  rig.capture_fps = options.capture_fps;
+  rig.tool_version = kVersion;
+  RecordSettings(options, rig);
+
+  const size_t n_usable = usable.size() + 1;  // the plane view is a lens view too
+  bool fit_lens = lens_images > 0;
+  if (!fit_lens) {
+    warn("no lens model (only the plane view was given): lens distortion is not corrected, so positions away from "
+         "the plane view's board can be off by several pixels, most near the frame's edges, and the rig cannot tell "
+         "by how much; give 10-20 further views of the board at different positions and tilts for a lens model");
+  } else if (n_usable < static_cast<size_t>(options.min_lens_views)) {
+    std::string msg = "only " + Plural(n_usable, "usable view", "usable views") + " of the board (need " +
+                      std::to_string(options.min_lens_views) + " for a lens model)";
+    if (!no_board.empty()) msg += "; no board in " + Plural(no_board.size(), "image", "images");
+    if (!blurred.empty()) {
+      msg += "; " + std::to_string(blurred.size()) + " too blurred (edge blur above " + Num(options.max_blur_px) +
+             " px: refocus, shorten the exposure or hold the board still)";
+    }
+    msg += ": add views of the board at different positions and tilts (20-40 degrees) over the whole frame";
+    if (!options.force) return refuse(msg + ", or pass --force to accept a weaker calibration");
+    if (n_usable < static_cast<size_t>(kFewestLensViews)) {
+      fit_lens = false;
+      warn("forced (--force): " + msg + "; too few for any lens model, so none is used and lens distortion is not corrected");
+    } else {
+      warn("forced (--force): " + msg);
+    }
+  }
+
+  std::vector<std::vector<cv::Point2f>> lens_quads;
+  if (fit_lens) {
+    std::vector<std::string> names{plane.name};
+    std::vector<std::vector<cv::Point2f>> image_pts{plane_det.corners_px};
+    for (const DetectedView& v : usable) {
+      names.push_back(v.name);
+      image_pts.push_back(v.detection.corners_px);
+    }
+    const auto object_pts = [&] { return std::vector<std::vector<cv::Point3f>>(image_pts.size(), BoardPoints3d(board)); };
+    LensFit fit = FitLens(object_pts(), image_pts, size);
+    // Drop views far worse than the rest, worst first, one at a time (never the plane view, index 0).
+    while (image_pts.size() > static_cast<size_t>(kFewestLensViews)) {
+      const double median = Median(fit.view_rms_px);
+      const auto worst = std::max_element(fit.view_rms_px.begin() + 1, fit.view_rms_px.end());
+      if (!(*worst > options.outlier_factor * median && *worst > options.outlier_floor_px)) break;
+      const size_t w = static_cast<size_t>(worst - fit.view_rms_px.begin());
+      dropped.push_back(names[w] + ": RMS " + Fmt(*worst, 2) + " px, far above the median " + Fmt(median, 2) + " px");
+      warn("view " + names[w] + " left out: its RMS reprojection error " + Fmt(*worst, 2) + " px is far above the median " +
+           Fmt(median, 2) + " px (a moved, bent or mis-detected board)");
+      names.erase(names.begin() + static_cast<long>(w));
+      image_pts.erase(image_pts.begin() + static_cast<long>(w));
+      fit = FitLens(object_pts(), image_pts, size);
+    }
+    {
+      const double median = Median(fit.view_rms_px);
+      if (fit.view_rms_px[0] > options.outlier_factor * median && fit.view_rms_px[0] > options.outlier_floor_px) {
+        warn("the plane view " + plane.name + " fits the lens model worse than the other views (RMS " +
+             Fmt(fit.view_rms_px[0], 2) + " px against a median of " + Fmt(median, 2) +
+             " px): check that it shows the same flat board, still and sharp");
+      }
+    }
+    if (fit.rms_px > options.max_rms_px) {
+      const std::string msg = "the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (limit " +
+                              Num(options.max_rms_px) +
+                              " px): the corners do not fit one lens model; check that every view shows the same "
+                              "flat board and that zoom and focus did not change between views";
+      if (!options.force) return refuse(msg + ", or pass --force");
+      warn("forced (--force): " + msg);
+    } else if (fit.rms_px > options.warn_rms_px) {
+      warn("the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (above " + Num(options.warn_rms_px) +
+           " px): expect position errors of that order; sharper views and a flatter board improve it");
+    }
+    LensModel lens;
+    lens.camera_matrix = fit.camera_matrix;
+    lens.distortion = fit.distortion;
+    rig.lens = lens;
+    rig.quality.rms_reprojection_px = fit.rms_px;
+    rig.quality.view_names = names;
+    rig.quality.view_rms_px = fit.view_rms_px;
+    rig.quality.distortion_terms = fit.terms;
+    rig.quality.tilt_spread_deg = TiltSpreadDeg(fit.rvecs);
+    for (const auto& pts : image_pts) lens_quads.push_back(OuterQuad(pts, board));
+    rig.quality.views_coverage_fraction = CoverageFraction(lens_quads, size);
+    if (rig.quality.tilt_spread_deg < options.min_tilt_spread_deg) {
+      warn("the views' board tilts span only " + Fmt(rig.quality.tilt_spread_deg, 1) + " degrees (below " +
+           Num(options.min_tilt_spread_deg) +
+           "): focal length and distortion are poorly separated; add views with the board tilted 20-40 degrees "
+           "about both axes");
+    }
+    if (rig.quality.views_coverage_fraction < options.min_views_coverage_fraction) {
+      warn("the lens views' boards cover " + Fmt(100 * rig.quality.views_coverage_fraction, 0) + " % of the frame (below " +
+           Num(100 * options.min_views_coverage_fraction) +
+           " %): distortion near the uncovered edges is extrapolated; add views with the board near the frame's "
+           "edges and corners");
+    }
+  }
+  rig.quality.dropped_views = dropped;
+
+  // 3. The plane: homography board -> undistorted pixels, then board -> plane metres.
+  std::vector<cv::Point2f> und = plane_det.corners_px;
+  if (rig.lens) {
+    cv::undistortPoints(plane_det.corners_px, und, rig.lens->camera_matrix, rig.lens->distortion, cv::noArray(),
+                        rig.lens->camera_matrix,
+                        cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, 1e-12));
+  }
+  std::vector<cv::Point2f> board_2d;
+  for (const cv::Point3f& p : BoardPoints3d(board)) board_2d.emplace_back(p.x, p.y);
+  const cv::Mat h_mat = cv::findHomography(board_2d, und, 0);
+  if (h_mat.empty()) return refuse("the plane view's corners gave no plane mapping (degenerate board detection); retake it");
+  const cv::Matx33d und_from_board(h_mat);
+  const auto to_image = [&](cv::Point2d b) {
+    const cv::Vec3d q = und_from_board * cv::Vec3d(b.x, b.y, 1.0);
+    return cv::Point2d(q[0] / q[2], q[1] / q[2]);
+  };
+  double plane_sum = 0;
+  for (size_t i = 0; i < und.size(); ++i) {
+    const cv::Point2d d = to_image(board_2d[i]) - cv::Point2d(und[i]);
+    plane_sum += d.dot(d);
+  }
+  rig.quality.plane_rms_px = std::sqrt(plane_sum / static_cast<double>(und.size()));
+
+  // Board axes as seen in the image, at the board's centre.
+  const cv::Point2d centre_b(0.5 * (board.columns - 1) * board.square_m, 0.5 * (board.rows - 1) * board.square_m);
+  const double step = 0.5 * board.square_m;
+  const cv::Point2d c_img = to_image(centre_b);
+  const cv::Vec2d axis_img[4] = {
+      cv::Vec2d(to_image(centre_b + cv::Point2d(step, 0)) - c_img), cv::Vec2d(to_image(centre_b - cv::Point2d(step, 0)) - c_img),
+      cv::Vec2d(to_image(centre_b + cv::Point2d(0, step)) - c_img), cv::Vec2d(to_image(centre_b - cv::Point2d(0, step)) - c_img)};
+  const cv::Vec2d axis_board[4] = {{1, 0}, {-1, 0}, {0, 1}, {0, -1}};
+  cv::Vec2d side;
+  switch (options.up) {
+    case UpSide::kTop: side = {0, -1}; break;
+    case UpSide::kBottom: side = {0, 1}; break;
+    case UpSide::kLeft: side = {-1, 0}; break;
+    case UpSide::kRight: side = {1, 0}; break;
+  }
+  int up_axis = 0;
+  double best_cos = -2;
+  for (int a = 0; a < 4; ++a) {
+    const double c = axis_img[a].dot(side) / cv::norm(axis_img[a]);
+    if (c > best_cos) {
+      best_cos = c;
+      up_axis = a;
+    }
+  }
+  const cv::Vec2d up_b = axis_board[up_axis];
+  // x_m: the perpendicular board axis, signed so that (x, up) turn like (right, up) in the image
+  // (negative 2-D cross product with v down).
+  const int x_axis = up_axis < 2 ? 2 : 0;
+  const auto cross = [](cv::Vec2d a, cv::Vec2d b) { return a[0] * b[1] - a[1] * b[0]; };
+  const cv::Vec2d x_b = cross(axis_img[x_axis], axis_img[up_axis]) < 0 ? axis_board[x_axis] : -axis_board[x_axis];
+  const double off_deg = std::acos(std::clamp(best_cos, -1.0, 1.0)) * 180.0 / kPi;
+  if (off_deg > 30.0) {
+    warn("the plane view's board is turned " + Fmt(off_deg, 0) + " degrees from the image's " + ToString(options.up) +
+         " side; the vertical is taken from the board's edges, so the board must stand upright in the drop plane");
+  }
+  double x_min = INFINITY, y_min = INFINITY;
+  for (const cv::Point2f& b : board_2d) {
+    x_min = std::min(x_min, x_b[0] * b.x + x_b[1] * b.y);
+    y_min = std::min(y_min, up_b[0] * b.x + up_b[1] * b.y);
+  }
+  const double y_lowest_row_m = options.corner_height_m.value_or(0.0);
+  const cv::Matx33d plane_from_board(x_b[0], x_b[1], -x_min, up_b[0], up_b[1], -y_min + y_lowest_row_m, 0, 0, 1);
+  rig.plane_from_undistorted = plane_from_board * und_from_board.inv();
+  rig.plane_from_undistorted *= 1.0 / rig.plane_from_undistorted(2, 2);
+  if (options.corner_height_m) {
+    rig.y_origin = YOrigin::kFloor;
+    rig.corner_height_m = options.corner_height_m;
+  }
+
+  // Lowest corner row in the image: the corners with the smallest y_m.
+  {
+    double v_sum = 0;
+    int n = 0;
+    for (size_t i = 0; i < board_2d.size(); ++i) {
+      if (std::abs(up_b[0] * board_2d[i].x + up_b[1] * board_2d[i].y - y_min) < 1e-9) {
+        v_sum += plane_det.corners_px[i].y;
+        ++n;
+      }
+    }
+    rig.quality.lowest_corner_row_px = v_sum / n;
+  }
+  if (rig.lens) {
+    // Pose of the frame in which plane point (x_m, y_m) is (x_m, -y_m, 0).
+    std::vector<cv::Point3d> obj;
+    for (const cv::Point2f& b : board_2d) {
+      const cv::Vec3d p = plane_from_board * cv::Vec3d(b.x, b.y, 1.0);
+      obj.emplace_back(p[0], -p[1], 0.0);
+    }
+    cv::Vec3d rvec, tvec;
+    std::vector<cv::Point2d> img(plane_det.corners_px.begin(), plane_det.corners_px.end());
+    cv::solvePnP(obj, img, rig.lens->camera_matrix, rig.lens->distortion, rvec, tvec);
+    rig.plane_rvec_rad = rvec;
+    rig.plane_tvec_m = tvec;
+  }
+
+  // 4. Figures in the user's units.
+  {
+    std::vector<double> err_mm;
+    const auto pair_error = [&](size_t a, size_t b) {
+      const cv::Point2d pa = PlaneFromImage(rig, plane_det.corners_px[a]), pb = PlaneFromImage(rig, plane_det.corners_px[b]);
+      err_mm.push_back(std::abs(cv::norm(pa - pb) - board.square_m) * 1e3);
+    };
+    for (int j = 0; j < board.rows; ++j) {
+      for (int i = 0; i < board.columns; ++i) {
+        const size_t k = static_cast<size_t>(j * board.columns + i);
+        if (i + 1 < board.columns) pair_error(k, k + 1);
+        if (j + 1 < board.rows) pair_error(k, k + static_cast<size_t>(board.columns));
+      }
+    }
+    rig.quality.square_error_mean_mm = std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
+    rig.quality.square_error_max_mm = *std::max_element(err_mm.begin(), err_mm.end());
+    const cv::Point2d c(0.5 * (size.width - 1), 0.5 * (size.height - 1));
+    const cv::Point2d du = PlaneFromImage(rig, c + cv::Point2d(0.5, 0)) - PlaneFromImage(rig, c - cv::Point2d(0.5, 0));
+    const cv::Point2d dv = PlaneFromImage(rig, c + cv::Point2d(0, 0.5)) - PlaneFromImage(rig, c - cv::Point2d(0, 0.5));
+    rig.quality.metres_per_px_centre = std::sqrt(std::abs(du.x * dv.y - du.y * dv.x));
+    const std::vector<cv::Point2f> quad = OuterQuad(plane_det.corners_px, board);
+    rig.quality.board_coverage_fraction = cv::contourArea(quad) / (static_cast<double>(size.width) * size.height);
+    if (!rig.lens) rig.quality.views_coverage_fraction = CoverageFraction({quad}, size);
+    if (rig.quality.board_coverage_fraction < options.min_board_coverage_fraction) {
+      warn("the plane view's board covers " + Fmt(100 * rig.quality.board_coverage_fraction, 1) + " % of the frame (below " +
+           Num(100 * options.min_board_coverage_fraction) +
+           " %): positions far from it are extrapolated; use a larger board or place it where the specimen moves");
+    }
+  }
+
+  rig.warnings = out.warnings;
+  if (const auto problem = ValidateRig(rig)) return refuse("the calibration gave an unusable rig: " + *problem);
+  out.rig = std::move(rig);
+  return out;
+}
+
+}  // namespace dropfit::calib

@@ -1,0 +1,147 @@
+#include "cli/clip_pipeline.h"
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <sstream>
+
+#include "analysis/forward_model.h"
+#include "analysis/kinematics.h"
+#include "analysis/law_fit.h"
+#include "cli/analyze_command.h"
+#include "cli/fit_records.h"
+#include "cli/track_command.h"
+#include "tracker/frame_source.h"
+#include "tracker/track.h"
+
+namespace dropfit::cli {
+
+namespace {
+
+double Seconds(std::chrono::steady_clock::time_point since) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - since).count();
+}
+
+}  // namespace
+
+std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig) {
+  if (request.free_radius_m && rig.y_origin == calib::YOrigin::kFloor) return *request.free_radius_m;
+  return std::nullopt;
+}
+
+analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, const calib::Rig& rig, double fps) {
+  analysis::KinematicsOptions k;
+  k.mass_kg = request.mass_kg;
+  k.gravity_mps2 = request.gravity_mps2.value_or(analysis::kStandardGravityMps2);
+  k.onset_height_m = GeometryOnsetHeight(request, rig);
+  k.onset_height_source = analysis::OnsetHeightSource::kGeometry;
+  k.drop_height_m = request.drop_height_m;
+  k.capture_fps = fps;
+  return k;
+}
+
+analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request) {
+  analysis::LawFitOptions o;
+  o.gravity_mps2 = request.gravity_mps2.value_or(analysis::kStandardGravityMps2);
+  o.tread = analysis::MakeTreadGeometry(request.free_radius_m.value_or(0.0), request.tread_width_m.value_or(0.0),
+                                        request.section_radius_m.value_or(0.0));
+  return o;
+}
+
+ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, const ClipProgress& progress) {
+  ClipAnalysis out;
+  ClipResult& result = out.result;
+  result.clip = request.clip_id;
+  result.y_origin = calib::ToString(rig.y_origin);
+  const std::string name = request.clip_path.filename().string();
+  if (request.free_radius_m && rig.y_origin != calib::YOrigin::kFloor) {
+    result.warnings.push_back(name +
+                              ": the free radius is not used: the rig does not know the floor (y_origin \"board\"); "
+                              "the onset height is estimated. Calibrate with --corner-height to use the geometry");
+  }
+
+  std::unique_ptr<tracker::FrameSource> source;
+  try {
+    source = tracker::FrameSource::Open(request.clip_path);
+  } catch (const std::exception& e) {
+    result.errors.push_back(e.what());
+    return out;
+  }
+  const std::optional<CaptureRate> rate = ResolveCaptureRate(request.fps_option, request.fps_manifest,
+                                                             rig.capture_fps, source->info().container_fps);
+  if (!rate) {
+    result.errors.push_back(name +
+                            ": no capture rate is known (none in the manifest, the rig or the clip's container); "
+                            "give capture_fps in the manifest");
+    return out;
+  }
+  if (!rig.image_size.empty() && source->info().size != rig.image_size) {
+    const cv::Size s = source->info().size;
+    result.errors.push_back(name + ": frames are " + std::to_string(s.width) + "x" + std::to_string(s.height) +
+                            " but the rig was made for " + std::to_string(rig.image_size.width) + "x" +
+                            std::to_string(rig.image_size.height) + " images; use the rig of this camera set-up");
+    return out;
+  }
+  result.capture_fps = rate->fps;
+  result.capture_fps_source = rate->source;
+  if (rate->warning) result.warnings.push_back(name + ": " + *rate->warning);
+
+  tracker::TrackOptions track_options;
+  track_options.marker = tracker::MarkerKindFromString(request.marker);
+  const tracker::Track track = tracker::TrackClip(*source, track_options, progress);
+  AddTrackToResult(track, result);
+  result.extra.push_back({"time_decode_s", track.read_seconds});
+  result.extra.push_back({"time_track_s", track.track_seconds});
+  out.track = TrackRowsFromTrack(track, rig, rate->fps);
+  if (track.frames == 0) {
+    result.errors.push_back(name + ": no frames could be read");
+    return out;
+  }
+  if (track.tracked_frames == 0) {
+    result.errors.push_back(name +
+                            ": the hub marker was not found on any frame; check the marker kind or its contrast "
+                            "(try `dropfit track --marker ... --seed U,V` on this clip)");
+    return out;
+  }
+
+  const analysis::TimeSeries series = TimeSeriesFromTrackRows(out.track, rate->fps);
+  const analysis::KinematicsOptions kin_options = KinematicsOptionsFor(request, rig, rate->fps);
+  analysis::KinematicsResult kinematics = analysis::AnalyzeKinematics(series, kin_options);
+  const ClipResult tracked = result;  // tracking fields only, to rebuild from after a refit
+  AddKinematicsToResult(kinematics, name, result);
+  if (kinematics.failure) return out;
+
+  if (request.fit_laws) {
+    const auto fit_start = std::chrono::steady_clock::now();
+    const analysis::FitClip fit_clip =
+        analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, series,
+                              kinematics.segmentation, kinematics.impacts);
+    if (fit_clip.windows.empty()) {
+      result.warnings.push_back(name + ": no complete bounce: the contact laws were not fitted");
+    } else {
+      const analysis::LawFitOptions fit_options = LawFitOptionsFor(request);
+      const analysis::LawComparison laws = analysis::FitAllLaws({fit_clip}, fit_options);
+      // Without the geometry, the best law's onset height replaces the track's estimate: the
+      // speeds and COR are read again at that height (contract: onset_height_source "fit").
+      if (laws.best && !kin_options.onset_height_m) {
+        const analysis::LawFitResult& best = laws.fits[static_cast<size_t>(*laws.best)];
+        analysis::KinematicsOptions refit = kin_options;
+        refit.onset_height_m = best.onset_height_m;
+        refit.onset_height_sd_m = best.onset_height_sd_m;
+        refit.onset_height_source = analysis::OnsetHeightSource::kFit;
+        analysis::KinematicsResult again = analysis::AnalyzeKinematics(series, refit);
+        if (!again.failure) {
+          kinematics = std::move(again);
+          result = tracked;
+          AddKinematicsToResult(kinematics, name, result);
+        }
+      }
+      AddLawFitsToResult(laws, {fit_clip}, fit_options, result);
+    }
+    result.extra.push_back({"time_fits_s", Seconds(fit_start)});
+  }
+  out.analysed = result.errors.empty();
+  return out;
+}
+
+}  // namespace dropfit::cli

@@ -1,0 +1,53 @@
+#pragma once
+// One clip, end to end: track the hub marker, convert to metres through the rig, find the
+// impacts, fit the contact laws. Shared by `dropfit analyze` (one clip) and `dropfit run`
+// (a folder, several clips in parallel: no global state here).
+
+#include <filesystem>
+#include <functional>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "analysis/kinematics.h"
+#include "analysis/law_fit.h"
+#include "calib/rig.h"
+#include "cli/results.h"
+
+namespace dropfit::cli {
+
+struct ClipRequest {
+  std::filesystem::path clip_path;       // video file or folder of numbered images
+  std::string clip_id;                   // for messages and result.json's "clip"
+  double mass_kg = 0.0;                  // dropped mass [kg], > 0
+  std::optional<double> drop_height_m;   // nominal drop height [m]
+  std::optional<double> free_radius_m;   // unloaded radius, hub to tread [m]
+  std::optional<double> tread_width_m;   // volumetric law: cylinder width [m]
+  std::optional<double> section_radius_m;  // volumetric law: torus section radius [m] (wins)
+  std::optional<double> fps_option;      // --fps (wins over everything)
+  std::optional<double> fps_manifest;    // manifest capture_fps
+  std::optional<double> gravity_mps2;    // local gravity; default standard gravity
+  std::string marker = "auto";           // tracker::MarkerKind text
+  bool fit_laws = true;                  // run the per-clip contact-law fits
+};
+
+// frames done, frames total (0 when unknown)
+using ClipProgress = std::function<void(int, int)>;
+
+struct ClipAnalysis {
+  ClipResult result;           // the contract's result.json content
+  std::vector<TrackRow> track; // the contract's track.csv rows (empty when nothing was read)
+  bool analysed = false;       // false: the clip failed; the reasons are in result.errors
+};
+
+// The onset height from the geometry (free radius above a floor the rig knows), if known.
+std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig);
+// The kinematics and law-fit settings of a clip (shared by the per-clip and joint stages).
+analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, const calib::Rig& rig, double fps);
+analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
+
+// Never throws for a per-clip problem (unreadable clip, marker not found, no impact): those
+// come back as data with analysed = false and the reason in result.errors.
+ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, const ClipProgress& progress = {});
+
+}  // namespace dropfit::cli

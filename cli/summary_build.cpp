@@ -1,0 +1,93 @@
+#include "cli/summary_build.h"
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+#include <string>
+
+namespace dropfit::cli {
+
+namespace {
+
+struct Stats {
+  std::vector<double> values;
+  void Add(double v) {
+    if (std::isfinite(v)) values.push_back(v);
+  }
+  double Mean() const {
+    if (values.empty()) return std::nan("");
+    double s = 0;
+    for (double v : values) s += v;
+    return s / static_cast<double>(values.size());
+  }
+  std::optional<double> Sd() const {
+    if (values.size() < 2) return std::nullopt;
+    const double m = Mean();
+    double s = 0;
+    for (double v : values) s += (v - m) * (v - m);
+    return std::sqrt(s / static_cast<double>(values.size() - 1));
+  }
+};
+
+constexpr double kHeightMatchM = 1e-9;
+
+}  // namespace
+
+std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& clips) {
+  struct Acc {
+    std::string specimen;
+    double height = 0;
+    int clips = 0;
+    Stats speed, cor, duration, deflection, force;
+  };
+  std::vector<std::string> specimen_order;
+  std::vector<Acc> accs;
+  for (const AnalysedClip& c : clips) {
+    if (!c.row || !c.result) continue;
+    auto first = std::find_if(c.result->impacts.begin(), c.result->impacts.end(),
+                              [](const ImpactRecord& im) { return im.complete; });
+    if (first == c.result->impacts.end()) continue;
+    if (std::find(specimen_order.begin(), specimen_order.end(), c.row->specimen) == specimen_order.end()) {
+      specimen_order.push_back(c.row->specimen);
+    }
+    auto it = std::find_if(accs.begin(), accs.end(), [&](const Acc& a) {
+      return a.specimen == c.row->specimen && std::abs(a.height - c.row->drop_height_m) <= kHeightMatchM;
+    });
+    if (it == accs.end()) {
+      accs.push_back({c.row->specimen, c.row->drop_height_m, 0, {}, {}, {}, {}, {}});
+      it = std::prev(accs.end());
+    }
+    ++it->clips;
+    it->speed.Add(first->impact_speed_mps);
+    it->cor.Add(first->cor);
+    it->duration.Add(first->contact_duration_s);
+    it->deflection.Add(first->max_deflection_m);
+    it->force.Add(first->peak_force_n);
+  }
+  std::stable_sort(accs.begin(), accs.end(), [&](const Acc& a, const Acc& b) {
+    const auto ia = std::find(specimen_order.begin(), specimen_order.end(), a.specimen);
+    const auto ib = std::find(specimen_order.begin(), specimen_order.end(), b.specimen);
+    return ia != ib ? ia < ib : a.height < b.height;
+  });
+  std::vector<SummaryGroup> groups;
+  for (const Acc& a : accs) {
+    SummaryGroup g;
+    g.specimen = a.specimen;
+    g.drop_height_m = a.height;
+    g.clips = a.clips;
+    g.impact_speed_mps_mean = a.speed.Mean();
+    g.impact_speed_mps_sd = a.speed.Sd();
+    g.cor_mean = a.cor.Mean();
+    g.cor_sd = a.cor.Sd();
+    g.contact_duration_s_mean = a.duration.Mean();
+    g.contact_duration_s_sd = a.duration.Sd();
+    g.max_deflection_m_mean = a.deflection.Mean();
+    g.max_deflection_m_sd = a.deflection.Sd();
+    g.peak_force_n_mean = a.force.Mean();
+    g.peak_force_n_sd = a.force.Sd();
+    groups.push_back(g);
+  }
+  return groups;
+}
+
+}  // namespace dropfit::cli

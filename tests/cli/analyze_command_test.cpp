@@ -1,0 +1,159 @@
+// `dropfit analyze` end to end (cli/analyze_command.h) on clips rendered by the project's
+// renderer (analysis/render.h through cli/render_command.h) from the forward model, whose
+// truth (truth.json) uses the contract's definitions.
+#include "cli/analyze_command.h"
+
+#include <gtest/gtest.h>
+
+#include <chrono>
+#include <cmath>
+#include <filesystem>
+#include <random>
+#include <string>
+
+#include "cli/exit_status.h"
+#include "cli/render_command.h"
+#include "cli/results.h"
+#include "cli/rig_io.h"
+#include "analysis/camera.h"
+#include "cli/truth_io.h"
+
+namespace dropfit::cli {
+namespace {
+
+namespace fs = std::filesystem;
+
+// The reference-condition targets (the renderer's default noise, blur and MJPG).
+constexpr double kReferenceCorTolerance = 0.005;
+constexpr double kReferenceImpactSpeedRelTolerance = 0.005;
+constexpr double kReferenceDeflectionToleranceM = 0.2e-3;
+constexpr double kDurationToleranceS = 1.5e-3;
+
+class AnalyzeCommandTest : public ::testing::Test {
+ protected:
+  void SetUp() override {
+    const auto stamp = std::chrono::steady_clock::now().time_since_epoch().count();
+    dir_ = fs::temp_directory_path() / ("dropfit_analyze_test_" + std::to_string(stamp) + "_" +
+                                        std::to_string(std::random_device{}()));
+    fs::create_directories(dir_);
+  }
+  void TearDown() override {
+    std::error_code ec;
+    fs::remove_all(dir_, ec);
+  }
+
+  // A short, small clip of one drop from 0.08 m (the fall, the first contact and the rebound
+  // to its apex) under the renderer's reference noise and blur; half the default image size
+  // and focal length (same view, 2x larger pixels) to keep the test to seconds.
+  RenderTruth Render(double duration_s, uint64_t seed) {
+    RenderCommandOptions o;
+    o.out_dir = (dir_ / "clips").string();
+    o.heights_m = {0.08};
+    o.duration_s = duration_s;
+    o.image_size = "400x320";
+    o.focal_px = 600.0;
+    o.floor_margin_px = 20.0;
+    o.calibration = false;
+    o.seed = seed;
+    EXPECT_EQ(RunRender(o), kExitDone);
+    const RenderTruth truth = ReadTruthFile(dir_ / "clips" / "truth.json");
+    // The rig a perfect calibration gives (the floor at y = 0), written by the rig writer.
+    WriteRigFile(dir_ / "rig.json", analysis::RigFromCamera(truth.camera, 0.0, std::nullopt));
+    return truth;
+  }
+
+  AnalyzeCommandOptions Options(const RenderTruth& truth) const {
+    AnalyzeCommandOptions o;
+    o.clip = (dir_ / "clips" / truth.clips.at(0).clip).string();
+    o.rig_path = (dir_ / "rig.json").string();
+    o.mass_kg = 5.0;  // the renderer's default mass
+    o.drop_height_m = truth.clips.at(0).drop_height_m;
+    o.free_radius_m = 0.20;  // the renderer's default free radius
+    o.out_dir = (dir_ / "out").string();
+    return o;
+  }
+
+  fs::path dir_;
+};
+
+TEST_F(AnalyzeCommandTest, AReferenceClipGivesTheTrueFiguresWithinTheReferenceTolerances) {
+  const RenderTruth truth = Render(0.21, 7);
+  const ClipTruth& clip = truth.clips.at(0);
+  ASSERT_FALSE(clip.impacts.empty());
+  const AnalyzeCommandOptions options = Options(truth);
+  ASSERT_EQ(RunAnalyze(options), kExitDone);
+  ASSERT_TRUE(fs::exists(fs::path(options.out_dir) / "track.csv"));
+  const ClipResult result = ReadClipResult(fs::path(options.out_dir) / "result.json");
+  EXPECT_TRUE(result.errors.empty());
+  EXPECT_EQ(result.y_origin, "floor");
+  EXPECT_NEAR(result.capture_fps, clip.capture_fps, 1e-9);
+  ASSERT_FALSE(result.impacts.empty());
+  const ImpactRecord& r = result.impacts[0];
+  const analysis::ImpactTruth& t = clip.impacts[0];
+  ASSERT_TRUE(r.complete);
+  EXPECT_EQ(r.onset_height_source, "geometry");
+  EXPECT_EQ(r.source, "track");
+  EXPECT_NEAR(r.cor, t.cor, kReferenceCorTolerance);
+  EXPECT_NEAR(r.impact_speed_mps / t.impact_speed_mps, 1.0, kReferenceImpactSpeedRelTolerance);
+  EXPECT_NEAR(r.max_deflection_m, t.max_deflection_m, kReferenceDeflectionToleranceM);
+  EXPECT_NEAR(r.contact_duration_s, t.contact_duration_s, kDurationToleranceS);
+  // Gravity measured in flight: standard gravity (3rd CGPM 1901) to 1 %.
+  ASSERT_TRUE(result.gravity_check.flight_accel_mps2.has_value());
+  EXPECT_NEAR(*result.gravity_check.flight_accel_mps2, 9.80665, 0.1);
+  // Uncertainties and track-only figures sit beside the contract's fields.
+  bool has_cor_sd = false, has_track_duration = false;
+  for (const auto& [name, value] : r.extra) {
+    has_cor_sd |= name == "cor_sd" && value > 0.0;
+    has_track_duration |= name == "contact_duration_track_s";
+  }
+  EXPECT_TRUE(has_cor_sd);
+  EXPECT_TRUE(has_track_duration);
+  bool has_options = false;
+  for (const auto& [name, text] : result.info) has_options |= name == "analyze_options" && text.find("mass_kg=5") != std::string::npos;
+  EXPECT_TRUE(has_options);
+}
+
+TEST_F(AnalyzeCommandTest, AClipWithoutImpactExitsWithOneAndSaysWhatToCheck) {
+  const RenderTruth truth = Render(0.06, 3);  // ends before the first contact (~0.14 s)
+  const AnalyzeCommandOptions options = Options(truth);
+  EXPECT_EQ(RunAnalyze(options), kExitPartial);
+  const ClipResult result = ReadClipResult(fs::path(options.out_dir) / "result.json");
+  ASSERT_EQ(result.errors.size(), 1u);
+  EXPECT_NE(result.errors[0].find("no impact found"), std::string::npos) << result.errors[0];
+  EXPECT_TRUE(fs::exists(fs::path(options.out_dir) / "track.csv"));
+}
+
+TEST_F(AnalyzeCommandTest, BadOptionsExitWithTwoAndWriteNothing) {
+  AnalyzeCommandOptions o;
+  o.clip = (dir_ / "missing.avi").string();
+  o.rig_path = (dir_ / "missing_rig.json").string();
+  o.out_dir = (dir_ / "out").string();
+  o.mass_kg = -1.0;
+  EXPECT_EQ(RunAnalyze(o), kExitBadUsage);
+  EXPECT_NE(ValidateAnalyzeOptions(o)->find("--mass -1"), std::string::npos);
+  o.mass_kg = 5.0;
+  EXPECT_EQ(RunAnalyze(o), kExitBadUsage);  // unreadable rig
+  EXPECT_FALSE(fs::exists(dir_ / "out"));
+}
+
+TEST(TimeSeriesFromTrackRows, MissingMetresBecomeInvalidSamplesAndFramesMustBeConsecutive) {
+  std::vector<TrackRow> rows(3);
+  for (int i = 0; i < 3; ++i) {
+    rows[static_cast<size_t>(i)].frame = 10 + i;
+    rows[static_cast<size_t>(i)].t_s = (10 + i) / 1000.0;
+  }
+  rows[0].x_m = 0.1;
+  rows[0].y_m = 0.5;
+  rows[2].x_m = 0.1;
+  rows[2].y_m = 0.49;
+  const analysis::TimeSeries s = TimeSeriesFromTrackRows(rows, 1000.0);
+  EXPECT_EQ(s.first_frame, 10);
+  EXPECT_TRUE(s.valid[0]);
+  EXPECT_FALSE(s.valid[1]);
+  EXPECT_DOUBLE_EQ(s.t_s[2], 0.012);
+  rows[2].frame = 13;
+  EXPECT_THROW(TimeSeriesFromTrackRows(rows, 1000.0), std::invalid_argument);
+}
+
+}  // namespace
+}  // namespace dropfit::cli

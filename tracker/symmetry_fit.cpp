@@ -1,0 +1,211 @@
+#include "tracker/symmetry_fit.h"
+
+#include <opencv2/core.hpp>
+#include <opencv2/imgproc.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <stdexcept>
+
+namespace dropfit::tracker {
+
+namespace {
+
+std::string Num(double v) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g", v);
+  return buf;
+}
+
+// Bilinear sample of value and central-difference gradient on a float patch.
+struct Sample {
+  float value, gx, gy;
+};
+
+struct Patch {
+  cv::Mat value, gx, gy;  // CV_32F
+  cv::Point origin;       // image coordinates of the patch's (0, 0)
+
+  // `x`, `y` in patch coordinates; caller guarantees 0 <= x < cols-1, 0 <= y < rows-1.
+  Sample At(double x, double y) const {
+    const int x0 = static_cast<int>(x), y0 = static_cast<int>(y);
+    const float fx = static_cast<float>(x - x0), fy = static_cast<float>(y - y0);
+    const float w00 = (1 - fx) * (1 - fy), w01 = fx * (1 - fy), w10 = (1 - fx) * fy, w11 = fx * fy;
+    auto interp = [&](const cv::Mat& m) {
+      const float* r0 = m.ptr<float>(y0) + x0;
+      const float* r1 = m.ptr<float>(y0 + 1) + x0;
+      return w00 * r0[0] + w01 * r0[1] + w10 * r1[0] + w11 * r1[1];
+    };
+    return {interp(value), interp(gx), interp(gy)};
+  }
+  float ValueAt(double x, double y) const {
+    const int x0 = static_cast<int>(x), y0 = static_cast<int>(y);
+    const float fx = static_cast<float>(x - x0), fy = static_cast<float>(y - y0);
+    const float* r0 = value.ptr<float>(y0) + x0;
+    const float* r1 = value.ptr<float>(y0 + 1) + x0;
+    return (1 - fy) * ((1 - fx) * r0[0] + fx * r0[1]) + fy * ((1 - fx) * r1[0] + fx * r1[1]);
+  }
+};
+
+}  // namespace
+
+std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& o) {
+  if (!(o.window_radius_px > 1.0 && o.window_radius_px <= 200.0))
+    return "window_radius_px = " + Num(o.window_radius_px) + " px is outside (1, 200]";
+  if (!(o.inner_radius_px >= 0.0 && o.inner_radius_px < o.window_radius_px))
+    return "inner_radius_px = " + Num(o.inner_radius_px) + " px is outside [0, window_radius_px)";
+  if (!(o.max_shift_px > 0.0 && o.max_shift_px <= 100.0))
+    return "max_shift_px = " + Num(o.max_shift_px) + " px is outside (0, 100]";
+  if (o.max_iterations < 1 || o.max_iterations > 100)
+    return "max_iterations = " + std::to_string(o.max_iterations) + " is outside [1, 100]";
+  if (!(o.presmooth_sigma_px >= 0.0 && o.presmooth_sigma_px <= 3.0))
+    return "presmooth_sigma_px = " + Num(o.presmooth_sigma_px) + " px is outside [0, 3]";
+  if (!(o.tolerance_px > 0.0 && o.tolerance_px <= 0.1))
+    return "tolerance_px = " + Num(o.tolerance_px) + " px is outside (0, 0.1]";
+  return std::nullopt;
+}
+
+SymmetryFitter::SymmetryFitter(const SymmetryFitOptions& options) : options_(options) {
+  if (auto msg = ValidateSymmetryFitOptions(options)) throw std::invalid_argument("symmetry fit: " + *msg);
+  const int r = static_cast<int>(std::floor(options.window_radius_px));
+  const double r2_out = options.window_radius_px * options.window_radius_px;
+  const double r2_in = options.inner_radius_px * options.inner_radius_px;
+  for (int dy = 0; dy <= r; ++dy) {
+    for (int dx = -r; dx <= r; ++dx) {
+      if (dy == 0 && dx <= 0) continue;  // one of each pair (d, -d); d = 0 carries nothing
+      const double d2 = dx * dx + dy * dy;
+      if (d2 > r2_out || d2 < r2_in) continue;
+      offsets_.emplace_back(dx, dy);
+    }
+  }
+}
+
+SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px) const {
+  CV_Assert(grey.type() == CV_8UC1);
+  SymmetryFitResult res;
+  res.centre_px = start_px;
+  if (!std::isfinite(start_px.x) || !std::isfinite(start_px.y)) {
+    res.inside = false;
+    return res;
+  }
+
+  // Float patch with gradients covering every sample the fit may take.
+  const int reach = static_cast<int>(std::ceil(options_.window_radius_px + options_.max_shift_px)) + 2;
+  const cv::Rect want(static_cast<int>(std::floor(start_px.x)) - reach, static_cast<int>(std::floor(start_px.y)) - reach,
+                      2 * reach + 2, 2 * reach + 2);
+  const cv::Rect rect = want & cv::Rect(0, 0, grey.cols, grey.rows);
+  if (rect.width < 3 || rect.height < 3) {
+    res.inside = false;
+    return res;
+  }
+  Patch patch;
+  patch.origin = rect.tl();
+  grey(rect).convertTo(patch.value, CV_32F);
+  Patch raw = patch;  // quality is judged on the unsmoothed samples
+  if (options_.presmooth_sigma_px > 0) {
+    raw.value = patch.value.clone();
+    cv::GaussianBlur(patch.value, patch.value, cv::Size(), options_.presmooth_sigma_px, 0, cv::BORDER_REPLICATE);
+  }
+  patch.gx.create(rect.size(), CV_32F);
+  patch.gy.create(rect.size(), CV_32F);
+  const int rows = rect.height, cols = rect.width;
+  for (int y = 0; y < rows; ++y) {
+    const float* v = patch.value.ptr<float>(y);
+    const float* up = patch.value.ptr<float>(std::max(y - 1, 0));
+    const float* dn = patch.value.ptr<float>(std::min(y + 1, rows - 1));
+    float* gx = patch.gx.ptr<float>(y);
+    float* gy = patch.gy.ptr<float>(y);
+    const float sy = (y == 0 || y == rows - 1) ? 1.0f : 0.5f;
+    for (int x = 0; x < cols; ++x) {
+      const int xl = std::max(x - 1, 0), xr = std::min(x + 1, cols - 1);
+      gx[x] = (v[xr] - v[xl]) * ((xr - xl) == 2 ? 0.5f : 1.0f);
+      gy[x] = (dn[x] - up[x]) * sy;
+    }
+  }
+
+  const int n_params = options_.fit_light_gradient ? 6 : 2;
+  double cx = start_px.x - patch.origin.x, cy = start_px.y - patch.origin.y;  // patch coordinates
+  double a[2] = {0, 0}, b[2] = {0, 0};
+  const double max_x = cols - 1.000001, max_y = rows - 1.000001;
+
+  auto sample_pair = [&](const cv::Point& d, Sample& plus, Sample& minus) {
+    const double xp = cx + d.x, yp = cy + d.y, xm = cx - d.x, ym = cy - d.y;
+    if (xp < 0 || yp < 0 || xm < 0 || ym < 0 || xp > max_x || yp > max_y || xm > max_x || ym > max_y) return false;
+    plus = patch.At(xp, yp);
+    minus = patch.At(xm, ym);
+    return true;
+  };
+
+  double ssr = 0.0;
+  for (int it = 0; it < options_.max_iterations; ++it) {
+    cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
+    cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
+    ssr = 0.0;
+    for (const cv::Point& d : offsets_) {
+      Sample p, m;
+      if (!sample_pair(d, p, m)) {
+        res.inside = false;
+        res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
+        return res;
+      }
+      const double s = 0.5 * (p.value + m.value);
+      const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
+      const double j[6] = {p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x),
+                           -static_cast<double>(d.y)};
+      for (int i = 0; i < n_params; ++i) {
+        jtr[i] += j[i] * r;
+        for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
+      }
+      ssr += r * r;
+    }
+    for (int i = 0; i < n_params; ++i)
+      for (int k = i + 1; k < n_params; ++k) jtj(i, k) = jtj(k, i);
+    for (int i = n_params; i < 6; ++i) jtj(i, i) = 1.0;  // unused parameters stay at zero
+
+    cv::Vec<double, 6> step;
+    if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) break;
+    cx += step[0];
+    cy += step[1];
+    a[0] += step[2];
+    a[1] += step[3];
+    b[0] += step[4];
+    b[1] += step[5];
+    res.iterations = it + 1;
+    const double moved = std::hypot(cx + patch.origin.x - start_px.x, cy + patch.origin.y - start_px.y);
+    if (!std::isfinite(moved) || moved > options_.max_shift_px) {
+      res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
+      return res;
+    }
+    if (std::hypot(step[0], step[1]) < options_.tolerance_px) {
+      res.converged = true;
+      break;
+    }
+  }
+  res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
+
+  // Quality and residual at the final centre, on the unsmoothed samples.
+  double sum = 0.0, sum2 = 0.0, rss = 0.0;
+  for (const cv::Point& d : offsets_) {
+    Sample p, m;
+    if (!sample_pair(d, p, m)) {
+      res.inside = false;
+      res.converged = false;
+      return res;
+    }
+    p.value = raw.ValueAt(cx + d.x, cy + d.y);
+    m.value = raw.ValueAt(cx - d.x, cy - d.y);
+    const double s = 0.5 * (p.value + m.value);
+    const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
+    rss += r * r;
+    sum += p.value + m.value;
+    sum2 += double(p.value) * p.value + double(m.value) * m.value;
+  }
+  const double n = 2.0 * static_cast<double>(offsets_.size());
+  const double sst = sum2 - sum * sum / n;
+  res.residual_rms = std::sqrt(rss / static_cast<double>(offsets_.size()));
+  res.quality = sst > 0 ? std::clamp(1.0 - rss / sst, 0.0, 1.0) : 0.0;
+  return res;
+}
+
+}  // namespace dropfit::tracker
