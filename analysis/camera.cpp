@@ -37,8 +37,7 @@ std::string Range(const char* name, double value, double lo, double hi, const ch
 
 std::optional<std::string> ValidateCameraSetup(const CameraSetup& setup) {
   const CameraIntrinsics& k = setup.intrinsics;
-  if (k.image_size.width < 16 || k.image_size.width > 8192 || k.image_size.height < 16 ||
-      k.image_size.height > 8192) {
+  if (k.image_size.width < 16 || k.image_size.width > 8192 || k.image_size.height < 16 || k.image_size.height > 8192) {
     return "image size " + std::to_string(k.image_size.width) + "x" + std::to_string(k.image_size.height) +
            " px is outside 16..8192 in each direction";
   }
@@ -59,8 +58,8 @@ std::optional<std::string> ValidateCameraSetup(const CameraSetup& setup) {
     return Range("camera distance", setup.distance_m, 0.1, 100, "m");
   }
   if (!std::isfinite(setup.aim_x_m) || !std::isfinite(setup.aim_y_m)) return "the aim point must be finite";
-  for (auto [name, value] : {std::pair{"pitch", setup.pitch_deg}, std::pair{"roll", setup.roll_deg},
-                             std::pair{"yaw", setup.yaw_deg}}) {
+  for (auto [name, value] :
+       {std::pair{"pitch", setup.pitch_deg}, std::pair{"roll", setup.roll_deg}, std::pair{"yaw", setup.yaw_deg}}) {
     if (!(std::abs(value) <= 20.0)) return Range(name, value, -20, 20, "deg");
   }
   return std::nullopt;
@@ -146,8 +145,7 @@ cv::Point2d ImageFromDropPlane(const PinholeCamera& camera, cv::Point2d p_in_pla
 
 cv::Vec3d WorldRayOfPixel(const PinholeCamera& camera, cv::Point2d image_px) {
   const CameraIntrinsics& k = camera.intrinsics;
-  const cv::Point2d n =
-      UndistortNormalized(k, {(image_px.x - k.cx_px) / k.fx_px, (image_px.y - k.cy_px) / k.fy_px});
+  const cv::Point2d n = UndistortNormalized(k, {(image_px.x - k.cx_px) / k.fx_px, (image_px.y - k.cy_px) / k.fy_px});
   const cv::Vec3d ray = CameraFromWorldRotation(camera).t() * cv::Vec3d(n.x, n.y, 1.0);
   return ray / cv::norm(ray);
 }

@@ -52,15 +52,15 @@ struct PinholeCamera {
 
 // How the renderer sets its camera up: distance, aim and a slightly imperfect mounting.
 struct CameraSetup {
-  CameraIntrinsics intrinsics;   // see above; image_size.width/height in 16..8192
-  double distance_m = 1.2;       // camera centre to the aim point along the optical axis; 0.1..100
-  double aim_x_m = 0.2;          // drop-plane point on the optical axis, x [m]
-  double aim_y_m = 0.28;         // ... and y [m]
+  CameraIntrinsics intrinsics;  // see above; image_size.width/height in 16..8192
+  double distance_m = 1.2;      // camera centre to the aim point along the optical axis; 0.1..100
+  double aim_x_m = 0.2;         // drop-plane point on the optical axis, x [m]
+  double aim_y_m = 0.28;        // ... and y [m]
   // Mounting errors, in degrees, applied in the camera's own axes; each within [-20, 20].
-  double pitch_deg = 2.0;        // about the camera x axis; positive tilts the view downwards
-  double roll_deg = 1.5;         // about the optical axis; positive turns the scene counter-
-                                 // clockwise on screen (a level line rises to the right)
-  double yaw_deg = 0.8;          // about the camera y axis; positive pans the view to the right
+  double pitch_deg = 2.0;  // about the camera x axis; positive tilts the view downwards
+  double roll_deg = 1.5;   // about the optical axis; positive turns the scene counter-
+                           // clockwise on screen (a level line rises to the right)
+  double yaw_deg = 0.8;    // about the camera y axis; positive pans the view to the right
 };
 
 // A message naming the first bad field and its valid range, or nothing.

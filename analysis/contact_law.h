@@ -81,8 +81,7 @@ T UnclampedContactForce(LawId law, const T* params, const TreadGeometry& geometr
 
 // The physical contact force: 0 for delta <= 0, else max(0, F_raw). Never tensile.
 template <typename T>
-T ContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m,
-               const T& delta_dot_mps);
+T ContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m, const T& delta_dot_mps);
 
 // The elastic part S(delta) = F_raw(delta, 0) >= 0 (delta >= 0), e.g. for the static
 // deflection m g = S(delta_static).

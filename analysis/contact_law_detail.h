@@ -79,8 +79,7 @@ T UnclampedContactForce(LawId law, const T* params, const TreadGeometry& geometr
 }
 
 template <typename T>
-T ContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m,
-               const T& delta_dot_mps) {
+T ContactForce(LawId law, const T* params, const TreadGeometry& geometry, const T& delta_m, const T& delta_dot_mps) {
   if (detail::ScalarValue(delta_m) <= 0.0) return T(0.0);
   const T force = UnclampedContactForce(law, params, geometry, delta_m, delta_dot_mps);
   if (detail::ScalarValue(force) <= 0.0) return T(0.0);

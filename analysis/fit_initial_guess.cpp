@@ -150,8 +150,8 @@ InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figur
     if (omegas.empty() || std::abs(omega / omegas[0] - 1.0) > 0.1) omegas.push_back(omega);
   }
   // The deflection used by the power laws: measured, else the elastic one implied by t_c.
-  const double delta = have_deflection ? figures.max_deflection_m
-                                       : figures.contact_duration_s * v / PowerLawContactTimeConstant(1.5);
+  const double delta =
+      have_deflection ? figures.max_deflection_m : figures.contact_duration_s * v / PowerLawContactTimeConstant(1.5);
   const double w = MultiplicativeDampingFromCor(e);
   const double alpha = w / v;
   // k delta^(n+1)/(n+1) = m (w - ln(1+w))/alpha^2 (exact compression work), -> m v^2/2.

@@ -63,10 +63,10 @@ double PowerLawExponentFromContactTimeConstant(double c);
 
 // The law-free figures of one bounce from which a fit starts. NaN (or <= 0) = not known.
 struct ImpactGuessFigures {
-  double impact_speed_mps = 0.0;     // > 0
-  double cor = 0.0;                  // (0, 1]
-  double contact_duration_s = 0.0;   // track-only; late by ~1 ms
-  double max_deflection_m = 0.0;     // onset height - lowest hub height
+  double impact_speed_mps = 0.0;    // > 0
+  double cor = 0.0;                 // (0, 1]
+  double contact_duration_s = 0.0;  // track-only; late by ~1 ms
+  double max_deflection_m = 0.0;    // onset height - lowest hub height
 };
 
 // Starting law parameters (ParameterNames(law) order) for the law, one set per start of a

@@ -10,9 +10,12 @@ namespace dropfit::analysis {
 
 std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptions& o) {
   std::ostringstream m;
-  if (!(o.capture_fps > 0.0 && o.capture_fps <= 1e6)) m << "capture_fps = " << o.capture_fps << " is outside (0, 1e6]";
-  else if (!(o.noise_sd_m >= 0.0 && o.noise_sd_m <= 1.0)) m << "noise_sd_m = " << o.noise_sd_m << " is outside [0, 1]";
-  else if (o.max_bounces < 1 || o.max_bounces > 1000) m << "max_bounces = " << o.max_bounces << " is outside [1, 1000]";
+  if (!(o.capture_fps > 0.0 && o.capture_fps <= 1e6))
+    m << "capture_fps = " << o.capture_fps << " is outside (0, 1e6]";
+  else if (!(o.noise_sd_m >= 0.0 && o.noise_sd_m <= 1.0))
+    m << "noise_sd_m = " << o.noise_sd_m << " is outside [0, 1]";
+  else if (o.max_bounces < 1 || o.max_bounces > 1000)
+    m << "max_bounces = " << o.max_bounces << " is outside [1, 1000]";
   else if (o.max_flight_samples < 5 || o.max_flight_samples > 100000)
     m << "max_flight_samples = " << o.max_flight_samples << " is outside [5, 100000]";
   else if (!(std::abs(o.onset_guess_error_m) <= 1.0))

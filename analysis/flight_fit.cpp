@@ -38,8 +38,7 @@ std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const
                                            const std::vector<bool>& valid, int first, int last, int degree,
                                            std::optional<double> noise_sd_m) {
   const int n = static_cast<int>(t_s.size());
-  if (values.size() != t_s.size() || valid.size() != t_s.size() || first < 0 || last >= n || degree < 0 ||
-      degree > 6) {
+  if (values.size() != t_s.size() || valid.size() != t_s.size() || first < 0 || last >= n || degree < 0 || degree > 6) {
     std::ostringstream msg;
     msg << "FitPolynomial: sizes t_s " << t_s.size() << ", values " << values.size() << ", valid " << valid.size()
         << ", range [" << first << ", " << last << "], degree " << degree
@@ -111,7 +110,8 @@ std::optional<double> CrossingTime(const PolynomialFit& parabola, double height_
 std::optional<Apex> ParabolaApex(const PolynomialFit& parabola) {
   if (parabola.degree() != 2 || !(parabola.coef(2) < 0.0)) return std::nullopt;
   const double tau = -parabola.coef(1) / (2.0 * parabola.coef(2));
-  return Apex{parabola.t_ref_s + tau, parabola.coef(0) - parabola.coef(1) * parabola.coef(1) / (4.0 * parabola.coef(2))};
+  return Apex{parabola.t_ref_s + tau,
+              parabola.coef(0) - parabola.coef(1) * parabola.coef(1) / (4.0 * parabola.coef(2))};
 }
 
 double PropagatedSd(const std::function<double(const Eigen::VectorXd&)>& f, const Eigen::VectorXd& x,

@@ -25,13 +25,13 @@
 namespace dropfit::analysis {
 
 struct PolynomialFit {
-  double t_ref_s = 0.0;          // reference time of the coefficients [s]
-  Eigen::VectorXd coef;          // coef[k]: [m / s^k]
-  Eigen::MatrixXd covariance;    // of coef
-  double rms_residual_m = 0.0;   // RMS of (data - fit) over the fitted samples
-  double noise_sd_m = 0.0;       // the s used for `covariance`
-  int samples = 0;               // valid samples fitted
-  int first_index = 0;           // first and last index of the fitted range (inclusive)
+  double t_ref_s = 0.0;         // reference time of the coefficients [s]
+  Eigen::VectorXd coef;         // coef[k]: [m / s^k]
+  Eigen::MatrixXd covariance;   // of coef
+  double rms_residual_m = 0.0;  // RMS of (data - fit) over the fitted samples
+  double noise_sd_m = 0.0;      // the s used for `covariance`
+  int samples = 0;              // valid samples fitted
+  int first_index = 0;          // first and last index of the fitted range (inclusive)
   int last_index = -1;
 
   int degree() const { return static_cast<int>(coef.size()) - 1; }

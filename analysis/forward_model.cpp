@@ -43,12 +43,12 @@ std::string Validate(const DropScenario& scenario) {
   message = ValidateLawParameters(scenario.setup.law, scenario.law_params);
   if (!message.empty()) return message;
   std::ostringstream out;
-  const double values[] = {scenario.onset_height_m,  scenario.start_time_s,    scenario.start_height_m,
-                           scenario.start_velocity_mps, scenario.end_time_s,  scenario.start_x_m,
-                           scenario.drift_speed_mps,  scenario.start_spin_angle_rad, scenario.spin_rate_radps};
-  const char* names[] = {"onset_height_m",  "start_time_s",    "start_height_m",
-                         "start_velocity_mps", "end_time_s",  "start_x_m",
-                         "drift_speed_mps", "start_spin_angle_rad", "spin_rate_radps"};
+  const double values[] = {scenario.onset_height_m,     scenario.start_time_s,         scenario.start_height_m,
+                           scenario.start_velocity_mps, scenario.end_time_s,           scenario.start_x_m,
+                           scenario.drift_speed_mps,    scenario.start_spin_angle_rad, scenario.spin_rate_radps};
+  const char* names[] = {"onset_height_m",     "start_time_s",         "start_height_m",
+                         "start_velocity_mps", "end_time_s",           "start_x_m",
+                         "drift_speed_mps",    "start_spin_angle_rad", "spin_rate_radps"};
   for (int i = 0; i < 9; ++i) {
     if (!std::isfinite(values[i])) {
       out << "drop scenario: " << names[i] << " = " << values[i] << " is not finite";
@@ -56,8 +56,8 @@ std::string Validate(const DropScenario& scenario) {
     }
   }
   if (!(scenario.end_time_s > scenario.start_time_s)) {
-    out << "drop scenario: end_time_s = " << scenario.end_time_s << " must be after start_time_s = "
-        << scenario.start_time_s;
+    out << "drop scenario: end_time_s = " << scenario.end_time_s
+        << " must be after start_time_s = " << scenario.start_time_s;
   }
   return out.str();
 }
@@ -81,8 +81,7 @@ namespace {
 // Records the motion as segments and builds the per-impact truth.
 class Recorder {
  public:
-  Recorder(const DropScenario& scenario, std::vector<Trajectory::Segment>* segments,
-           std::vector<ImpactTruth>* impacts)
+  Recorder(const DropScenario& scenario, std::vector<Trajectory::Segment>* segments, std::vector<ImpactTruth>* impacts)
       : scenario_(scenario), segments_(segments), impacts_(impacts) {}
 
   bool Done() const { return false; }
@@ -229,8 +228,7 @@ class Recorder {
     const double f_peak = std::max(best_force, Force(segment, s_peak));
     if (f_peak > current_.peak_force_n) {
       current_.peak_force_n = f_peak;
-      current_.t_peak_force_s =
-          segment.t0_s + (f_peak == best_force ? s_end * best / kSamples : s_peak) * segment.h_s;
+      current_.t_peak_force_s = segment.t0_s + (f_peak == best_force ? s_end * best / kSamples : s_peak) * segment.h_s;
     }
   }
 
@@ -288,10 +286,9 @@ Trajectory SimulateDrop(const DropScenario& scenario, const ForwardModelOptions&
   trajectory.start_time_s_ = scenario.start_time_s;
   trajectory.end_time_s_ = scenario.end_time_s;
   Recorder recorder(trajectory.scenario_, &trajectory.segments_, &trajectory.impacts_);
-  const SimulationStatus status =
-      detail::RunDrop(scenario.setup, trajectory.scenario_.law_params.data(), scenario.onset_height_m,
-                      scenario.start_time_s, scenario.start_height_m, scenario.start_velocity_mps,
-                      scenario.end_time_s, options, recorder);
+  const SimulationStatus status = detail::RunDrop(
+      scenario.setup, trajectory.scenario_.law_params.data(), scenario.onset_height_m, scenario.start_time_s,
+      scenario.start_height_m, scenario.start_velocity_mps, scenario.end_time_s, options, recorder);
   if (status != SimulationStatus::kOk) {
     std::ostringstream out;
     out << "drop simulation stopped: " << ToString(status) << " (law " << ToString(scenario.setup.law)

@@ -177,14 +177,14 @@ struct ImpactTruth {
 // The full state of the hub at one instant.
 struct HubState {
   double t_s = 0.0;
-  double x_m = 0.0;             // horizontal position (drift)
-  double y_m = 0.0;             // height, up positive
+  double x_m = 0.0;  // horizontal position (drift)
+  double y_m = 0.0;  // height, up positive
   double vx_mps = 0.0;
-  double vy_mps = 0.0;          // vertical velocity, up positive
-  double ay_mps2 = 0.0;         // vertical acceleration, up positive (-g in flight)
-  double contact_force_n = 0.0; // floor force on the hub, upward, >= 0
+  double vy_mps = 0.0;           // vertical velocity, up positive
+  double ay_mps2 = 0.0;          // vertical acceleration, up positive (-g in flight)
+  double contact_force_n = 0.0;  // floor force on the hub, upward, >= 0
   double spin_angle_rad = 0.0;
-  bool in_contact = false;      // pressed: the force is positive
+  bool in_contact = false;  // pressed: the force is positive
 };
 
 // A simulated drop, evaluable at any time in [start_time_s, end_time_s] (times outside are
@@ -207,9 +207,9 @@ class Trajectory {
   // Public so that tests can inspect the pieces; not needed for evaluation.
   struct Segment {
     bool pressed = false;
-    double t0_s = 0.0;        // start time
-    double t1_s = 0.0;        // end time
-    double h_s = 0.0;         // pressed: the integration step (t1 - t0 <= h_s at separation)
+    double t0_s = 0.0;  // start time
+    double t1_s = 0.0;  // end time
+    double h_s = 0.0;   // pressed: the integration step (t1 - t0 <= h_s at separation)
     // flight: delta(tau) = c[0] + c[1] tau + c[2] tau^2, tau = t - t0 (c[2] = g/2);
     // pressed: delta(s) = sum c[i] s^i, s = (t - t0)/h_s (quintic Hermite dense output).
     double c[6] = {0, 0, 0, 0, 0, 0};
@@ -238,9 +238,9 @@ Trajectory SimulateDrop(const DropScenario& scenario, const ForwardModelOptions&
 // functor returns false on them).
 enum class SimulationStatus {
   kOk,
-  kTooManySteps,     // options.max_steps exceeded
-  kTooManyImpacts,   // options.max_impacts exceeded
-  kNonFinite,        // a state became NaN or infinite (absurd parameters)
+  kTooManySteps,    // options.max_steps exceeded
+  kTooManyImpacts,  // options.max_impacts exceeded
+  kNonFinite,       // a state became NaN or infinite (absurd parameters)
 };
 std::string ToString(SimulationStatus status);
 
@@ -264,7 +264,8 @@ template <typename T>
 SimulationStatus SimulateHubHeights(const ContactSetup& setup, const T* law_params, const T& onset_height_m,
                                     double start_time_s, const T& start_height_m, const T& start_velocity_mps,
                                     const double* sample_times_s, int num_samples, T* heights_m,
-                                    std::type_identity_t<T>* velocities_mps = nullptr, const ForwardModelOptions& options = {});
+                                    std::type_identity_t<T>* velocities_mps = nullptr,
+                                    const ForwardModelOptions& options = {});
 
 }  // namespace dropfit::analysis
 

@@ -33,21 +33,19 @@ struct DormandPrince {
   static constexpr double a21 = 1.0 / 5.0;
   static constexpr double a31 = 3.0 / 40.0, a32 = 9.0 / 40.0;
   static constexpr double a41 = 44.0 / 45.0, a42 = -56.0 / 15.0, a43 = 32.0 / 9.0;
-  static constexpr double a51 = 19372.0 / 6561.0, a52 = -25360.0 / 2187.0, a53 = 64448.0 / 6561.0,
-                          a54 = -212.0 / 729.0;
-  static constexpr double a61 = 9017.0 / 3168.0, a62 = -355.0 / 33.0, a63 = 46732.0 / 5247.0,
-                          a64 = 49.0 / 176.0, a65 = -5103.0 / 18656.0;
-  static constexpr double b1 = 35.0 / 384.0, b3 = 500.0 / 1113.0, b4 = 125.0 / 192.0,
-                          b5 = -2187.0 / 6784.0, b6 = 11.0 / 84.0;
+  static constexpr double a51 = 19372.0 / 6561.0, a52 = -25360.0 / 2187.0, a53 = 64448.0 / 6561.0, a54 = -212.0 / 729.0;
+  static constexpr double a61 = 9017.0 / 3168.0, a62 = -355.0 / 33.0, a63 = 46732.0 / 5247.0, a64 = 49.0 / 176.0,
+                          a65 = -5103.0 / 18656.0;
+  static constexpr double b1 = 35.0 / 384.0, b3 = 500.0 / 1113.0, b4 = 125.0 / 192.0, b5 = -2187.0 / 6784.0,
+                          b6 = 11.0 / 84.0;
   // b - b_hat (5th minus 4th order weights), stage 7 being the FSAL stage.
-  static constexpr double e1 = 71.0 / 57600.0, e3 = -71.0 / 16695.0, e4 = 71.0 / 1920.0,
-                          e5 = -17253.0 / 339200.0, e6 = 22.0 / 525.0, e7 = -1.0 / 40.0;
+  static constexpr double e1 = 71.0 / 57600.0, e3 = -71.0 / 16695.0, e4 = 71.0 / 1920.0, e5 = -17253.0 / 339200.0,
+                          e6 = 22.0 / 525.0, e7 = -1.0 / 40.0;
 };
 
 // Quintic Hermite interpolant on s in [0, 1] through (x, h v, h^2 a) at both ends.
 template <typename T>
-void HermiteQuintic(const T& x0, const T& v0, const T& a0, const T& x1, const T& v1, const T& a1, double h,
-                    T* c) {
+void HermiteQuintic(const T& x0, const T& v0, const T& a0, const T& x1, const T& v1, const T& a1, double h, T* c) {
   const T hv0 = h * v0;
   const T hv1 = h * v1;
   const T ha0 = (h * h) * a0;
@@ -186,9 +184,8 @@ struct PressedResult {
 // Integrates a pressed phase starting at (t0, x0, v0) until the force returns to zero or
 // t_end is reached.
 template <typename T, typename Observer>
-PressedResult<T> IntegratePressed(const ContactSetup& setup, const T* params, const T& t0, const T& x0,
-                                  const T& v0, double t_end, const ForwardModelOptions& options,
-                                  int* steps, Observer& observer) {
+PressedResult<T> IntegratePressed(const ContactSetup& setup, const T* params, const T& t0, const T& x0, const T& v0,
+                                  double t_end, const ForwardModelOptions& options, int* steps, Observer& observer) {
   using DP = DormandPrince;
   using std::abs;
   const double g = setup.gravity_mps2;
@@ -282,8 +279,8 @@ PressedResult<T> IntegratePressed(const ContactSetup& setup, const T* params, co
     }
     const double scale_x =
         options.position_tolerance_m + options.relative_tolerance * std::max(std::abs(ScalarValue(x)), std::abs(xv));
-    const double scale_v = options.velocity_tolerance_mps +
-                           options.relative_tolerance * std::max(std::abs(ScalarValue(v)), std::abs(vv));
+    const double scale_v =
+        options.velocity_tolerance_mps + options.relative_tolerance * std::max(std::abs(ScalarValue(v)), std::abs(vv));
     const double ex = err_x / scale_x, ev = err_v / scale_v;
     const double err = std::sqrt(0.5 * (ex * ex + ev * ev));
     if (err > 1.0) {
@@ -328,7 +325,10 @@ PressedResult<T> IntegratePressed(const ContactSetup& setup, const T* params, co
       double s = 1.0;
       for (int iteration = 0; iteration < 100; ++iteration) {
         const double f = fn(s, &slope);
-        if (f > 0.0) lo = s; else hi = s;
+        if (f > 0.0)
+          lo = s;
+        else
+          hi = s;
         double next = (slope != 0.0) ? s - f / slope : 0.5 * (lo + hi);
         if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
         if (std::abs(next - s) < 1e-15 || hi - lo < 1e-15) {
@@ -352,8 +352,7 @@ PressedResult<T> IntegratePressed(const ContactSetup& setup, const T* params, co
       if (slope != 0.0) {
         T f_t;
         if (multiplicative) {
-          f_t = on_position ? QuinticValue(c, s)
-                            : 1.0 + MultiplicativeDamping(law, params) * QuinticSlope(c, s) / hh;
+          f_t = on_position ? QuinticValue(c, s) : 1.0 + MultiplicativeDamping(law, params) * QuinticSlope(c, s) / hh;
         } else {
           f_t = ElasticContactForce(law, params, setup.tread, QuinticValue(c, s)) +
                 AdditiveDamping(law, params) * QuinticSlope(c, s) / hh;
@@ -557,14 +556,13 @@ template <typename T>
 SimulationStatus SimulateHubHeights(const ContactSetup& setup, const T* law_params, const T& onset_height_m,
                                     double start_time_s, const T& start_height_m, const T& start_velocity_mps,
                                     const double* sample_times_s, int num_samples, T* heights_m,
-                                    std::type_identity_t<T>* velocities_mps,
-                                    const ForwardModelOptions& options) {
+                                    std::type_identity_t<T>* velocities_mps, const ForwardModelOptions& options) {
   assert(num_samples >= 0);
   if (num_samples == 0) return SimulationStatus::kOk;
   assert(sample_times_s[0] >= start_time_s);
   assert(std::is_sorted(sample_times_s, sample_times_s + num_samples));
-  detail::SampleObserver<T> observer{sample_times_s, num_samples, 0, heights_m, velocities_mps, &onset_height_m,
-                                     setup.gravity_mps2};
+  detail::SampleObserver<T> observer{sample_times_s,  num_samples,       0, heights_m, velocities_mps,
+                                     &onset_height_m, setup.gravity_mps2};
   const SimulationStatus status =
       detail::RunDrop(setup, law_params, onset_height_m, start_time_s, start_height_m, start_velocity_mps,
                       sample_times_s[num_samples - 1], options, observer);

@@ -79,9 +79,9 @@ std::string Validate(const TreadGeometry& geometry);
 // a torus when section_radius_m > 0 (wins over the width), else a cylinder of the given
 // width, else a cylinder of unit width (1 m). When the free radius is unknown (<= 0 passed),
 // a radius of 1 m is assumed. Non-positive values mean "not given". `note` says which of
-// these assumptions were made (and a torus gets its volume table), e.g. "volumetric law: no tread width or section radius given;
-// assumed a cylinder of unit width (1 m)". Throws std::invalid_argument on a section radius
-// not below the free radius.
+// these assumptions were made (and a torus gets its volume table), e.g. "volumetric law: no tread width or section
+// radius given; assumed a cylinder of unit width (1 m)". Throws std::invalid_argument on a section radius not below the
+// free radius.
 TreadGeometry MakeTreadGeometry(double free_radius_m, double tread_width_m, double section_radius_m);
 
 // Area of a circular segment of a circle of radius r cut off by a chord at depth d below

@@ -77,8 +77,8 @@ T TorusCapVolume(double centre_radius_m, double section_radius_m, const T& delta
   if (d < a) {
     // Only the outer ring touches. y = y_e sin(theta), theta in [0, pi/2], doubled by
     // symmetry; a^2 - y^2 = (a - delta)^2 + y_e^2 cos^2(theta) keeps the integrand analytic.
-    const T gap = a - delta;                          // > 0
-    const T ye2 = delta * (2.0 * a - delta);          // y_e^2
+    const T gap = a - delta;                  // > 0
+    const T ye2 = delta * (2.0 * a - delta);  // y_e^2
     const T ye = sqrt(ye2);
     for (int i = 0; i < detail::kTorusQuadratureNodes; ++i) {
       const double theta = kHalfPi * nodes[i];

@@ -43,7 +43,7 @@ double NoiseFromThirdDifferences(const TimeSeries& s) {
 }
 
 struct ContactRun {
-  int first = 0;   // coarse contact samples (inclusive)
+  int first = 0;  // coarse contact samples (inclusive)
   int last = -1;
   int lowest = 0;  // lowest valid raw sample in the run
 };
@@ -76,7 +76,10 @@ int GrowFlight(const TimeSeries& s, std::vector<bool>& use, int first, int last,
     pending_departure = -1;
     use[U(j)] = true;
     end = j;
-    if (step > 0) last = j; else first = j;
+    if (step > 0)
+      last = j;
+    else
+      first = j;
     fit = FitMasked(s, use, first, last, s.y_m, noise);
   }
   // Samples between the last accepted one and the stop are not used.
@@ -174,9 +177,12 @@ std::string FormatTime(double t_s) {
 
 std::string ToString(OnsetHeightSource source) {
   switch (source) {
-    case OnsetHeightSource::kGeometry: return "geometry";
-    case OnsetHeightSource::kFit: return "fit";
-    case OnsetHeightSource::kTrack: return "track";
+    case OnsetHeightSource::kGeometry:
+      return "geometry";
+    case OnsetHeightSource::kFit:
+      return "fit";
+    case OnsetHeightSource::kTrack:
+      return "track";
   }
   return "track";
 }
@@ -239,8 +245,8 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
 
   double noise = NoiseFromThirdDifferences(s);
   if (!std::isfinite(noise)) {
-    seg.failure = "too few tracked frames to analyse (" + std::to_string(s.CountValid()) + " of " +
-                  std::to_string(n) + "): check that the marker is visible and tracked";
+    seg.failure = "too few tracked frames to analyse (" + std::to_string(s.CountValid()) + " of " + std::to_string(n) +
+                  "): check that the marker is visible and tracked";
     return seg;
   }
 
@@ -294,11 +300,13 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
   }
   // Keep runs where the motion reverses (a bounce), find their lowest sample.
   std::vector<ContactRun> contacts;
+  int release_end = -1;  // last sample of non-flight motion (held, pushed) before the first contact
   auto rate_near = [&](int i, int step) {
     for (int j = i; j >= 0 && j < n && std::abs(j - i) <= 3 * sg.window; j += step)
       if (smooth.valid[U(j)]) return smooth.rate[U(j)];
     return kNaN;
   };
+  auto margin_of = [&](const ContactRun& r) { return std::max(half, (r.last - r.first + 1) / 2); };
   for (ContactRun run : runs) {
     int lowest = -1;
     for (int i = std::max(0, run.first - half); i <= std::min(n - 1, run.last + half); ++i)
@@ -312,15 +320,24 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
     const bool falls_in = at_start || before < 0.0;
     const bool rises_out = at_end || after > 0.0;
     if (at_start && at_end) continue;  // no flight at all around it
-    if (at_start) {
-      // Held, then released at the clip's start, is no bounce: after a bounce the hub rises
-      // above its lowest point; after a release it never comes back up to it (COR < 1).
-      double highest_after = -std::numeric_limits<double>::infinity();
-      for (int i = run.last + 1; i < n; ++i)
-        if (s.valid[U(i)]) highest_after = std::max(highest_after, s.y_m[U(i)]);
-      if (!(after > 0.0) || !(highest_after > s.y_m[U(lowest)] + 10.0 * noise)) continue;
+    auto reject = [&] {
+      if (contacts.empty()) release_end = std::min(n - 1, run.last + margin_of(run));
+    };
+    // A bounce has the hub clearly higher before (a fall) and after (a rise) its lowest point.
+    // A hub held and released at the clip's start, or still, has neither: after a release the
+    // hub never comes back up to its release height (COR < 1).
+    double highest_before = -std::numeric_limits<double>::infinity(), highest_after = highest_before;
+    for (int i = 0; i < run.first; ++i)
+      if (s.valid[U(i)]) highest_before = std::max(highest_before, s.y_m[U(i)]);
+    for (int i = run.last + 1; i < n; ++i)
+      if (s.valid[U(i)]) highest_after = std::max(highest_after, s.y_m[U(i)]);
+    const double clear_m = s.y_m[U(lowest)] + 10.0 * noise;
+    if ((!at_start && !(highest_before > clear_m)) || (!at_end && !(highest_after > clear_m)) ||
+        (at_start && !(after > 0.0 && highest_after > clear_m)) || !(falls_in && rises_out)) {
+      reject();
+      continue;
     }
-    if (falls_in && rises_out) contacts.push_back(run);
+    contacts.push_back(run);
   }
   if (contacts.empty()) {
     seg.failure =
@@ -332,9 +349,9 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
 
   // Step 3: flights between contacts (with a margin around the coarse contacts).
   const int k_contacts = static_cast<int>(contacts.size());
-  auto margin = [&](const ContactRun& r) { return std::max(half, (r.last - r.first + 1) / 2); };
+  auto margin = margin_of;
   struct Window {
-    int lo, hi;          // allowed range (exclusive of the neighbouring contacts' lowest samples)
+    int lo, hi;  // allowed range (exclusive of the neighbouring contacts' lowest samples)
     int core_lo, core_hi;
     bool cut_start, cut_end;
   };
@@ -345,7 +362,7 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
     w.cut_end = k == k_contacts;
     w.lo = w.cut_start ? 0 : contacts[U(k - 1)].lowest + 1;
     w.hi = w.cut_end ? n - 1 : contacts[U(k)].lowest - 1;
-    w.core_lo = w.cut_start ? 0 : contacts[U(k - 1)].last + margin(contacts[U(k - 1)]) + 1;
+    w.core_lo = w.cut_start ? release_end + 1 : contacts[U(k - 1)].last + margin(contacts[U(k - 1)]) + 1;
     w.core_hi = w.cut_end ? n - 1 : contacts[U(k)].first - margin(contacts[U(k)]) - 1;
     windows.push_back(w);
   }
@@ -361,13 +378,16 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
       std::vector<bool> use(U(n), false);
       int first = -1, last = -1;
       if (onset_known) {
-        for (int i = w.lo; i <= w.hi; ++i) {
+        // From the release on when the clip starts with the hub held (grown back below).
+        const int lo = w.cut_start ? std::max(w.lo, w.core_lo) : w.lo;
+        for (int i = lo; i <= w.hi; ++i) {
           if (s.valid[U(i)] && s.y_m[U(i)] > seg.onset_height_m) {
             use[U(i)] = true;
             if (first < 0) first = i;
             last = i;
           }
         }
+        if (first >= 0 && lo > w.lo) first = GrowFlight(s, use, first, last, -1, w.lo - 1, noise, sigmas);
       } else {
         if (w.core_hi - w.core_lo + 1 < options.min_flight_samples) continue;
         for (int i = w.core_lo; i <= w.core_hi; ++i) use[U(i)] = s.valid[U(i)];
@@ -425,7 +445,8 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
     const FlightPhase* after = b.flight_after ? &seg.flights[U(*b.flight_after)] : nullptr;
     b.contact_first_index = before ? before->last_index + 1 : std::max(0, run.first - half);
     b.contact_last_index = after ? after->first_index - 1 : std::min(n - 1, run.last + half);
-    if (!before) b.incomplete_reason = "no falling flight to fit before the contact (cut by the clip's start or too short)";
+    if (!before)
+      b.incomplete_reason = "no falling flight to fit before the contact (cut by the clip's start or too short)";
     else if (!after)
       b.incomplete_reason =
           "no rising flight to fit after the contact (cut by the clip's end, too short, or the specimen came to rest)";
@@ -440,9 +461,12 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
     {
       const double y_min = s.y_m[U(run.lowest)];
       double y_ref = kNaN;
-      if (onset_known) y_ref = seg.onset_height_m;
-      else if (before) y_ref = before->y_fit.Value(s.t_s[U(std::min(n - 1, b.contact_first_index))]);
-      else if (after) y_ref = after->y_fit.Value(s.t_s[U(std::max(0, b.contact_last_index))]);
+      if (onset_known)
+        y_ref = seg.onset_height_m;
+      else if (before)
+        y_ref = before->y_fit.Value(s.t_s[U(std::min(n - 1, b.contact_first_index))]);
+      else if (after)
+        y_ref = after->y_fit.Value(s.t_s[U(std::max(0, b.contact_last_index))]);
       const double band = std::isfinite(y_ref) ? 0.1 * std::max(0.0, y_ref - y_min) : 0.0;
       int lo = run.lowest, hi = run.lowest;
       auto below = [&](int i) { return !s.valid[U(i)] || s.y_m[U(i)] <= y_min + band; };
@@ -465,8 +489,8 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
             b.t_lowest_s = t_v;
             Eigen::VectorXd x = fit->coef;
             b.y_lowest_m = fit->coef(0) - fit->coef(1) * fit->coef(1) / (4.0 * fit->coef(2));
-            b.y_lowest_sd_m = PropagatedSd(
-                [](const Eigen::VectorXd& c) { return c(0) - c(1) * c(1) / (4.0 * c(2)); }, x, fit->covariance);
+            b.y_lowest_sd_m = PropagatedSd([](const Eigen::VectorXd& c) { return c(0) - c(1) * c(1) / (4.0 * c(2)); },
+                                           x, fit->covariance);
           }
         }
       }
@@ -491,8 +515,7 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
         if (std::isfinite(fit.t0_s)) {
           const double rate = std::abs(before->y_fit.Derivative(fit.t0_s));
           b.onset_height_track_m = before->y_fit.Value(fit.t0_s);
-          b.onset_height_track_sd_m =
-              std::hypot(before->y_fit.ValueSd(fit.t0_s), rate * fit.sd_s);
+          b.onset_height_track_sd_m = std::hypot(before->y_fit.ValueSd(fit.t0_s), rate * fit.sd_s);
         }
       }
     }
@@ -542,14 +565,15 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
   // Notes on gaps.
   for (const Gap& gap : seg.gaps) {
     std::ostringstream note;
-    note << "gap of " << gap.count << " frame" << (gap.count == 1 ? "" : "s") << " at t = "
-         << FormatTime(s.t_s[U(gap.first_index)]) << " s";
+    note << "gap of " << gap.count << " frame" << (gap.count == 1 ? "" : "s")
+         << " at t = " << FormatTime(s.t_s[U(gap.first_index)]) << " s";
     bool in_flight = false;
     for (const FlightPhase& f : seg.flights)
       in_flight |= gap.first_index > f.first_index && gap.first_index + gap.count - 1 < f.last_index;
     bool at_end = gap.first_index == 0 || gap.first_index + gap.count == n;
     note << (in_flight ? ": bridged by the flight fit"
-                       : at_end ? ": at the clip's edge" : ": in or near a contact (figures there are less certain)");
+             : at_end  ? ": at the clip's edge"
+                       : ": in or near a contact (figures there are less certain)");
     seg.notes.push_back(note.str());
   }
   return seg;
@@ -626,11 +650,13 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
 
     if (fall && std::isfinite(h)) {
       f.t_contact_s = {b.t_contact_s, b.t_contact_sd_s};
-      f.impact_speed_mps = estimate([&](const Eigen::VectorXd& v) { return SpeedAt(fall_of(v), v(6), Branch::kFalling); });
+      f.impact_speed_mps =
+          estimate([&](const Eigen::VectorXd& v) { return SpeedAt(fall_of(v), v(6), Branch::kFalling); });
       f.drop_height_above_onset_m = estimate([&](const Eigen::VectorXd& v) { return ApexAbove(fall_of(v), v(6)); });
     }
     if (rise && std::isfinite(h)) {
-      f.rebound_speed_mps = estimate([&](const Eigen::VectorXd& v) { return SpeedAt(rise_of(v), v(6), Branch::kRising); });
+      f.rebound_speed_mps =
+          estimate([&](const Eigen::VectorXd& v) { return SpeedAt(rise_of(v), v(6), Branch::kRising); });
       f.rebound_height_above_onset_m = estimate([&](const Eigen::VectorXd& v) { return ApexAbove(rise_of(v), v(6)); });
     }
     if (fall && rise && std::isfinite(h)) {
@@ -654,8 +680,8 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
         msg << std::fixed << std::setprecision(4) << "bounce " << b.index << ": COR from speeds " << f.cor.value
             << " and from apex heights " << f.cor_from_apex.value << " differ by " << std::abs(diff.value) << " ("
             << std::setprecision(1) << std::abs(diff.value) / std::max(diff.sd, 1e-12)
-            << " sd): the falling and rising flights have different accelerations ("
-            << std::setprecision(3) << -2.0 * fall->coef(2) << " and " << -2.0 * rise->coef(2)
+            << " sd): the falling and rising flights have different accelerations (" << std::setprecision(3)
+            << -2.0 * fall->coef(2) << " and " << -2.0 * rise->coef(2)
             << " m/s^2); check for drag, a marker off the hub axis, or a flight mostly outside the clip";
         f.cor_disagreement = msg.str();
       }

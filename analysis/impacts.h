@@ -10,9 +10,9 @@
 //     the noise so that its noise is at most g/3, 5 to 41 samples) departs from -g by more
 //     than max(5 sd_a, g/2) (the contact force is several g in a drop, so it cannot hide).
 //     Each run of such samples holding a local minimum of the height, with a fall before
-//     and a rise after it, is a bounce. A run at the clip's start counts only when the hub
-//     then rises above the run's lowest point (a hub held and released at the clip's start
-//     never comes back up to its release height: no bounce).
+//     and a rise after it (velocity down before, up after; the hub more than 10 noise sd
+//     higher somewhere before and after the run's lowest point), is a bounce. A hub held and
+//     released at the clip's start is none: it never comes back up to its release height.
 //  3. Flight windows: the samples between two contacts are one flight, one parabola.
 //     - Onset height known (geometry from the floor and free radius, or a law fit): a flight
 //       is every valid sample above the onset height between the two contacts (above the
@@ -81,7 +81,7 @@ struct SegmentationOptions {
   // (kGeometry) or from a law fit (kFit). Nothing: estimated from the track (kTrack).
   std::optional<double> onset_height_m;
   OnsetHeightSource onset_height_source = OnsetHeightSource::kGeometry;  // when onset_height_m is set
-  double onset_height_sd_m = 0.0;  // its standard uncertainty [m], >= 0
+  double onset_height_sd_m = 0.0;                                        // its standard uncertainty [m], >= 0
   // A sample departs from free fall when its residual from the flight parabola exceeds this
   // many combined standard deviations. Range [2, 10]; 4 keeps false departures below about
   // 1 in 10^4 samples.
@@ -94,38 +94,38 @@ std::optional<std::string> ValidateSegmentationOptions(const SegmentationOptions
 
 // One flight phase: one parabola fit in y (and one in x for the tilt check).
 struct FlightPhase {
-  int first_index = 0;        // first and last sample of the fitted window (inclusive)
+  int first_index = 0;  // first and last sample of the fitted window (inclusive)
   int last_index = -1;
-  PolynomialFit y_fit;        // degree 2
-  PolynomialFit x_fit;        // degree 2
-  int missing_samples = 0;    // invalid samples inside the window (gaps bridged by the fit)
+  PolynomialFit y_fit;             // degree 2
+  PolynomialFit x_fit;             // degree 2
+  int missing_samples = 0;         // invalid samples inside the window (gaps bridged by the fit)
   bool cut_by_clip_start = false;  // no contact before it in the clip
   bool cut_by_clip_end = false;    // no contact after it in the clip
 };
 
 // One bounce (one contact), in clip order.
 struct Bounce {
-  int index = 0;                       // 0-based, clip order
-  std::optional<int> flight_before;    // into Segmentation::flights (falling flight)
-  std::optional<int> flight_after;     // rising flight
-  int contact_first_index = 0;         // samples between the two flight windows (inclusive)
+  int index = 0;                     // 0-based, clip order
+  std::optional<int> flight_before;  // into Segmentation::flights (falling flight)
+  std::optional<int> flight_after;   // rising flight
+  int contact_first_index = 0;       // samples between the two flight windows (inclusive)
   int contact_last_index = -1;
-  double t_contact_s = 0.0;            // falling fit reaches the onset height; NaN without it
+  double t_contact_s = 0.0;  // falling fit reaches the onset height; NaN without it
   double t_contact_sd_s = 0.0;
-  double t_separation_track_s = 0.0;   // track-only separation (step 5); NaN when unknown
+  double t_separation_track_s = 0.0;  // track-only separation (step 5); NaN when unknown
   double t_separation_track_sd_s = 0.0;
-  double t_lowest_s = 0.0;             // lowest hub point (step 6)
+  double t_lowest_s = 0.0;  // lowest hub point (step 6)
   double y_lowest_m = 0.0;
   double y_lowest_sd_m = 0.0;
-  double onset_height_track_m = 0.0;   // this bounce's own track estimate (step 4); NaN if none
+  double onset_height_track_m = 0.0;  // this bounce's own track estimate (step 4); NaN if none
   double onset_height_track_sd_m = 0.0;
   bool complete = true;
-  std::string incomplete_reason;       // empty when complete
+  std::string incomplete_reason;  // empty when complete
 };
 
 struct Segmentation {
-  double noise_sd_m = 0.0;             // position noise from the flight residuals
-  double onset_height_m = 0.0;         // used for every bounce of the clip; NaN when unknown
+  double noise_sd_m = 0.0;      // position noise from the flight residuals
+  double onset_height_m = 0.0;  // used for every bounce of the clip; NaN when unknown
   double onset_height_sd_m = 0.0;
   OnsetHeightSource onset_height_source = OnsetHeightSource::kTrack;
   std::vector<FlightPhase> flights;
@@ -167,8 +167,8 @@ struct ImpactFigures {
 };
 
 struct ImpactOptions {
-  double mass_kg = 0.0;            // dropped mass [kg], > 0
-  double gravity_mps2 = 9.80665;   // as SegmentationOptions::gravity_mps2
+  double mass_kg = 0.0;           // dropped mass [kg], > 0
+  double gravity_mps2 = 9.80665;  // as SegmentationOptions::gravity_mps2
 };
 std::optional<std::string> ValidateImpactOptions(const ImpactOptions& options);
 

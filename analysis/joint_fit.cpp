@@ -35,8 +35,8 @@ std::vector<double> HeightGroups(const std::vector<FitClip>& clips, double toler
   return groups;
 }
 
-HoldoutError PredictHeight(LawId law, const std::vector<FitClip>& clips, double height_m,
-                           const LawFitOptions& options, double tolerance_m) {
+HoldoutError PredictHeight(LawId law, const std::vector<FitClip>& clips, double height_m, const LawFitOptions& options,
+                           double tolerance_m) {
   HoldoutError out;
   out.drop_height_m = height_m;
   std::vector<FitClip> train, held;
@@ -96,7 +96,8 @@ JointFitResult FitJoint(LawId law, const std::vector<FitClip>& clips, const LawF
   if (!joint_options.leave_one_height_out || out.fit.failure) return out;
   const std::vector<double> groups = HeightGroups(clips, joint_options.height_tolerance_m);
   if (groups.size() < 2) return out;
-  for (double h : groups) out.holdout.push_back(PredictHeight(law, clips, h, options, joint_options.height_tolerance_m));
+  for (double h : groups)
+    out.holdout.push_back(PredictHeight(law, clips, h, options, joint_options.height_tolerance_m));
   return out;
 }
 

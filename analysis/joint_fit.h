@@ -42,17 +42,17 @@ std::optional<std::string> ValidateJointFitOptions(const JointFitOptions& option
 // Prediction errors at one held-out height (prediction - reference, mean over bounces).
 struct HoldoutError {
   double drop_height_m = 0.0;
-  int bounces = 0;                      // held-out bounces predicted
+  int bounces = 0;  // held-out bounces predicted
   double cor_error = 0.0;
   double contact_duration_error_s = 0.0;
   double max_deflection_error_m = 0.0;
-  double cor_error_max_abs = 0.0;       // the largest |error| over the bounces
-  std::optional<std::string> failure;   // why this height could not be predicted
+  double cor_error_max_abs = 0.0;      // the largest |error| over the bounces
+  std::optional<std::string> failure;  // why this height could not be predicted
 };
 
 struct JointFitResult {
-  LawFitResult fit;                     // all clips
-  std::vector<HoldoutError> holdout;    // one per height group (empty with one height)
+  LawFitResult fit;                   // all clips
+  std::vector<HoldoutError> holdout;  // one per height group (empty with one height)
 };
 
 // One law over the specimen's clips. Throws std::invalid_argument for invalid options.
@@ -61,7 +61,7 @@ JointFitResult FitJoint(LawId law, const std::vector<FitClip>& clips, const LawF
 
 // Every law; `best` indexes the lowest-BIC converged joint fit.
 struct SpecimenFit {
-  std::vector<JointFitResult> laws;     // AllLaws() order
+  std::vector<JointFitResult> laws;  // AllLaws() order
   std::optional<int> best;
 };
 SpecimenFit FitSpecimen(const std::vector<FitClip>& clips, const LawFitOptions& options,

@@ -56,8 +56,9 @@ KinematicsResult AnalyzeKinematics(const TimeSeries& series, const KinematicsOpt
       result.warnings.push_back("bounce " + std::to_string(b.index) + " is incomplete: " + b.incomplete_reason);
   for (const std::string& note : result.segmentation.notes) result.warnings.push_back(note);
   if (!std::isfinite(result.segmentation.onset_height_m))
-    result.failure = "no contact onset could be located from the track (no falling flight before any contact); "
-                     "give the free radius with a floor in the rig, or a clip that shows the fall before the impact";
+    result.failure =
+        "no contact onset could be located from the track (no falling flight before any contact); "
+        "give the free radius with a floor in the rig, or a clip that shows the fall before the impact";
   else if (!any_complete)
     result.warnings.push_back("no complete bounce: every impact lacks a falling or a rising flight in the clip");
   return result;

@@ -15,23 +15,23 @@
 namespace dropfit::analysis {
 
 struct KinematicsOptions {
-  double mass_kg = 0.0;                    // dropped mass [kg], > 0
-  double gravity_mps2 = 9.80665;           // expected gravity [m/s^2], (0, 100]: standard or local
+  double mass_kg = 0.0;           // dropped mass [kg], > 0
+  double gravity_mps2 = 9.80665;  // expected gravity [m/s^2], (0, 100]: standard or local
   // Onset height [m] when known (floor + free radius: kGeometry; a law fit: kFit), its source
   // and standard uncertainty; nothing: a provisional estimate from the track (kTrack).
   std::optional<double> onset_height_m;
   OnsetHeightSource onset_height_source = OnsetHeightSource::kGeometry;
   double onset_height_sd_m = 0.0;
-  std::optional<double> drop_height_m;     // nominal drop height [m] for the self-check
-  std::optional<double> capture_fps;       // rate used [frames/s], to word a rate correction
-  double departure_sigmas = 4.0;           // SegmentationOptions::departure_sigmas
-  int min_flight_samples = 8;              // SegmentationOptions::min_flight_samples
+  std::optional<double> drop_height_m;  // nominal drop height [m] for the self-check
+  std::optional<double> capture_fps;    // rate used [frames/s], to word a rate correction
+  double departure_sigmas = 4.0;        // SegmentationOptions::departure_sigmas
+  int min_flight_samples = 8;           // SegmentationOptions::min_flight_samples
 };
 std::optional<std::string> ValidateKinematicsOptions(const KinematicsOptions& options);
 
 struct KinematicsResult {
   Segmentation segmentation;
-  std::vector<ImpactFigures> impacts;      // one per bounce, clip order
+  std::vector<ImpactFigures> impacts;  // one per bounce, clip order
   SelfCheckReport checks;
   // Self-check warnings, COR disagreements, incomplete bounces and gaps, as sentences.
   std::vector<std::string> warnings;

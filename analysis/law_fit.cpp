@@ -27,11 +27,16 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 
 int InternalDim(LawId law) {
   switch (law) {
-    case LawId::kKelvinVoigt: return 2;
-    case LawId::kHuntCrossley: return 3;
-    case LawId::kHertz: return 2;
-    case LawId::kBilinear: return 4;
-    case LawId::kVolumetric: return 2;
+    case LawId::kKelvinVoigt:
+      return 2;
+    case LawId::kHuntCrossley:
+      return 3;
+    case LawId::kHertz:
+      return 2;
+    case LawId::kBilinear:
+      return 4;
+    case LawId::kVolumetric:
+      return 2;
   }
   return 0;
 }
@@ -121,8 +126,8 @@ struct WindowCost {
     ToLawParams(data.setup.law, x, data.delta_ref_m, params);
     const FitWindow& w = *data.window;
     const int n = static_cast<int>(w.t_s.size());
-    const SimulationStatus status = SimulateHubHeights(data.setup, params, onset[0], w.start_time_s, state[0],
-                                                       state[1], w.t_s.data(), n, residuals, nullptr, data.model);
+    const SimulationStatus status = SimulateHubHeights(data.setup, params, onset[0], w.start_time_s, state[0], state[1],
+                                                       w.t_s.data(), n, residuals, nullptr, data.model);
     if (status != SimulationStatus::kOk) return false;
     for (int i = 0; i < n; ++i) {
       residuals[i] = (residuals[i] - w.y_m[i]) * data.inv_scale;
@@ -153,8 +158,8 @@ ceres::CostFunction* MakeWindowCost(WindowData data) {
 struct Unknowns {
   std::vector<double> x;
   double onset = 0.0;
-  std::vector<double> known_onsets;               // per clip (used where known)
-  std::vector<std::array<double, 2>> states;      // per window, flattened over clips
+  std::vector<double> known_onsets;           // per clip (used where known)
+  std::vector<std::array<double, 2>> states;  // per window, flattened over clips
 };
 
 struct WindowRef {
@@ -237,17 +242,22 @@ std::optional<std::string> ValidateFitWindowOptions(const FitWindowOptions& opti
 
 std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& o) {
   std::ostringstream m;
-  if (!(o.gravity_mps2 >= 0.0 && o.gravity_mps2 <= 100.0)) m << "gravity_mps2 = " << o.gravity_mps2 << " is outside [0, 100]";
-  else if (o.max_iterations < 1 || o.max_iterations > 1000) m << "max_iterations = " << o.max_iterations << " is outside [1, 1000]";
+  if (!(o.gravity_mps2 >= 0.0 && o.gravity_mps2 <= 100.0))
+    m << "gravity_mps2 = " << o.gravity_mps2 << " is outside [0, 100]";
+  else if (o.max_iterations < 1 || o.max_iterations > 1000)
+    m << "max_iterations = " << o.max_iterations << " is outside [1, 1000]";
   else if (!(o.function_tolerance > 0.0 && o.function_tolerance <= 1e-2))
     m << "function_tolerance = " << o.function_tolerance << " is outside (0, 1e-2]";
   else if (!(o.parameter_tolerance > 0.0 && o.parameter_tolerance <= 1e-2))
     m << "parameter_tolerance = " << o.parameter_tolerance << " is outside (0, 1e-2]";
-  else if (o.curve_points < 2 || o.curve_points > 10000) m << "curve_points = " << o.curve_points << " is outside [2, 10000]";
+  else if (o.curve_points < 2 || o.curve_points > 10000)
+    m << "curve_points = " << o.curve_points << " is outside [2, 10000]";
   else if (o.min_contact_samples < 1 || o.min_contact_samples > 1000)
     m << "min_contact_samples = " << o.min_contact_samples << " is outside [1, 1000]";
-  else if (const std::string e = Validate(o.model); !e.empty()) m << e;
-  else if (const std::string e2 = Validate(o.tread); !e2.empty()) m << "tread: " << e2;
+  else if (const std::string e = Validate(o.model); !e.empty())
+    m << e;
+  else if (const std::string e2 = Validate(o.tread); !e2.empty())
+    m << "tread: " << e2;
   if (m.str().empty()) return std::nullopt;
   return m.str();
 }
@@ -262,21 +272,26 @@ std::string LawFormula(LawId law, const TreadGeometry& tread) {
       return "F = k*delta + c*delta_dot; k [N/m], c [N s/m]" + common;
     case LawId::kHuntCrossley:
       return "F = k*delta^n*(1 + alpha*delta_dot); k [N/m^n], n [-], alpha [s/m] (Hunt-Crossley damping "
-             "lambda = alpha*k [N s/m^(n+1)])" + common;
+             "lambda = alpha*k [N s/m^(n+1)])" +
+             common;
     case LawId::kHertz:
       return "F = k*delta^1.5*(1 + alpha*delta_dot); k [N/m^1.5], n = 1.5 fixed, alpha [s/m]" + common;
     case LawId::kBilinear:
       return "F = S(delta) + c*delta_dot, S = k1*delta for delta <= knee, k1*knee + k2*(delta - knee) beyond; "
-             "k1, k2 [N/m], knee [m], c [N s/m]" + common;
+             "k1, k2 [N/m], knee [m], c [N s/m]" +
+             common;
     case LawId::kVolumetric: {
       std::ostringstream g;
       if (tread.shape == TreadShape::kTorus) {
-        g << "torus tread, free radius " << tread.free_radius_m << " m, section radius " << tread.section_radius_m << " m";
+        g << "torus tread, free radius " << tread.free_radius_m << " m, section radius " << tread.section_radius_m
+          << " m";
       } else {
         g << "cylinder tread, radius " << tread.free_radius_m << " m, width " << tread.tread_width_m << " m";
       }
-      std::string out = "F = kv*V(delta)*(1 + a*delta_dot); kv [N/m^3], a [s/m], V [m^3] the volume of the unloaded "
-                        "tread below the floor (" + g.str() + ")";
+      std::string out =
+          "F = kv*V(delta)*(1 + a*delta_dot); kv [N/m^3], a [s/m], V [m^3] the volume of the unloaded "
+          "tread below the floor (" +
+          g.str() + ")";
       if (!tread.note.empty()) out += "; " + tread.note;
       return out + common;
     }
@@ -312,7 +327,8 @@ FitClip MakeFitClip(const std::string& clip, double drop_height_m, double mass_k
     const FlightPhase& before = segmentation.flights.at(*bounce.flight_before);
     const FlightPhase& after = segmentation.flights.at(*bounce.flight_after);
     int first = before.first_index;
-    if (b > 0 && bounces[b - 1].flight_after == bounce.flight_before) first = (before.first_index + before.last_index) / 2 + 1;
+    if (b > 0 && bounces[b - 1].flight_after == bounce.flight_before)
+      first = (before.first_index + before.last_index) / 2 + 1;
     first = std::max(first, before.last_index - max_flight + 1);
     int last = after.last_index;
     if (b + 1 < bounces.size() && bounces[b + 1].flight_before == bounce.flight_after) {
@@ -447,7 +463,8 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
     u.x = FromLawParams(law, start, delta_ref);
     u.onset = onset_free ? onset_guess : 0.0;
     for (const FitClip& clip : clips) u.known_onsets.push_back(clip.known_onset_height_m.value_or(kNaN));
-    for (const WindowRef& ref : windows) u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
+    for (const WindowRef& ref : windows)
+      u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
     s.problem = std::make_unique<ceres::Problem>();
     for (size_t i = 0; i < windows.size(); ++i) {
       const WindowRef& ref = windows[i];
@@ -583,8 +600,9 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
           cov(i, i) = kInf;
         }
         have_cov = true;
-        result.warnings.push_back("the data do not determine every unknown (rank-deficient Jacobian): "
-                                  "their SDs are reported as infinite");
+        result.warnings.push_back(
+            "the data do not determine every unknown (rank-deficient Jacobian): "
+            "their SDs are reported as infinite");
       }
     }
     // s2 is in units of scale_m^2 and the Jacobian in 1/scale_m: the product is in metres.
@@ -606,8 +624,9 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
       for (int i = 0; i < np; ++i) {
         bool touches = false;
         for (int j = 0; j < dim; ++j) touches = touches || (g(i, j) != 0.0 && undetermined[j]);
-        cov_p(i, i) = touches ? kInf : (g.row(i) * cov_x.unaryExpr([](double v) { return std::isfinite(v) ? v : 0.0; }) *
-                                        g.row(i).transpose())(0, 0);
+        cov_p(i, i) = touches ? kInf : (g.row(i) * cov_x.unaryExpr([](double v) {
+          return std::isfinite(v) ? v : 0.0;
+        }) * g.row(i).transpose())(0, 0);
       }
     }
   }
@@ -711,10 +730,14 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
             double y0 = u.states[i][0], v0 = u.states[i][1];
             const double step = side == 0 ? h : -h;
             const int k = idx[a];
-            if (k < dim) xx[k] += step;
-            else if (k == dim && onset_free && !clip.known_onset_height_m) on += step;
-            else if (k == idx[m - 2]) y0 += step;
-            else v0 += step;
+            if (k < dim)
+              xx[k] += step;
+            else if (k == dim && onset_free && !clip.known_onset_height_m)
+              on += step;
+            else if (k == idx[m - 2])
+              y0 += step;
+            else
+              v0 += step;
             std::vector<double> pp(kMaxLawParameters);
             ToLawParams(law, xx.data(), delta_ref, pp.data());
             pp.resize(np);

@@ -147,22 +147,22 @@ std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& options);
 // Law-dependent figures of one fitted bounce (contract "Impact figures", from the law),
 // each with its SD (NaN when not propagated), and the fitted window-start state.
 struct BounceFitFigures {
-  int clip_index = 0;      // into the fit's clips
-  int bounce_index = 0;    // the bounce's index in its clip
+  int clip_index = 0;    // into the fit's clips
+  int bounce_index = 0;  // the bounce's index in its clip
   double t_contact_s = 0.0;
-  double t_separation_s = 0.0, t_separation_sd_s = 0.0;      // force returns to zero
+  double t_separation_s = 0.0, t_separation_sd_s = 0.0;  // force returns to zero
   double contact_duration_s = 0.0, contact_duration_sd_s = 0.0;
   double peak_force_n = 0.0, peak_force_sd_n = 0.0;
   double max_deflection_m = 0.0, max_deflection_sd_m = 0.0;
   double impact_speed_mps = 0.0;
-  double rebound_speed_mps = 0.0;   // at the onset height (e_level of references §3c)
+  double rebound_speed_mps = 0.0;  // at the onset height (e_level of references §3c)
   double cor = 0.0, cor_sd = 0.0;
   double separation_speed_mps = 0.0;
-  double start_height_m = 0.0;      // fitted state at the window start
+  double start_height_m = 0.0;  // fitted state at the window start
   double start_velocity_mps = 0.0;
-  double rms_residual_m = 0.0;      // over this window
+  double rms_residual_m = 0.0;  // over this window
   int samples = 0;
-  int contact_samples = 0;          // samples below the onset height
+  int contact_samples = 0;  // samples below the onset height
 };
 
 // The fitted force against deflection over one contact (compression and restitution), for
@@ -177,12 +177,12 @@ struct ForceDeflectionCurve {
 
 struct LawFitResult {
   LawId law = LawId::kKelvinVoigt;
-  std::vector<std::string> param_names;  // ParameterNames(law)
-  std::vector<double> params;            // contract units (see the names)
-  std::vector<double> param_sd;          // infinite where the data do not determine it
+  std::vector<std::string> param_names;               // ParameterNames(law)
+  std::vector<double> params;                         // contract units (see the names)
+  std::vector<double> param_sd;                       // infinite where the data do not determine it
   std::vector<std::vector<double>> param_covariance;  // of `params`
   double onset_height_m = 0.0;
-  double onset_height_sd_m = 0.0;        // 0 when fixed
+  double onset_height_sd_m = 0.0;  // 0 when fixed
   bool onset_height_fitted = false;
   std::vector<std::vector<int>> bounces;  // per clip: the bounce indices used
   int samples = 0;
@@ -190,12 +190,12 @@ struct LawFitResult {
   double rms_residual_m = 0.0;
   double bic = 0.0;
   bool converged = false;
-  int iterations = 0;        // over all starts
-  int starts = 0;            // multi-start count
+  int iterations = 0;  // over all starts
+  int starts = 0;      // multi-start count
   double solve_time_s = 0.0;
-  std::string termination;   // Ceres' message of the kept start
-  std::string formula;       // LawFormula(law, tread)
-  std::string start_note;    // how the starting values were obtained
+  std::string termination;  // Ceres' message of the kept start
+  std::string formula;      // LawFormula(law, tread)
+  std::string start_note;   // how the starting values were obtained
   std::vector<std::string> warnings;
   std::vector<BounceFitFigures> figures;
   std::vector<ForceDeflectionCurve> curves;

@@ -4,9 +4,9 @@
 
 #include <algorithm>
 #include <array>
-#include <mutex>
 #include <cmath>
 #include <limits>
+#include <mutex>
 #include <numbers>
 #include <sstream>
 #include <stdexcept>
@@ -50,8 +50,8 @@ double ValueNoise(double x, double y, uint64_t seed) {
   const double fx = std::floor(x), fy = std::floor(y);
   const auto ix = static_cast<int64_t>(fx), iy = static_cast<int64_t>(fy);
   auto lattice = [seed](int64_t i, int64_t j) {
-    const uint64_t h = SplitMix64(seed ^ SplitMix64(static_cast<uint64_t>(i) * 0x632BE59BD9B4E019ull +
-                                                    static_cast<uint64_t>(j)));
+    const uint64_t h =
+        SplitMix64(seed ^ SplitMix64(static_cast<uint64_t>(i) * 0x632BE59BD9B4E019ull + static_cast<uint64_t>(j)));
     return static_cast<double>(h >> 11) * (2.0 / 9007199254740992.0) - 1.0;
   };
   const double tx = x - fx, ty = y - fy;
@@ -99,7 +99,7 @@ struct PoseGeometry {
   double hx, hy, cos_spin, sin_spin;
   double tyre_r, rim_r, lip_r, hole_ring_r, hole_r, cap_r, marker_r;
   bool quadrant;
-  bool clip_floor;  // the tyre reaches the floor: cut it at y = 0
+  bool clip_floor;                               // the tyre reaches the floor: cut it at y = 0
   std::array<double, kRimHoles> hole_x, hole_y;  // hole centres relative to the hub
 };
 
@@ -209,9 +209,9 @@ std::optional<std::string> ValidateWheelLook(const WheelLook& look) {
   }
   const double min_rim = CapRadius(look) / 0.45;
   if (!(look.rim_radius_m >= min_rim && look.rim_radius_m < look.free_radius_m)) {
-    msg << "rim radius " << look.rim_radius_m << " m must be at least " << min_rim
-        << " m (room for the hub cap of a " << look.marker_diameter_m * 1000 << " mm marker) and below the free radius "
-        << look.free_radius_m << " m; use a smaller marker or a larger wheel";
+    msg << "rim radius " << look.rim_radius_m << " m must be at least " << min_rim << " m (room for the hub cap of a "
+        << look.marker_diameter_m * 1000 << " mm marker) and below the free radius " << look.free_radius_m
+        << " m; use a smaller marker or a larger wheel";
     return msg.str();
   }
   return std::nullopt;
@@ -224,8 +224,8 @@ std::optional<std::string> ValidateExposure(const ExposureSettings& e, double ca
     return msg.str();
   }
   if (!(e.exposure_s > 0 && e.exposure_s <= 1.0 / capture_fps * (1 + 1e-12))) {
-    msg << "exposure " << e.exposure_s << " s must be positive and at most the frame interval "
-        << 1.0 / capture_fps << " s";
+    msg << "exposure " << e.exposure_s << " s must be positive and at most the frame interval " << 1.0 / capture_fps
+        << " s";
     return msg.str();
   }
   if (!(e.subframes >= 1 && e.subframes <= 64)) {
@@ -290,7 +290,8 @@ SceneRenderer::SceneRenderer(const PinholeCamera& camera, const WheelLook& wheel
   for (int v = 0; v < height; ++v) {
     for (int u = 0; u < width; ++u) {
       const cv::Vec3d ray = ray_of(u, v);
-      if (!(ray[2] < 0)) throw std::invalid_argument("a pixel's ray does not meet the drop plane; tilt the camera less");
+      if (!(ray[2] < 0))
+        throw std::invalid_argument("a pixel's ray does not meet the drop plane; tilt the camera less");
       const double s = -origin[2] / ray[2];
       plane_x_(v, u) = origin[0] + s * ray[0];
       plane_y_(v, u) = origin[1] + s * ray[1];
@@ -426,14 +427,15 @@ cv::Mat1f SceneRenderer::RenderRadiance(const std::vector<WheelPose>& subframe_p
   // blurred patch matches the blurred static scene at its edge, then keep the inner part.
   const int reach = psf_sigma_px > 0 ? static_cast<int>(std::ceil(4 * psf_sigma_px)) + 1 : 0;
   const cv::Rect image_rect(cv::Point(0, 0), image_size());
-  const cv::Rect padded = cv::Rect(region.x - 2 * reach, region.y - 2 * reach, region.width + 4 * reach,
-                                   region.height + 4 * reach) & image_rect;
+  const cv::Rect padded =
+      cv::Rect(region.x - 2 * reach, region.y - 2 * reach, region.width + 4 * reach, region.height + 4 * reach) &
+      image_rect;
   cv::Mat1f accumulator(padded.size(), 0.0f);
   for (const WheelPose& pose : subframe_poses) ShadeWheel(pose, padded, accumulator);
   accumulator *= 1.0 / static_cast<double>(subframe_poses.size());
   ApplyLensBlur(accumulator, psf_sigma_px);
-  const cv::Rect inner = cv::Rect(region.x - reach, region.y - reach, region.width + 2 * reach,
-                                  region.height + 2 * reach) & image_rect;
+  const cv::Rect inner =
+      cv::Rect(region.x - reach, region.y - reach, region.width + 2 * reach, region.height + 2 * reach) & image_rect;
   accumulator(inner - padded.tl()).copyTo(out(inner));
   return out;
 }
@@ -447,8 +449,8 @@ cv::Mat1b SceneRenderer::Expose(const cv::Mat1f& radiance, double t_s, const Exp
   constexpr int kLevelsPerGrey = 4;
   std::array<float, 300 * kLevelsPerGrey> sigma{};
   for (size_t i = 0; i < sigma.size(); ++i) {
-    sigma[i] = static_cast<float>(std::sqrt(static_cast<double>(i) / kLevelsPerGrey * shot_scale +
-                                            e.read_noise_grey * e.read_noise_grey));
+    sigma[i] = static_cast<float>(
+        std::sqrt(static_cast<double>(i) / kLevelsPerGrey * shot_scale + e.read_noise_grey * e.read_noise_grey));
   }
   const std::vector<float>& normal = StandardNormalTable();
   cv::Mat1b out(radiance.size());
@@ -468,8 +470,8 @@ cv::Mat1b SceneRenderer::Expose(const cv::Mat1f& radiance, double t_s, const Exp
         const float z = normal[bits & 0xFFFFu];
         bits >>= 16;
         --bits_left;
-        const int level = std::clamp(static_cast<int>(mu * kLevelsPerGrey + 0.5f), 0,
-                                     static_cast<int>(sigma.size()) - 1);
+        const int level =
+            std::clamp(static_cast<int>(mu * kLevelsPerGrey + 0.5f), 0, static_cast<int>(sigma.size()) - 1);
         mu += z * sigma[static_cast<size_t>(level)];
       }
       o[u] = static_cast<uint8_t>(std::clamp(std::lround(mu), 0L, 255L));
@@ -528,9 +530,8 @@ std::vector<WheelPose> SubframePoses(const Trajectory& trajectory, int frame, do
   const double t_mid = frame / capture_fps;
   std::vector<WheelPose> poses;
   for (int j = 0; j < exposure.subframes; ++j) {
-    const double t = exposure.subframes == 1
-                         ? t_mid
-                         : t_mid + ((j + 0.5) / exposure.subframes - 0.5) * exposure.exposure_s;
+    const double t =
+        exposure.subframes == 1 ? t_mid : t_mid + ((j + 0.5) / exposure.subframes - 0.5) * exposure.exposure_s;
     const HubState s = trajectory.At(t);
     poses.push_back({s.x_m, s.y_m, s.spin_angle_rad});
   }

@@ -68,8 +68,8 @@ MarkerShape MarkerShapeFromString(const std::string& text);
 
 // What the wheel looks like (drop-plane metres).
 struct WheelLook {
-  double free_radius_m = 0.2;        // tyre outer radius (hub centre to tread); [0.02, 1]
-  double rim_radius_m = 0.11;        // rim outer radius; (cap radius / 0.45, free_radius_m)
+  double free_radius_m = 0.2;  // tyre outer radius (hub centre to tread); [0.02, 1]
+  double rim_radius_m = 0.11;  // rim outer radius; (cap radius / 0.45, free_radius_m)
   MarkerShape marker = MarkerShape::kQuadrant;
   double marker_diameter_m = 0.030;  // quadrant disc or dot diameter; [0.004, 0.2]
 };
@@ -81,9 +81,9 @@ std::optional<std::string> ValidateWheelLook(const WheelLook& look);
 
 // The static scene around the drop plane.
 struct SceneLook {
-  double wall_distance_m = 0.4;   // textured wall behind the drop plane (z_m = -this); [0.05, 20]
-  double floor_front_m = 0.3;     // the floor reaches this far towards the camera; [0, 20]
-  uint64_t texture_seed = 1;      // wall and floor texture
+  double wall_distance_m = 0.4;  // textured wall behind the drop plane (z_m = -this); [0.05, 20]
+  double floor_front_m = 0.3;    // the floor reaches this far towards the camera; [0, 20]
+  uint64_t texture_seed = 1;     // wall and floor texture
 };
 
 // Sensor and lighting settings of one clip.
@@ -133,8 +133,7 @@ class SceneRenderer {
   // Exposes a radiance image (already lens-blurred) at mid-exposure time t_s: vignetting,
   // flicker and, when `rng` is given, shot and read noise; rounds to 8 bits. The normal
   // deviates come from StandardNormalTable indexed by 16 bits of the generator's output.
-  cv::Mat1b Expose(const cv::Mat1f& radiance, double t_s, const ExposureSettings& exposure,
-                   std::mt19937_64* rng) const;
+  cv::Mat1b Expose(const cv::Mat1f& radiance, double t_s, const ExposureSettings& exposure, std::mt19937_64* rng) const;
 
   // Pixel rectangle (clipped to the image) that holds the whole wheel at `pose`.
   cv::Rect WheelBoundingBox(const WheelPose& pose) const;
@@ -148,12 +147,12 @@ class SceneRenderer {
   PinholeCamera camera_;
   WheelLook wheel_;
   SceneLook scene_;
-  cv::Mat1d plane_x_, plane_y_;   // drop-plane point per pixel centre [m]
-  cv::Mat4f jacobian_;            // d(x, y)/d(u, v) per pixel: (dx/du, dx/dv, dy/du, dy/dv) [m/px]
-  cv::Mat1f pixel_size_m_;        // sqrt |det J| [m]
+  cv::Mat1d plane_x_, plane_y_;  // drop-plane point per pixel centre [m]
+  cv::Mat4f jacobian_;           // d(x, y)/d(u, v) per pixel: (dx/du, dx/dv, dy/du, dy/dv) [m/px]
+  cv::Mat1f pixel_size_m_;       // sqrt |det J| [m]
   float max_pixel_size_m_ = 0.0f;
   cv::Mat1f static_radiance_;
-  cv::Mat1f vignetting_unit_;     // (r / r_corner)^2 per pixel
+  cv::Mat1f vignetting_unit_;  // (r / r_corner)^2 per pixel
   mutable std::mutex blurred_static_mutex_;
   mutable std::map<double, cv::Mat1f> blurred_static_;  // static scene per lens blur
 };
@@ -169,13 +168,13 @@ const std::vector<float>& StandardNormalTable();
 // Truth of one frame: the hub at the frame's mid-exposure time.
 struct FrameTruth {
   int frame = 0;
-  double t_s = 0.0;            // mid-exposure time on the clip clock (frame / capture_fps)
-  double x_m = 0.0;            // hub (marker centre) in the drop plane
+  double t_s = 0.0;  // mid-exposure time on the clip clock (frame / capture_fps)
+  double x_m = 0.0;  // hub (marker centre) in the drop plane
   double y_m = 0.0;
-  double u_px = 0.0;           // its image: the drawn marker centre
+  double u_px = 0.0;  // its image: the drawn marker centre
   double v_px = 0.0;
   double spin_rad = 0.0;
-  double vy_mps = 0.0;         // vertical velocity, up positive
+  double vy_mps = 0.0;  // vertical velocity, up positive
   double contact_force_n = 0.0;
   bool in_contact = false;
   bool marker_in_view = true;

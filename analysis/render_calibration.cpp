@@ -40,8 +40,8 @@ double BoardSample(const CheckerboardSpec& board, double bx, double by, double w
   const double s = board.square_m;
   const double x0 = -s, x1 = board.inner_cols * s, y0 = -s, y1 = board.inner_rows * s;  // checkered area
   const double inv_w = 1.0 / w;
-  const double a_board = Ramp((std::min(bx - (x0 - s), (x1 + s) - bx)) * inv_w) *
-                         Ramp((std::min(by - (y0 - s), (y1 + s) - by)) * inv_w);
+  const double a_board =
+      Ramp((std::min(bx - (x0 - s), (x1 + s) - bx)) * inv_w) * Ramp((std::min(by - (y0 - s), (y1 + s) - by)) * inv_w);
   if (a_board <= 0) return bg;
   const double a_area = Ramp(std::min(bx - x0, x1 - bx) * inv_w) * Ramp(std::min(by - y0, y1 - by) * inv_w);
   double value = kBoardWhiteGrey;
@@ -59,8 +59,8 @@ double BoardSample(const CheckerboardSpec& board, double bx, double by, double w
 double BoardEdgeDistance(const CheckerboardSpec& board, double bx, double by) {
   const double s = board.square_m;
   const double x0 = -s, x1 = board.inner_cols * s, y0 = -s, y1 = board.inner_rows * s;
-  double e = std::min({std::abs(bx - (x0 - s)), std::abs(bx - (x1 + s)), std::abs(by - (y0 - s)),
-                       std::abs(by - (y1 + s))});
+  double e =
+      std::min({std::abs(bx - (x0 - s)), std::abs(bx - (x1 + s)), std::abs(by - (y0 - s)), std::abs(by - (y1 + s))});
   if (bx > x0 - s && bx < x1 + s && by > y0 - s && by < y1 + s) {
     // Grid lines (including the checkered area's border) inside the checkered area's reach.
     const double fx = bx / s, fy = by / s;
@@ -116,9 +116,10 @@ struct ViewPlan {
   double tilt_x_deg, tilt_y_deg, turn_deg, frame_x, frame_y;
 };
 constexpr ViewPlan kViewPlans[] = {
-    {8, -6, 3, 0, 0},         {28, 0, 4, 0, -0.35},       {-28, 0, -4, 0, 0.35},     {0, 32, 3, -0.4, 0},
-    {0, -32, -3, 0.4, 0},     {22, 22, 10, -0.35, -0.35}, {-22, 22, -8, -0.35, 0.35}, {22, -22, 8, 0.35, -0.35},
-    {-22, -22, -10, 0.35, 0.35}, {12, -12, 30, 0, 0},     {-15, 10, -25, 0.2, -0.2},  {18, 15, 15, -0.2, 0.25},
+    {8, -6, 3, 0, 0},           {28, 0, 4, 0, -0.35},      {-28, 0, -4, 0, 0.35},
+    {0, 32, 3, -0.4, 0},        {0, -32, -3, 0.4, 0},      {22, 22, 10, -0.35, -0.35},
+    {-22, 22, -8, -0.35, 0.35}, {22, -22, 8, 0.35, -0.35}, {-22, -22, -10, 0.35, 0.35},
+    {12, -12, 30, 0, 0},        {-15, 10, -25, 0.2, -0.2}, {18, 15, 15, -0.2, 0.25},
 };
 
 BoardPose PlanLensView(const PinholeCamera& camera, const CheckerboardSpec& board, const ViewPlan& plan) {
@@ -142,8 +143,9 @@ BoardPose PlanLensView(const PinholeCamera& camera, const CheckerboardSpec& boar
       if (BoardFits(camera, board, pose)) return pose;
     }
   }
-  throw std::invalid_argument("the checkerboard cannot be placed wholly in the frame at any distance; "
-                              "use fewer or larger squares");
+  throw std::invalid_argument(
+      "the checkerboard cannot be placed wholly in the frame at any distance; "
+      "use fewer or larger squares");
 }
 
 cv::Mat1b RenderBoardView(const SceneRenderer& scene, const cv::Mat2d& normalized, const CheckerboardSpec& board,
@@ -223,8 +225,8 @@ std::optional<std::string> ValidateCheckerboard(const CheckerboardSpec& board) {
 double PlaneBoardCornerHeight(const CheckerboardSpec& board) { return 2.0 * board.square_m; }
 
 std::vector<CalibrationImage> RenderCalibrationImages(const SceneRenderer& scene, const CheckerboardSpec& board,
-                                                      int lens_views, const ExposureSettings& exposure,
-                                                      bool add_noise, uint64_t seed) {
+                                                      int lens_views, const ExposureSettings& exposure, bool add_noise,
+                                                      uint64_t seed) {
   if (auto msg = ValidateCheckerboard(board)) throw std::invalid_argument(*msg);
   constexpr int kMaxViews = static_cast<int>(std::size(kViewPlans));
   if (lens_views < 1 || lens_views > kMaxViews) {

@@ -42,10 +42,10 @@ std::optional<std::string> ValidateCheckerboard(const CheckerboardSpec& board);
 double PlaneBoardCornerHeight(const CheckerboardSpec& board);
 
 struct CalibrationImage {
-  std::string name;                         // e.g. "lens_03", "plane"
+  std::string name;  // e.g. "lens_03", "plane"
   cv::Mat1b image;
-  bool drop_plane = false;                  // the plane view
-  cv::Vec3d board_rvec_rad, board_tvec_m;   // camera_from_board (OpenCV's pose convention)
+  bool drop_plane = false;                    // the plane view
+  cv::Vec3d board_rvec_rad, board_tvec_m;     // camera_from_board (OpenCV's pose convention)
   std::vector<cv::Point2d> inner_corners_px;  // true image of every inner corner, row by row
                                               // (j outer, i inner), OpenCV pixel convention
 };
@@ -55,7 +55,7 @@ struct CalibrationImage {
 // `exposure` (its noise when add_noise). Deterministic for a given seed. Throws
 // std::invalid_argument on a bad board or count, or when the board cannot fit in the frame.
 std::vector<CalibrationImage> RenderCalibrationImages(const SceneRenderer& scene, const CheckerboardSpec& board,
-                                                      int lens_views, const ExposureSettings& exposure,
-                                                      bool add_noise, uint64_t seed);
+                                                      int lens_views, const ExposureSettings& exposure, bool add_noise,
+                                                      uint64_t seed);
 
 }  // namespace dropfit::analysis

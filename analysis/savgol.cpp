@@ -32,8 +32,8 @@ std::optional<std::string> ValidateSavgolOptions(const SavgolOptions& options) {
     return msg.str();
   }
   if (options.window % 2 == 0 || options.window < options.order + 2 || options.window > kMaxWindow) {
-    msg << "window = " << options.window << " must be odd, >= order + 2 = " << options.order + 2 << " and <= "
-        << kMaxWindow;
+    msg << "window = " << options.window << " must be odd, >= order + 2 = " << options.order + 2
+        << " and <= " << kMaxWindow;
     return msg.str();
   }
   return std::nullopt;

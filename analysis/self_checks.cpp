@@ -109,8 +109,8 @@ SelfCheckReport RunSelfChecks(const Segmentation& seg, const std::vector<ImpactF
     tilt.flagged = std::abs(angle) > std::max(options.tilt_tolerance_deg, 3.0 * angle_sd);
     if (tilt.flagged) {
       std::ostringstream msg;
-      msg << std::fixed << std::setprecision(2) << "tilt check: gravity is " << std::abs(angle) << " +- " << SdText(angle_sd)
-          << " degrees off the rig's vertical (towards " << (angle > 0.0 ? "+x" : "-x")
+      msg << std::fixed << std::setprecision(2) << "tilt check: gravity is " << std::abs(angle) << " +- "
+          << SdText(angle_sd) << " degrees off the rig's vertical (towards " << (angle > 0.0 ? "+x" : "-x")
           << "): the camera is rolled against the board's up direction, or the board is not vertical; "
              "heights and speeds are then measured along a tilted axis (speeds low by "
           << std::setprecision(3) << (1.0 - std::cos(angle / kRadToDeg)) * 100.0 << " %)";
@@ -127,14 +127,15 @@ SelfCheckReport RunSelfChecks(const Segmentation& seg, const std::vector<ImpactF
     dh.expected_speed_mps = std::sqrt(2.0 * g * dh.nominal_height_m);
     dh.implied_height_m = dh.impact_speed_mps.value * dh.impact_speed_mps.value / (2.0 * g);
     const double rel = dh.impact_speed_mps.value / dh.expected_speed_mps - 1.0;
-    dh.flagged = std::abs(rel) > std::max(options.impact_speed_tolerance,
-                                          3.0 * dh.impact_speed_mps.sd / dh.expected_speed_mps);
+    dh.flagged =
+        std::abs(rel) > std::max(options.impact_speed_tolerance, 3.0 * dh.impact_speed_mps.sd / dh.expected_speed_mps);
     if (dh.flagged) {
       std::ostringstream msg;
-      msg << std::fixed << std::setprecision(3) << "drop-height check: the first impact speed " << dh.impact_speed_mps.value
-          << " m/s is " << std::setprecision(1) << std::abs(rel) * 100.0 << " % " << (rel > 0 ? "above" : "below")
-          << std::setprecision(3) << " sqrt(2 g h) = " << dh.expected_speed_mps << " m/s for the nominal "
-          << dh.nominal_height_m << " m; it corresponds to a fall of " << dh.implied_height_m << " m. "
+      msg << std::fixed << std::setprecision(3) << "drop-height check: the first impact speed "
+          << dh.impact_speed_mps.value << " m/s is " << std::setprecision(1) << std::abs(rel) * 100.0 << " % "
+          << (rel > 0 ? "above" : "below") << std::setprecision(3) << " sqrt(2 g h) = " << dh.expected_speed_mps
+          << " m/s for the nominal " << dh.nominal_height_m << " m; it corresponds to a fall of " << dh.implied_height_m
+          << " m. "
           << (rel > 0 ? "Check the nominal height, or a push at release"
                       : "Check the nominal height, or a release that drags (or a first contact before the clip)")
           << (gc.flagged ? "; the gravity check's rate or scale error changes this speed too" : "");

@@ -37,35 +37,35 @@
 namespace dropfit::analysis {
 
 struct SelfCheckOptions {
-  double gravity_mps2 = 9.80665;          // expected gravity [m/s^2], (0, 100]
-  std::optional<double> capture_fps;      // rate used [frames/s], to word a rate correction
-  std::optional<double> drop_height_m;    // nominal drop height [m], > 0
-  double gravity_tolerance = 0.005;       // fraction; [0, 0.5]; local g is within about ±0.3 %
-  double tilt_tolerance_deg = 1.0;        // degrees; [0, 45]
-  double impact_speed_tolerance = 0.01;   // fraction (about 2 % in height); [0, 0.5]
+  double gravity_mps2 = 9.80665;         // expected gravity [m/s^2], (0, 100]
+  std::optional<double> capture_fps;     // rate used [frames/s], to word a rate correction
+  std::optional<double> drop_height_m;   // nominal drop height [m], > 0
+  double gravity_tolerance = 0.005;      // fraction; [0, 0.5]; local g is within about ±0.3 %
+  double tilt_tolerance_deg = 1.0;       // degrees; [0, 45]
+  double impact_speed_tolerance = 0.01;  // fraction (about 2 % in height); [0, 0.5]
 };
 std::optional<std::string> ValidateSelfCheckOptions(const SelfCheckOptions& options);
 
 struct GravityCheckResult {
-  Estimate flight_accel_mps2;      // measured, downward positive; NaN without a flight
+  Estimate flight_accel_mps2;  // measured, downward positive; NaN without a flight
   double expected_mps2 = 9.80665;
-  double ratio = 0.0;              // measured / expected
+  double ratio = 0.0;  // measured / expected
   int flights_used = 0;
-  double rate_factor = 0.0;        // sqrt(expected / measured): true rate / rate used, if rate is the cause
-  double scale_factor = 0.0;       // expected / measured: true / used metres per pixel, if scale is the cause
+  double rate_factor = 0.0;   // sqrt(expected / measured): true rate / rate used, if rate is the cause
+  double scale_factor = 0.0;  // expected / measured: true / used metres per pixel, if scale is the cause
   bool flagged = false;
 };
 
 struct TiltCheckResult {
-  Estimate tilt_deg;               // gravity's angle to the rig's down, positive towards +x_m
+  Estimate tilt_deg;  // gravity's angle to the rig's down, positive towards +x_m
   bool flagged = false;
 };
 
 struct DropHeightCheckResult {
-  Estimate impact_speed_mps;       // first impact, measured
-  double expected_speed_mps = 0.0; // sqrt(2 g h_nominal)
+  Estimate impact_speed_mps;        // first impact, measured
+  double expected_speed_mps = 0.0;  // sqrt(2 g h_nominal)
   double nominal_height_m = 0.0;
-  double implied_height_m = 0.0;   // v^2 / (2 g)
+  double implied_height_m = 0.0;  // v^2 / (2 g)
   bool flagged = false;
 };
 

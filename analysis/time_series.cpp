@@ -16,8 +16,8 @@ int TimeSeries::CountValid() const {
 TimeSeries MakeTimeSeries(int frames, double capture_fps, int first_frame) {
   if (!(std::isfinite(capture_fps) && capture_fps > 0.0) || frames < 0) {
     std::ostringstream msg;
-    msg << "MakeTimeSeries: need a finite capture rate > 0 and frames >= 0, got capture_fps = "
-        << capture_fps << ", frames = " << frames;
+    msg << "MakeTimeSeries: need a finite capture rate > 0 and frames >= 0, got capture_fps = " << capture_fps
+        << ", frames = " << frames;
     throw std::invalid_argument(msg.str());
   }
   TimeSeries series;
@@ -48,8 +48,8 @@ std::optional<std::string> ValidateTimeSeries(const TimeSeries& series) {
     // Times must lie on the frame grid (to 1e-6 of a frame: rounding only).
     const double expected = series.t_s[0] + static_cast<double>(i) * series.frame_interval_s;
     if (!std::isfinite(series.t_s[i]) || std::abs(series.t_s[i] - expected) > 1e-6 * series.frame_interval_s) {
-      msg << "sample " << i << ": t_s = " << series.t_s[i] << " s is not on the frame grid (expected "
-          << expected << " s); samples must be consecutive frames";
+      msg << "sample " << i << ": t_s = " << series.t_s[i] << " s is not on the frame grid (expected " << expected
+          << " s); samples must be consecutive frames";
       return msg.str();
     }
     if (series.valid[i] && !(std::isfinite(series.x_m[i]) && std::isfinite(series.y_m[i]))) {

@@ -139,10 +139,14 @@ VideoFormat VideoFormatFromString(const std::string& text) {
 
 std::string FileExtension(VideoFormat format) {
   switch (format) {
-    case VideoFormat::kMjpgAvi: return ".avi";
-    case VideoFormat::kFfv1Mov: return ".mov";
-    case VideoFormat::kH264Mp4: return ".mp4";
-    case VideoFormat::kPngFrames: return "";
+    case VideoFormat::kMjpgAvi:
+      return ".avi";
+    case VideoFormat::kFfv1Mov:
+      return ".mov";
+    case VideoFormat::kH264Mp4:
+      return ".mp4";
+    case VideoFormat::kPngFrames:
+      return "";
   }
   return "";
 }
@@ -158,11 +162,11 @@ std::unique_ptr<FrameSink> OpenFrameSink(const std::filesystem::path& path, Vide
     case VideoFormat::kMjpgAvi:
       return std::make_unique<MjpgAviWriter>(path, frame_size, container_fps, jpeg_quality);
     case VideoFormat::kFfv1Mov:
-      return std::make_unique<OpenCvSink>(path, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), frame_size,
-                                          container_fps, "FFV1");
+      return std::make_unique<OpenCvSink>(path, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), frame_size, container_fps,
+                                          "FFV1");
     case VideoFormat::kH264Mp4:
-      return std::make_unique<OpenCvSink>(path, cv::VideoWriter::fourcc('a', 'v', 'c', '1'), frame_size,
-                                          container_fps, "H.264");
+      return std::make_unique<OpenCvSink>(path, cv::VideoWriter::fourcc('a', 'v', 'c', '1'), frame_size, container_fps,
+                                          "H.264");
     case VideoFormat::kPngFrames:
       return std::make_unique<PngSink>(path, frame_size);
   }
@@ -171,7 +175,10 @@ std::unique_ptr<FrameSink> OpenFrameSink(const std::filesystem::path& path, Vide
 
 MjpgAviWriter::MjpgAviWriter(const std::filesystem::path& path, cv::Size frame_size, double container_fps,
                              int jpeg_quality)
-    : path_(path), size_(frame_size), fps_(container_fps), quality_(jpeg_quality),
+    : path_(path),
+      size_(frame_size),
+      fps_(container_fps),
+      quality_(jpeg_quality),
       file_(std::fopen(path.string().c_str(), "wb"), &std::fclose) {
   CheckSize(frame_size);
   if (!(jpeg_quality >= 1 && jpeg_quality <= 100)) {
@@ -260,14 +267,14 @@ void MjpgAviWriter::Close() {
   // AVIMAINHEADER
   PutFourcc(b, "avih");
   Put32(b, kAvihBytes);
-  Put32(b, static_cast<uint32_t>(std::llround(1e6 / fps_)));  // dwMicroSecPerFrame
+  Put32(b, static_cast<uint32_t>(std::llround(1e6 / fps_)));          // dwMicroSecPerFrame
   Put32(b, static_cast<uint32_t>(std::min(4e9, max_chunk_ * fps_)));  // dwMaxBytesPerSec
-  Put32(b, 0);                                              // dwPaddingGranularity
-  Put32(b, 0x10);                                           // dwFlags: AVIF_HASINDEX
-  Put32(b, frames);                                         // dwTotalFrames
-  Put32(b, 0);                                              // dwInitialFrames
-  Put32(b, 1);                                              // dwStreams
-  Put32(b, max_chunk_ + 8);                                 // dwSuggestedBufferSize
+  Put32(b, 0);                                                        // dwPaddingGranularity
+  Put32(b, 0x10);                                                     // dwFlags: AVIF_HASINDEX
+  Put32(b, frames);                                                   // dwTotalFrames
+  Put32(b, 0);                                                        // dwInitialFrames
+  Put32(b, 1);                                                        // dwStreams
+  Put32(b, max_chunk_ + 8);                                           // dwSuggestedBufferSize
   Put32(b, w);
   Put32(b, h);
   for (int i = 0; i < 4; ++i) Put32(b, 0);  // dwReserved
@@ -279,13 +286,13 @@ void MjpgAviWriter::Close() {
   Put32(b, kStrhBytes);
   PutFourcc(b, "vids");
   PutFourcc(b, "MJPG");
-  Put32(b, 0);   // dwFlags
-  Put16(b, 0);   // wPriority
-  Put16(b, 0);   // wLanguage
-  Put32(b, 0);   // dwInitialFrames
+  Put32(b, 0);  // dwFlags
+  Put16(b, 0);  // wPriority
+  Put16(b, 0);  // wLanguage
+  Put32(b, 0);  // dwInitialFrames
   Put32(b, scale);
   Put32(b, rate);
-  Put32(b, 0);   // dwStart
+  Put32(b, 0);  // dwStart
   Put32(b, frames);
   Put32(b, max_chunk_ + 8);
   Put32(b, 0xFFFFFFFFu);  // dwQuality: default

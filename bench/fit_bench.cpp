@@ -14,10 +14,10 @@
 //      height, BIC rank of the true law, holdout COR error.
 #include <glog/logging.h>
 
-#include <ctime>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
+#include <ctime>
 #include <string>
 #include <vector>
 
@@ -37,22 +37,32 @@ TreadGeometry Tread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
 
 std::vector<double> Truth(LawId law) {
   switch (law) {
-    case LawId::kKelvinVoigt: return {2e5, 300.0};
-    case LawId::kHuntCrossley: return {2.5e7, 1.7, 0.2};
-    case LawId::kHertz: return {1e7, 1.5, 0.15};
-    case LawId::kBilinear: return {1e5, 4e5, 0.006, 200.0};
-    case LawId::kVolumetric: return {2.5e7, 0.2};
+    case LawId::kKelvinVoigt:
+      return {2e5, 300.0};
+    case LawId::kHuntCrossley:
+      return {2.5e7, 1.7, 0.2};
+    case LawId::kHertz:
+      return {1e7, 1.5, 0.15};
+    case LawId::kBilinear:
+      return {1e5, 4e5, 0.006, 200.0};
+    case LawId::kVolumetric:
+      return {2.5e7, 0.2};
   }
   return {};
 }
 
 int DampingIndex(LawId law) {
   switch (law) {
-    case LawId::kKelvinVoigt: return 1;
-    case LawId::kHuntCrossley: return 2;
-    case LawId::kHertz: return 2;
-    case LawId::kBilinear: return 3;
-    case LawId::kVolumetric: return 1;
+    case LawId::kKelvinVoigt:
+      return 1;
+    case LawId::kHuntCrossley:
+      return 2;
+    case LawId::kHertz:
+      return 2;
+    case LawId::kBilinear:
+      return 3;
+    case LawId::kVolumetric:
+      return 1;
   }
   return 0;
 }
@@ -131,9 +141,10 @@ void JointTwelveClips() {
   const JointFitResult joint = FitJoint(LawId::kHuntCrossley, clips, Options());
   std::printf("hunt-crossley joint fit + leave-one-height-out (4 heights): %.3f s\n", Seconds(t0));
   for (const HoldoutError& h : joint.holdout) {
-    std::printf("  held out %.2f m: cor_error %+.4f (max |.| %.4f)  duration_error %+.3f ms  deflection_error %+.3f mm%s\n",
-                h.drop_height_m, h.cor_error, h.cor_error_max_abs, 1e3 * h.contact_duration_error_s,
-                1e3 * h.max_deflection_error_m, h.failure ? (" FAILED: " + *h.failure).c_str() : "");
+    std::printf(
+        "  held out %.2f m: cor_error %+.4f (max |.| %.4f)  duration_error %+.3f ms  deflection_error %+.3f mm%s\n",
+        h.drop_height_m, h.cor_error, h.cor_error_max_abs, 1e3 * h.contact_duration_error_s,
+        1e3 * h.max_deflection_error_m, h.failure ? (" FAILED: " + *h.failure).c_str() : "");
   }
 }
 
@@ -168,17 +179,18 @@ void Recovery(int clips_per_law) {
       }
       if (all.best) {
         const LawFitResult& best = all.fits[*all.best];
-        if (best.law == truth || ((LawNests(best.law, truth) || truth == LawId::kHertz ||
-                                   truth == LawId::kVolumetric) &&
-                                  fit.bic - best.bic < 2.0))
+        if (best.law == truth ||
+            ((LawNests(best.law, truth) || truth == LawId::kHertz || truth == LawId::kVolumetric) &&
+             fit.bic - best.bic < 2.0))
           ++rank_ok;
       }
     }
     std::printf("%-14s %10.3f %10.3f %9.4f %11.4f %10.3f %12.0f\n", ToString(truth).c_str(), 100 * worst_stiff,
                 100 * worst_damp, worst_exp, 1e3 * worst_tc, 100 * worst_peak, 100.0 * rank_ok / clips_per_law);
   }
-  std::printf("(worst over the clips; targets: stiffness 2 %%, damping 10 %%, exponent 0.05, t_c 0.1 ms, peak 3 %%,"
-              " rank >= 90 %%; hertz vs volumetric-cylinder counted as numerically equivalent)\n");
+  std::printf(
+      "(worst over the clips; targets: stiffness 2 %%, damping 10 %%, exponent 0.05, t_c 0.1 ms, peak 3 %%,"
+      " rank >= 90 %%; hertz vs volumetric-cylinder counted as numerically equivalent)\n");
 
   std::printf("\n== 3b. recovery, joint fits over 3 heights (0.1, 0.2, 0.35 m), geometry fitted\n");
   std::printf("%-14s %10s %10s %9s %11s %12s %10s\n", "truth", "stiff_%", "damp_%", "exp_abs", "onset_mm",
@@ -186,7 +198,8 @@ void Recovery(int clips_per_law) {
   for (LawId truth : AllLaws()) {
     std::vector<FitClip> clips;
     double dmax = 0;
-    for (size_t i = 0; i < heights.size(); ++i) clips.push_back(Clip(truth, heights[i], 700 + i, false, i == 1 ? &dmax : nullptr));
+    for (size_t i = 0; i < heights.size(); ++i)
+      clips.push_back(Clip(truth, heights[i], 700 + i, false, i == 1 ? &dmax : nullptr));
     const Clock t0;
     const JointFitResult joint = FitJoint(truth, clips, Options());
     const double dt = Seconds(t0);
@@ -203,7 +216,8 @@ void Recovery(int clips_per_law) {
     double holdout = 0.0;
     for (const HoldoutError& h : joint.holdout) holdout = std::max(holdout, h.failure ? 1.0 : h.cor_error_max_abs);
     std::printf("%-14s %10.3f %10.3f %9.4f %11.4f %12.4f %10.2f\n", ToString(truth).c_str(), 100 * stiff,
-                100 * std::abs(fit.params[d] / t[d] - 1.0), truth == LawId::kHuntCrossley ? std::abs(fit.params[1] - t[1]) : 0.0,
+                100 * std::abs(fit.params[d] / t[d] - 1.0),
+                truth == LawId::kHuntCrossley ? std::abs(fit.params[1] - t[1]) : 0.0,
                 1e3 * std::abs(fit.onset_height_m - kOnsetM), holdout, dt);
   }
   std::printf("(targets: onset 0.2 mm, holdout COR 0.01)\n");

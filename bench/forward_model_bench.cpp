@@ -39,12 +39,9 @@ double SecondsPerCall(int repetitions, F&& call) {
 
 int main(int argc, char** argv) {
   const int repetitions = argc > 1 ? std::atoi(argv[1]) : 200;
-  const Case cases[] = {{LawId::kKelvinVoigt, {2e5, 300}, false},
-                        {LawId::kHuntCrossley, {1e7, 1.4, 0.2}, false},
-                        {LawId::kHertz, {1e7, 1.5, 0.2}, false},
-                        {LawId::kBilinear, {1e5, 3e5, 0.004, 200}, false},
-                        {LawId::kVolumetric, {2e7, 0.3}, false},
-                        {LawId::kVolumetric, {2e7, 0.3}, true}};
+  const Case cases[] = {{LawId::kKelvinVoigt, {2e5, 300}, false}, {LawId::kHuntCrossley, {1e7, 1.4, 0.2}, false},
+                        {LawId::kHertz, {1e7, 1.5, 0.2}, false},  {LawId::kBilinear, {1e5, 3e5, 0.004, 200}, false},
+                        {LawId::kVolumetric, {2e7, 0.3}, false},  {LawId::kVolumetric, {2e7, 0.3}, true}};
   std::vector<double> times;
   for (int i = 0; i <= 200; ++i) times.push_back(0.0005 * i);
   const int n = static_cast<int>(times.size());
@@ -89,8 +86,7 @@ int main(int argc, char** argv) {
     char name[64];
     std::snprintf(name, sizeof(name), "%s%s", dropfit::analysis::ToString(c.law).c_str(),
                   c.law == LawId::kVolumetric ? (c.torus ? " (torus)" : " (cylinder)") : "");
-    std::printf("%-24s %8d %10d %12.1f %12.1f %14.2g\n", name, steps, fit_steps, t_double * 1e6, t_jet * 1e6,
-                worst_m);
+    std::printf("%-24s %8d %10d %12.1f %12.1f %14.2g\n", name, steps, fit_steps, t_double * 1e6, t_jet * 1e6, worst_m);
   }
   return 0;
 }

@@ -52,8 +52,8 @@ struct MaxErrors {
     ++bounces;
   }
   void Print(const std::string& label) const {
-    std::printf("%-44s bounces %3d  fails %d  |COR| %.5f  |v_in| %.4f %%  |defl| %.4f mm  |dur| %.3f ms",
-                label.c_str(), bounces, failures, cor, 100 * speed_rel, 1e3 * deflection_m, 1e3 * duration_s);
+    std::printf("%-44s bounces %3d  fails %d  |COR| %.5f  |v_in| %.4f %%  |defl| %.4f mm  |dur| %.3f ms", label.c_str(),
+                bounces, failures, cor, 100 * speed_rel, 1e3 * deflection_m, 1e3 * duration_s);
     if (later > 0) std::printf("  later bounces: %d, COR beyond 5 sd: %d", later, later_beyond_5sd);
     std::printf("\n");
   }
@@ -132,8 +132,9 @@ void ForwardModelSweep() {
 }
 
 void RenderedClips(const fs::path& work) {
-  std::printf("== rendered clips (dropfit render defaults: 5 kg, 800x640, 2000 fps; 0.3 m), tracked and analysed"
-              " by `dropfit analyze` with --free-radius ==\n");
+  std::printf(
+      "== rendered clips (dropfit render defaults: 5 kg, 800x640, 2000 fps; 0.3 m), tracked and analysed"
+      " by `dropfit analyze` with --free-radius ==\n");
   for (bool clean : {true, false}) {
     MaxErrors all;
     for (const LawCase& c : Laws()) {
@@ -177,7 +178,8 @@ void RenderedClips(const fs::path& work) {
           all.Add(e[0], e[1], e[2], e[3]);
         }
         const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-        one.Print("  " + std::string(clean ? "clean " : "reference ") + law + " (" + std::to_string(int(seconds)) + " s)");
+        one.Print("  " + std::string(clean ? "clean " : "reference ") + law + " (" + std::to_string(int(seconds)) +
+                  " s)");
       }
     }
     all.Print(clean ? "ALL clean rendered clips" : "ALL reference-condition clips");
@@ -191,8 +193,10 @@ int main(int argc, char** argv) {
   fs::path work = fs::temp_directory_path() / ("dropfit_kinematics_bench_" + std::to_string(::getpid()));
   for (int i = 1; i < argc; ++i) {
     const std::string a = argv[i];
-    if (a == "--no-render") render = false;
-    else if (a == "--work" && i + 1 < argc) work = argv[++i];
+    if (a == "--no-render")
+      render = false;
+    else if (a == "--work" && i + 1 < argc)
+      work = argv[++i];
     else {
       std::fprintf(stderr, "usage: kinematics_bench [--no-render] [--work DIR]\n");
       return 2;

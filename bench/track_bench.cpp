@@ -28,9 +28,9 @@
 #include <opencv2/videoio.hpp>
 
 #include <chrono>
-#include <ctime>
 #include <cmath>
 #include <cstdio>
+#include <ctime>
 #include <filesystem>
 #include <iostream>
 #include <sstream>
@@ -94,10 +94,9 @@ struct Accuracy {
 // Otsu threshold in a window of 2 x diameter around the truth; centroid of the bright class.
 bool OtsuCentroid(const cv::Mat& grey, cv::Point2d centre, double diameter_px, cv::Point2d& out) {
   const int half = static_cast<int>(std::lround(diameter_px));
-  const cv::Rect win =
-      cv::Rect(static_cast<int>(std::lround(centre.x)) - half, static_cast<int>(std::lround(centre.y)) - half,
-               2 * half + 1, 2 * half + 1) &
-      cv::Rect(0, 0, grey.cols, grey.rows);
+  const cv::Rect win = cv::Rect(static_cast<int>(std::lround(centre.x)) - half,
+                                static_cast<int>(std::lround(centre.y)) - half, 2 * half + 1, 2 * half + 1) &
+                       cv::Rect(0, 0, grey.cols, grey.rows);
   if (win.width < 4 || win.height < 4) return false;
   cv::Mat bin;
   cv::threshold(grey(win), bin, 0, 255, cv::THRESH_BINARY | cv::THRESH_OTSU);
@@ -150,7 +149,7 @@ Row RunOne(const std::string& kind, double noise, const Args& args, const fs::pa
   drop.setup.mass_kg = 12.0;
   drop.law_params = {3.0e5, 400.0};  // Kelvin-Voigt k [N/m], c [N s/m]
   drop.onset_height_m = wheel.free_radius_m;
-  drop.start_height_m = 0.62;        // about 3 m/s at impact: the upper hub speed
+  drop.start_height_m = 0.62;  // about 3 m/s at impact: the upper hub speed
   drop.start_x_m = 0.17;
   drop.drift_speed_mps = 0.15;
   drop.spin_rate_radps = 6.0;
@@ -163,8 +162,8 @@ Row RunOne(const std::string& kind, double noise, const Args& args, const fs::pa
   const fs::path clip = dir / (kind + "_noise" + std::to_string(static_cast<int>(noise)) + ".avi");
   std::vector<analysis::FrameTruth> truth;
   {
-    auto sink = analysis::OpenFrameSink(clip, analysis::VideoFormat::kMjpgAvi, renderer.image_size(), 1000.0,
-                                        args.quality);
+    auto sink =
+        analysis::OpenFrameSink(clip, analysis::VideoFormat::kMjpgAvi, renderer.image_size(), 1000.0, args.quality);
     truth = analysis::RenderClip(renderer, trajectory, args.frames, fps, exposure, true,
                                  0x5eed0000u + static_cast<uint64_t>(noise * 10), *sink);
     sink->Close();
@@ -281,9 +280,10 @@ int main(int argc, char** argv) {
       return 2;
     }
   }
-  const fs::path dir = args.keep.empty() ? fs::temp_directory_path() / ("dropfit_track_bench_" +
-                                                                        std::to_string(Clock::now().time_since_epoch().count()))
-                                         : fs::path(args.keep);
+  const fs::path dir = args.keep.empty()
+                           ? fs::temp_directory_path() /
+                                 ("dropfit_track_bench_" + std::to_string(Clock::now().time_since_epoch().count()))
+                           : fs::path(args.keep);
   fs::create_directories(dir);
   std::vector<Row> rows;
   for (const std::string& kind : args.kinds) {
@@ -295,21 +295,24 @@ int main(int argc, char** argv) {
   }
   std::printf("\nRendered drop clips: 800x640, 2000 frames/s, exposure 0.2 ms, MJPG q%d, %d frames each.\n",
               args.quality, args.frames);
-  std::printf("RMS = radial RMS error against the mid-exposure truth [px]; %% = share of frames with the marker in "
-              "view that were tracked.\n\n");
-  std::printf("| marker | noise | dropfit RMS | %% | Otsu+centroid RMS | CSRT RMS | %% | KCF RMS | %% | decode fps | "
-              "decode+track fps | whole/decode time | one-core whole/decode (CPU) | decode fps (CPU) | track-only fps (CPU) | first-frame search ms | "
-              "CSRT fps | KCF fps |\n");
+  std::printf(
+      "RMS = radial RMS error against the mid-exposure truth [px]; %% = share of frames with the marker in "
+      "view that were tracked.\n\n");
+  std::printf(
+      "| marker | noise | dropfit RMS | %% | Otsu+centroid RMS | CSRT RMS | %% | KCF RMS | %% | decode fps | "
+      "decode+track fps | whole/decode time | one-core whole/decode (CPU) | decode fps (CPU) | track-only fps (CPU) | "
+      "first-frame search ms | "
+      "CSRT fps | KCF fps |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|\n");
   for (const Row& r : rows) {
     std::printf(
-        "| %s | %g | %.4f | %.2f | %.4f | %.3f | %.1f | %.3f | %.1f | %.0f | %.0f | %.3f | %.3f | %.0f | %.0f | %.0f | %.0f | "
+        "| %s | %g | %.4f | %.2f | %.4f | %.3f | %.1f | %.3f | %.1f | %.0f | %.0f | %.3f | %.3f | %.0f | %.0f | %.0f | "
+        "%.0f | "
         "%.0f |\n",
         r.kind.c_str(), r.noise, r.ours.Rms(), r.ours.Share(), r.otsu.Rms(), r.csrt.Rms(), r.csrt.Share(), r.kcf.Rms(),
         r.kcf.Share(), r.decode_fps, r.whole_fps, r.decode_fps / r.whole_fps,
         1.0 + r.decode_cpu_fps / r.track_fps + 1e-3 * r.detect_ms * r.decode_cpu_fps / args.frames, r.decode_cpu_fps,
-        r.track_fps,
-        r.detect_ms, r.csrt_fps, r.kcf_fps);
+        r.track_fps, r.detect_ms, r.csrt_fps, r.kcf_fps);
   }
   if (args.keep.empty()) fs::remove_all(dir);
   return 0;

@@ -59,7 +59,8 @@ double Bilinear(const cv::Mat& grey, double x, double y) {
   const int y0 = std::clamp(static_cast<int>(std::floor(y)), 0, grey.rows - 2);
   const double fx = std::clamp(x - x0, 0.0, 1.0), fy = std::clamp(y - y0, 0.0, 1.0);
   const auto at = [&](int yy, int xx) { return static_cast<double>(grey.at<uchar>(yy, xx)); };
-  return (1 - fy) * ((1 - fx) * at(y0, x0) + fx * at(y0, x0 + 1)) + fy * ((1 - fx) * at(y0 + 1, x0) + fx * at(y0 + 1, x0 + 1));
+  return (1 - fy) * ((1 - fx) * at(y0, x0) + fx * at(y0, x0 + 1)) +
+         fy * ((1 - fx) * at(y0 + 1, x0) + fx * at(y0 + 1, x0 + 1));
 }
 
 double Median(std::vector<double> v) {
@@ -108,8 +109,9 @@ LensFit FitLens(const std::vector<std::vector<cv::Point3f>>& object, const std::
   for (const Candidate& c : candidates) {
     cv::Mat k, dist;
     std::vector<cv::Mat> rvecs, tvecs;
-    const double rms = cv::calibrateCamera(object, image, size, k, dist, rvecs, tvecs, c.flags,
-                                           cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, DBL_EPSILON));
+    const double rms =
+        cv::calibrateCamera(object, image, size, k, dist, rvecs, tvecs, c.flags,
+                            cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, DBL_EPSILON));
     if (!std::isfinite(rms)) continue;
     // BIC (Schwarz 1978) with RSS/n = rms^2 / 2; the constant offset does not change the choice.
     const double bic = n * std::log(std::max(rms * rms, 1e-300)) + c.n_terms * std::log(n);
@@ -259,9 +261,11 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& o) {
   if (o.capture_fps && !(std::isfinite(*o.capture_fps) && *o.capture_fps > 0)) {
     return bad("capture_fps", *o.capture_fps, "> 0 frames/s");
   }
-  if (o.min_lens_views < kFewestLensViews || o.min_lens_views > 1000) return bad("min_lens_views", o.min_lens_views, "3..1000");
+  if (o.min_lens_views < kFewestLensViews || o.min_lens_views > 1000)
+    return bad("min_lens_views", o.min_lens_views, "3..1000");
   if (!(o.max_rms_px > 0)) return bad("max_rms_px", o.max_rms_px, "> 0 px");
-  if (!(o.warn_rms_px > 0 && o.warn_rms_px <= o.max_rms_px)) return bad("warn_rms_px", o.warn_rms_px, "> 0 px, <= max_rms_px");
+  if (!(o.warn_rms_px > 0 && o.warn_rms_px <= o.max_rms_px))
+    return bad("warn_rms_px", o.warn_rms_px, "> 0 px, <= max_rms_px");
   if (!(o.outlier_factor > 1)) return bad("outlier_factor", o.outlier_factor, "> 1");
   if (!(o.outlier_floor_px >= 0)) return bad("outlier_floor_px", o.outlier_floor_px, ">= 0 px");
   if (!(o.max_blur_px > 0)) return bad("max_blur_px", o.max_blur_px, "> 0 px");
@@ -271,8 +275,10 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& o) {
   if (!(o.min_views_coverage_fraction >= 0 && o.min_views_coverage_fraction <= 1)) {
     return bad("min_views_coverage_fraction", o.min_views_coverage_fraction, "0..1");
   }
-  if (!(o.min_tilt_spread_deg >= 0 && o.min_tilt_spread_deg <= 90)) return bad("min_tilt_spread_deg", o.min_tilt_spread_deg, "0..90 deg");
-  if (o.subpix_half_window_px < 2 || o.subpix_half_window_px > 30) return bad("subpix_half_window_px", o.subpix_half_window_px, "2..30 px");
+  if (!(o.min_tilt_spread_deg >= 0 && o.min_tilt_spread_deg <= 90))
+    return bad("min_tilt_spread_deg", o.min_tilt_spread_deg, "0..90 deg");
+  if (o.subpix_half_window_px < 2 || o.subpix_half_window_px > 30)
+    return bad("subpix_half_window_px", o.subpix_half_window_px, "2..30 px");
   if (o.max_video_views < 3 || o.max_video_views > 200) return bad("max_video_views", o.max_video_views, "3..200");
   if (o.video_candidates_per_view < 1 || o.video_candidates_per_view > 20) {
     return bad("video_candidates_per_view", o.video_candidates_per_view, "1..20");
@@ -292,7 +298,8 @@ double EstimateEdgeBlurPx(const cv::Mat& grey, const std::vector<cv::Point2f>& c
     const cv::Point2d mid((a.x + b.x) / 2.0, (a.y + b.y) / 2.0), nrm(-d.y / len, d.x / len);
     const double reach = std::min(0.35 * len, kMaxReachPx);
     std::vector<double> p;
-    for (double t = -reach; t <= reach + 1e-9; t += kStepPx) p.push_back(Bilinear(grey, mid.x + t * nrm.x, mid.y + t * nrm.y));
+    for (double t = -reach; t <= reach + 1e-9; t += kStepPx)
+      p.push_back(Bilinear(grey, mid.x + t * nrm.x, mid.y + t * nrm.y));
     if (p.size() < 8) return;
     if (p.back() < p.front()) std::reverse(p.begin(), p.end());
     const double lo = (p[0] + p[1] + p[2]) / 3.0, hi = (p[p.size() - 1] + p[p.size() - 2] + p[p.size() - 3]) / 3.0;
@@ -370,7 +377,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
       no_board.push_back(v.name);
     } else if (d.blur_px > options.max_blur_px) {
       blurred.push_back(v.name);
-      dropped.push_back(v.name + ": blurred (edge blur " + Fmt(d.blur_px, 1) + " px, limit " + Num(options.max_blur_px) + " px)");
+      dropped.push_back(v.name + ": blurred (edge blur " + Fmt(d.blur_px, 1) + " px, limit " +
+                        Num(options.max_blur_px) + " px)");
     } else {
       usable.push_back({v.name, std::move(d)});
     }
@@ -385,12 +393,14 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
                     other->second + ": pass --board " + BoardSizeToString(other->first) +
                     " (inner corners, not squares)");
     }
-    return refuse(msg + "; check --board (count inner corners, not squares: a board of 10 x 7 squares has 9x6 inner "
-                        "corners) and that the whole board, with its white border, is in view and in focus");
+    return refuse(msg +
+                  "; check --board (count inner corners, not squares: a board of 10 x 7 squares has 9x6 inner "
+                  "corners) and that the whole board, with its white border, is in view and in focus");
   }
   if (!plane_det.found) {
-    return refuse("no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
-                  ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it");
+    return refuse(
+        "no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
+        ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it");
   }
   if (plane_det.blur_px > options.max_blur_px) {
     const std::string msg = "the plane view " + plane.name + " is blurred (edge blur " + Fmt(plane_det.blur_px, 1) +
@@ -423,9 +433,10 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
   const size_t n_usable = usable.size() + 1;  // the plane view is a lens view too
   bool fit_lens = lens_images > 0;
   if (!fit_lens) {
-    warn("no lens model (only the plane view was given): lens distortion is not corrected, so positions away from "
-         "the plane view's board can be off by several pixels, most near the frame's edges, and the rig cannot tell "
-         "by how much; give 10-20 further views of the board at different positions and tilts for a lens model");
+    warn(
+        "no lens model (only the plane view was given): lens distortion is not corrected, so positions away from "
+        "the plane view's board can be off by several pixels, most near the frame's edges, and the rig cannot tell "
+        "by how much; give 10-20 further views of the board at different positions and tilts for a lens model");
   } else if (n_usable < static_cast<size_t>(options.min_lens_views)) {
     std::string msg = "only " + Plural(n_usable, "usable view", "usable views") + " of the board (need " +
                       std::to_string(options.min_lens_views) + " for a lens model)";
@@ -438,7 +449,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
     if (!options.force) return refuse(msg + ", or pass --force to accept a weaker calibration");
     if (n_usable < static_cast<size_t>(kFewestLensViews)) {
       fit_lens = false;
-      warn("forced (--force): " + msg + "; too few for any lens model, so none is used and lens distortion is not corrected");
+      warn("forced (--force): " + msg +
+           "; too few for any lens model, so none is used and lens distortion is not corrected");
     } else {
       warn("forced (--force): " + msg);
     }
@@ -452,7 +464,9 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
       names.push_back(v.name);
       image_pts.push_back(v.detection.corners_px);
     }
-    const auto object_pts = [&] { return std::vector<std::vector<cv::Point3f>>(image_pts.size(), BoardPoints3d(board)); };
+    const auto object_pts = [&] {
+      return std::vector<std::vector<cv::Point3f>>(image_pts.size(), BoardPoints3d(board));
+    };
     LensFit fit = FitLens(object_pts(), image_pts, size);
     // Drop views far worse than the rest, worst first, one at a time (never the plane view, index 0).
     while (image_pts.size() > static_cast<size_t>(kFewestLensViews)) {
@@ -461,8 +475,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
       if (!(*worst > options.outlier_factor * median && *worst > options.outlier_floor_px)) break;
       const size_t w = static_cast<size_t>(worst - fit.view_rms_px.begin());
       dropped.push_back(names[w] + ": RMS " + Fmt(*worst, 2) + " px, far above the median " + Fmt(median, 2) + " px");
-      warn("view " + names[w] + " left out: its RMS reprojection error " + Fmt(*worst, 2) + " px is far above the median " +
-           Fmt(median, 2) + " px (a moved, bent or mis-detected board)");
+      warn("view " + names[w] + " left out: its RMS reprojection error " + Fmt(*worst, 2) +
+           " px is far above the median " + Fmt(median, 2) + " px (a moved, bent or mis-detected board)");
       names.erase(names.begin() + static_cast<long>(w));
       image_pts.erase(image_pts.begin() + static_cast<long>(w));
       fit = FitLens(object_pts(), image_pts, size);
@@ -504,8 +518,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
            "about both axes");
     }
     if (rig.quality.views_coverage_fraction < options.min_views_coverage_fraction) {
-      warn("the lens views' boards cover " + Fmt(100 * rig.quality.views_coverage_fraction, 0) + " % of the frame (below " +
-           Num(100 * options.min_views_coverage_fraction) +
+      warn("the lens views' boards cover " + Fmt(100 * rig.quality.views_coverage_fraction, 0) +
+           " % of the frame (below " + Num(100 * options.min_views_coverage_fraction) +
            " %): distortion near the uncovered edges is extrapolated; add views with the board near the frame's "
            "edges and corners");
     }
@@ -522,7 +536,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
   std::vector<cv::Point2f> board_2d;
   for (const cv::Point3f& p : BoardPoints3d(board)) board_2d.emplace_back(p.x, p.y);
   const cv::Mat h_mat = cv::findHomography(board_2d, und, 0);
-  if (h_mat.empty()) return refuse("the plane view's corners gave no plane mapping (degenerate board detection); retake it");
+  if (h_mat.empty())
+    return refuse("the plane view's corners gave no plane mapping (degenerate board detection); retake it");
   const cv::Matx33d und_from_board(h_mat);
   const auto to_image = [&](cv::Point2d b) {
     const cv::Vec3d q = und_from_board * cv::Vec3d(b.x, b.y, 1.0);
@@ -539,16 +554,25 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
   const cv::Point2d centre_b(0.5 * (board.columns - 1) * board.square_m, 0.5 * (board.rows - 1) * board.square_m);
   const double step = 0.5 * board.square_m;
   const cv::Point2d c_img = to_image(centre_b);
-  const cv::Vec2d axis_img[4] = {
-      cv::Vec2d(to_image(centre_b + cv::Point2d(step, 0)) - c_img), cv::Vec2d(to_image(centre_b - cv::Point2d(step, 0)) - c_img),
-      cv::Vec2d(to_image(centre_b + cv::Point2d(0, step)) - c_img), cv::Vec2d(to_image(centre_b - cv::Point2d(0, step)) - c_img)};
+  const cv::Vec2d axis_img[4] = {cv::Vec2d(to_image(centre_b + cv::Point2d(step, 0)) - c_img),
+                                 cv::Vec2d(to_image(centre_b - cv::Point2d(step, 0)) - c_img),
+                                 cv::Vec2d(to_image(centre_b + cv::Point2d(0, step)) - c_img),
+                                 cv::Vec2d(to_image(centre_b - cv::Point2d(0, step)) - c_img)};
   const cv::Vec2d axis_board[4] = {{1, 0}, {-1, 0}, {0, 1}, {0, -1}};
   cv::Vec2d side;
   switch (options.up) {
-    case UpSide::kTop: side = {0, -1}; break;
-    case UpSide::kBottom: side = {0, 1}; break;
-    case UpSide::kLeft: side = {-1, 0}; break;
-    case UpSide::kRight: side = {1, 0}; break;
+    case UpSide::kTop:
+      side = {0, -1};
+      break;
+    case UpSide::kBottom:
+      side = {0, 1};
+      break;
+    case UpSide::kLeft:
+      side = {-1, 0};
+      break;
+    case UpSide::kRight:
+      side = {1, 0};
+      break;
   }
   int up_axis = 0;
   double best_cos = -2;
@@ -614,7 +638,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
   {
     std::vector<double> err_mm;
     const auto pair_error = [&](size_t a, size_t b) {
-      const cv::Point2d pa = PlaneFromImage(rig, plane_det.corners_px[a]), pb = PlaneFromImage(rig, plane_det.corners_px[b]);
+      const cv::Point2d pa = PlaneFromImage(rig, plane_det.corners_px[a]),
+                        pb = PlaneFromImage(rig, plane_det.corners_px[b]);
       err_mm.push_back(std::abs(cv::norm(pa - pb) - board.square_m) * 1e3);
     };
     for (int j = 0; j < board.rows; ++j) {
@@ -624,7 +649,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
         if (j + 1 < board.rows) pair_error(k, k + static_cast<size_t>(board.columns));
       }
     }
-    rig.quality.square_error_mean_mm = std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
+    rig.quality.square_error_mean_mm =
+        std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
     rig.quality.square_error_max_mm = *std::max_element(err_mm.begin(), err_mm.end());
     const cv::Point2d c(0.5 * (size.width - 1), 0.5 * (size.height - 1));
     const cv::Point2d du = PlaneFromImage(rig, c + cv::Point2d(0.5, 0)) - PlaneFromImage(rig, c - cv::Point2d(0.5, 0));
@@ -634,8 +660,8 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
     rig.quality.board_coverage_fraction = cv::contourArea(quad) / (static_cast<double>(size.width) * size.height);
     if (!rig.lens) rig.quality.views_coverage_fraction = CoverageFraction({quad}, size);
     if (rig.quality.board_coverage_fraction < options.min_board_coverage_fraction) {
-      warn("the plane view's board covers " + Fmt(100 * rig.quality.board_coverage_fraction, 1) + " % of the frame (below " +
-           Num(100 * options.min_board_coverage_fraction) +
+      warn("the plane view's board covers " + Fmt(100 * rig.quality.board_coverage_fraction, 1) +
+           " % of the frame (below " + Num(100 * options.min_board_coverage_fraction) +
            " %): positions far from it are extrapolated; use a larger board or place it where the specimen moves");
     }
   }

@@ -57,24 +57,24 @@ struct CalibrationImage {
 };
 
 struct CalibrateOptions {
-  BoardSpec board;                          // inner corners and square size
-  std::optional<double> corner_height_m;    // [m] >= 0: height above the floor of the plane view's
-                                            // lowest inner-corner row; gives y_origin "floor"
-  UpSide up = UpSide::kTop;                 // image side physical up points to
-  std::optional<double> capture_fps;        // [frames/s] > 0: stored in the rig as given
-  bool force = false;                       // accept too few views or a high RMS (with a warning)
-  int min_lens_views = 5;                   // [views] 3..1000: fewer usable views are refused
-  double max_rms_px = 1.0;                  // [px] > 0: overall RMS above this is refused
-  double warn_rms_px = 0.3;                 // [px] > 0, <= max_rms_px: warn above this
-  double outlier_factor = 3.0;              // > 1: view RMS this many times the median is dropped...
-  double outlier_floor_px = 0.2;            // [px] >= 0: ...when also above this
-  double max_blur_px = 2.5;                 // [px] > 0: views with edge blur sigma above are dropped
+  BoardSpec board;                            // inner corners and square size
+  std::optional<double> corner_height_m;      // [m] >= 0: height above the floor of the plane view's
+                                              // lowest inner-corner row; gives y_origin "floor"
+  UpSide up = UpSide::kTop;                   // image side physical up points to
+  std::optional<double> capture_fps;          // [frames/s] > 0: stored in the rig as given
+  bool force = false;                         // accept too few views or a high RMS (with a warning)
+  int min_lens_views = 5;                     // [views] 3..1000: fewer usable views are refused
+  double max_rms_px = 1.0;                    // [px] > 0: overall RMS above this is refused
+  double warn_rms_px = 0.3;                   // [px] > 0, <= max_rms_px: warn above this
+  double outlier_factor = 3.0;                // > 1: view RMS this many times the median is dropped...
+  double outlier_floor_px = 0.2;              // [px] >= 0: ...when also above this
+  double max_blur_px = 2.5;                   // [px] > 0: views with edge blur sigma above are dropped
   double min_board_coverage_fraction = 0.05;  // 0..1: plane view's board area / frame; warn below
   double min_views_coverage_fraction = 0.5;   // 0..1: frame share covered by lens views; warn below
-  double min_tilt_spread_deg = 15.0;        // [deg] 0..90: largest angle between view normals; warn below
-  int subpix_half_window_px = 5;            // [px] 2..30: cornerSubPix window is 2 x this + 1
-  int max_video_views = 20;                 // [views] 3..200: frames kept from one video
-  int video_candidates_per_view = 3;        // 1..20: frames looked at per frame kept
+  double min_tilt_spread_deg = 15.0;          // [deg] 0..90: largest angle between view normals; warn below
+  int subpix_half_window_px = 5;              // [px] 2..30: cornerSubPix window is 2 x this + 1
+  int max_video_views = 20;                   // [views] 3..200: frames kept from one video
+  int video_candidates_per_view = 3;          // 1..20: frames looked at per frame kept
 };
 // A message naming the offending field, value and valid range, or nothing when valid.
 std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& options);
@@ -96,10 +96,10 @@ double EstimateEdgeBlurPx(const cv::Mat& grey, const std::vector<cv::Point2f>& c
 
 // The outcome of a calibration: a rig, or the reason it was refused (expected per-input failure).
 struct CalibrationOutcome {
-  std::optional<Rig> rig;                 // absent when refused
-  std::string refusal;                    // why refused and what to do (empty when rig is set)
-  std::vector<std::string> warnings;      // also in rig->warnings
-  std::vector<std::string> notes;         // informational: views without board, dropped views
+  std::optional<Rig> rig;             // absent when refused
+  std::string refusal;                // why refused and what to do (empty when rig is set)
+  std::vector<std::string> warnings;  // also in rig->warnings
+  std::vector<std::string> notes;     // informational: views without board, dropped views
 };
 
 // Calibrates from `views` (lens views; the plane view may be among them, by name) and `plane`.

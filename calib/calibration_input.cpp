@@ -20,7 +20,8 @@ namespace {
 
 std::string LowerExtension(const fs::path& path) {
   std::string ext = path.extension().string();
-  std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+  std::transform(ext.begin(), ext.end(), ext.begin(),
+                 [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
   return ext;
 }
 
@@ -40,8 +41,9 @@ CalibrationImage ReadImage(const fs::path& path, const std::string& role) {
   }
   cv::Mat grey = cv::imread(path.string(), cv::IMREAD_GRAYSCALE);
   if (grey.empty()) {
-    throw std::runtime_error(role + " " + path.string() +
-                             " cannot be decoded as an image; give PNG, JPEG, TIFF or BMP files, a folder of them, or a video");
+    throw std::runtime_error(
+        role + " " + path.string() +
+        " cannot be decoded as an image; give PNG, JPEG, TIFF or BMP files, a folder of them, or a video");
   }
   return {path.string(), grey};
 }
@@ -74,7 +76,8 @@ std::string Fnv1a64HexOfFile(const fs::path& path) {
   while (file) {
     file.read(buffer.data(), static_cast<std::streamsize>(buffer.size()));
     const std::streamsize n = file.gcount();
-    for (std::streamsize i = 0; i < n; ++i) h = (h ^ static_cast<unsigned char>(buffer[static_cast<size_t>(i)])) * kFnvPrime;
+    for (std::streamsize i = 0; i < n; ++i)
+      h = (h ^ static_cast<unsigned char>(buffer[static_cast<size_t>(i)])) * kFnvPrime;
   }
   return Hex16(h);
 }
@@ -114,9 +117,12 @@ std::vector<CalibrationImage> PickVideoViews(const std::string& video_path, cons
     if (index != target || !cap.read(frame)) break;
     ++index;
     ++looked;
-    if (frame.channels() == 3) cv::cvtColor(frame, grey, cv::COLOR_BGR2GRAY);
-    else if (frame.channels() == 4) cv::cvtColor(frame, grey, cv::COLOR_BGRA2GRAY);
-    else grey = frame;
+    if (frame.channels() == 3)
+      cv::cvtColor(frame, grey, cv::COLOR_BGR2GRAY);
+    else if (frame.channels() == 4)
+      cv::cvtColor(frame, grey, cv::COLOR_BGRA2GRAY);
+    else
+      grey = frame;
     if (grey.depth() != CV_8U) grey.convertTo(grey, CV_8U);
     const BoardDetection d = DetectBoard(grey, options.board, options.subpix_half_window_px);
     if (!d.found) continue;
@@ -169,7 +175,8 @@ CalibrationInputs LoadCalibrationInputs(const std::vector<std::string>& inputs, 
         if (entry.is_regular_file() && IsImageFile(entry.path())) files.push_back(entry.path());
       }
       if (files.empty()) {
-        throw std::runtime_error("folder " + input + " holds no image files (.png, .jpg, .jpeg, .bmp, .tif, .tiff, .pgm, .ppm)");
+        throw std::runtime_error("folder " + input +
+                                 " holds no image files (.png, .jpg, .jpeg, .bmp, .tif, .tiff, .pgm, .ppm)");
       }
       std::sort(files.begin(), files.end());
       for (const fs::path& f : files) add_image(f);

@@ -12,10 +12,10 @@
 namespace dropfit::calib {
 
 struct CalibrationInputs {
-  std::vector<CalibrationImage> views;  // lens views, the plane view not among them
-  CalibrationImage plane;               // the plane view
+  std::vector<CalibrationImage> views;                      // lens views, the plane view not among them
+  CalibrationImage plane;                                   // the plane view
   std::vector<std::pair<std::string, std::string>> hashes;  // (file, FNV-1a 64-bit hex) per input file
-  std::vector<std::string> notes;       // e.g. how many video frames showed the board
+  std::vector<std::string> notes;                           // e.g. how many video frames showed the board
 };
 
 // Image file extensions taken from a folder (case-insensitive): .png .jpg .jpeg .bmp .tif

@@ -11,8 +11,7 @@ namespace dropfit::calib {
 namespace {
 
 template <typename Enum, size_t N>
-Enum FromString(const std::string& text, const std::pair<Enum, const char*> (&table)[N],
-                const char* what) {
+Enum FromString(const std::string& text, const std::pair<Enum, const char*> (&table)[N], const char* what) {
   for (const auto& [value, name] : table) {
     if (text == name) return value;
   }
@@ -24,8 +23,7 @@ Enum FromString(const std::string& text, const std::pair<Enum, const char*> (&ta
 
 constexpr std::pair<UpSide, const char*> kUpSides[] = {
     {UpSide::kTop, "top"}, {UpSide::kBottom, "bottom"}, {UpSide::kLeft, "left"}, {UpSide::kRight, "right"}};
-constexpr std::pair<YOrigin, const char*> kYOrigins[] = {{YOrigin::kFloor, "floor"},
-                                                          {YOrigin::kBoard, "board"}};
+constexpr std::pair<YOrigin, const char*> kYOrigins[] = {{YOrigin::kFloor, "floor"}, {YOrigin::kBoard, "board"}};
 
 bool AllFinite(const cv::Matx33d& m) {
   for (int i = 0; i < 9; ++i) {

@@ -43,27 +43,27 @@ struct LensModel {
 
 // Calibration quality figures, in units the engineer understands.
 struct RigQuality {
-  double rms_reprojection_px = 0.0;           // overall RMS reprojection error of the lens fit
-  std::vector<std::string> view_names;        // views used in the lens fit
-  std::vector<double> view_rms_px;            // per-view RMS reprojection error
-  std::vector<std::string> dropped_views;     // views left out, with the reason
-  double plane_rms_px = 0.0;                  // RMS residual of the plane view's mapping
-  double square_error_mean_mm = 0.0;          // known square size measured back: mean |error|
-  double square_error_max_mm = 0.0;           // ... and worst
-  double metres_per_px_centre = 0.0;          // scale at the image centre
-  double board_coverage_fraction = 0.0;       // area of the plane view's board / image area
+  double rms_reprojection_px = 0.0;        // overall RMS reprojection error of the lens fit
+  std::vector<std::string> view_names;     // views used in the lens fit
+  std::vector<double> view_rms_px;         // per-view RMS reprojection error
+  std::vector<std::string> dropped_views;  // views left out, with the reason
+  double plane_rms_px = 0.0;               // RMS residual of the plane view's mapping
+  double square_error_mean_mm = 0.0;       // known square size measured back: mean |error|
+  double square_error_max_mm = 0.0;        // ... and worst
+  double metres_per_px_centre = 0.0;       // scale at the image centre
+  double board_coverage_fraction = 0.0;    // area of the plane view's board / image area
   // Added with `dropfit calibrate`:
-  std::string distortion_terms;               // lens terms fitted, e.g. "k1,k2" ("" without a lens)
-  double views_coverage_fraction = 0.0;       // share of the frame covered by the lens views' boards
-  double tilt_spread_deg = 0.0;               // largest angle between two lens views' board normals
-  double lowest_corner_row_px = 0.0;          // plane view: image row (v) of the lowest inner corners
+  std::string distortion_terms;          // lens terms fitted, e.g. "k1,k2" ("" without a lens)
+  double views_coverage_fraction = 0.0;  // share of the frame covered by the lens views' boards
+  double tilt_spread_deg = 0.0;          // largest angle between two lens views' board normals
+  double lowest_corner_row_px = 0.0;     // plane view: image row (v) of the lowest inner corners
 };
 
 // The checkerboard: inner corners (not squares: a board of 10 x 7 squares has 9 x 6 inner
 // corners) and the side of one square.
 struct BoardSpec {
-  int columns = 9;        // inner corners per row, >= 3
-  int rows = 6;           // inner corners per column, >= 3
+  int columns = 9;          // inner corners per row, >= 3
+  int rows = 6;             // inner corners per column, >= 3
   double square_m = 0.025;  // side of one square [m], > 0
 };
 // "9x6" <-> BoardSpec{9, 6}. Throws std::invalid_argument naming the text and the expected form.
@@ -73,8 +73,8 @@ std::string BoardSizeToString(const BoardSpec& board);
 struct Rig {
   static constexpr int kSchemaVersion = 1;
   int schema_version = kSchemaVersion;
-  cv::Size image_size;                       // [px]
-  std::optional<LensModel> lens;             // absent: points are used as measured
+  cv::Size image_size;            // [px]
+  std::optional<LensModel> lens;  // absent: points are used as measured
   // Homography from undistorted pixels (same camera matrix) to plane metres (x_m, y_m up).
   cv::Matx33d plane_from_undistorted = cv::Matx33d::eye();
   // Pose of the plane view's board frame in the camera (present with a lens model).
@@ -84,14 +84,14 @@ struct Rig {
   YOrigin y_origin = YOrigin::kBoard;
   // Height above the floor of the plane view's lowest row of inner corners (`--corner-height`).
   std::optional<double> corner_height_m;
-  std::optional<double> capture_fps;         // [frames/s], when given at calibration
+  std::optional<double> capture_fps;  // [frames/s], when given at calibration
   RigQuality quality;
   std::string tool_version;
   std::vector<std::pair<std::string, std::string>> input_hashes;  // (file, FNV-1a 64 hex)
   std::vector<std::string> warnings;
   // Added with `dropfit calibrate`:
-  BoardSpec board;                           // the board the rig was calibrated with
-  std::string plane_view;                    // name of the view that lies in the drop plane
+  BoardSpec board;         // the board the rig was calibrated with
+  std::string plane_view;  // name of the view that lies in the drop plane
   // The options the calibration ran with, as (name, value) text, so a rig can be remade.
   std::vector<std::pair<std::string, std::string>> settings;
 };

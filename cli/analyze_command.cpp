@@ -8,6 +8,7 @@
 #include <stdexcept>
 
 #include "calib/rig.h"
+#include "cli/clip_pipeline.h"
 #include "cli/exit_status.h"
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
@@ -189,17 +190,9 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   result.y_origin = calib::ToString(rig.y_origin);
   const double gravity = options.gravity_mps2.value_or(kStandardGravityMps2);
 
-  // The onset height from the geometry needs the floor (y = 0) and the free radius.
-  std::optional<double> onset_height_m;
-  if (options.free_radius_m) {
-    if (rig.y_origin == calib::YOrigin::kFloor) {
-      onset_height_m = *options.free_radius_m;
-    } else {
-      result.warnings.push_back(result.clip + ": --free-radius is not used: " + options.rig_path +
-                                " does not know the floor (y_origin \"board\"); the onset height is estimated from "
-                                "the track. Calibrate with the board's corner height to use the geometry");
-    }
-  }
+  // The onset height comes from the geometry only with the free radius and a floor in the rig
+  // (AnalyzeClip warns otherwise); else from the track, then from the best law's fit.
+  const bool geometry_onset = options.free_radius_m && rig.y_origin == calib::YOrigin::kFloor;
 
   // The effective options, written beside the results.
   {
@@ -209,7 +202,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
     text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
-    text << " onset_height=" << (onset_height_m ? "geometry" : "track");
+    text << " onset_height=" << (geometry_onset ? "geometry" : "fit");
     text << " marker=" << options.marker;
     if (!options.seed.empty()) text << " seed=" << options.seed;
     text << " rig=" << options.rig_path;
@@ -217,48 +210,21 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
     result.info.push_back({"analyze_options", text.str()});
   }
 
-  std::vector<TrackRow> rows;
-  if (!source) {
-    result.errors.push_back(open_error);
-  } else {
-    result.capture_fps = rate->fps;
-    result.capture_fps_source = rate->source;
-    if (rate->warning) result.warnings.push_back(options.clip + ": " + *rate->warning);
-    tracker::Track track;
-    try {
-      track = tracker::TrackClip(*source, track_options);
-    } catch (const std::exception& e) {
-      return BadUsage(e.what());
-    }
-    AddTrackToResult(track, result);
-    rows = TrackRowsFromTrack(track, rig, rate->fps);
-    if (track.frames == 0) {
-      result.errors.push_back(options.clip + ": no frames could be read");
-    } else if (track.tracked_frames == 0) {
-      result.errors.push_back(result.clip + ": the hub marker was not found on any frame; check the marker kind "
-                                            "(--marker) or give its position with --seed U,V");
-    } else {
-      analysis::KinematicsOptions kin_options;
-      kin_options.mass_kg = options.mass_kg;
-      kin_options.gravity_mps2 = gravity;
-      kin_options.onset_height_m = onset_height_m;
-      kin_options.onset_height_source = analysis::OnsetHeightSource::kGeometry;
-      kin_options.drop_height_m = options.drop_height_m;
-      kin_options.capture_fps = rate->fps;
-      const analysis::KinematicsResult kinematics =
-          analysis::AnalyzeKinematics(TimeSeriesFromTrackRows(rows, rate->fps), kin_options);
-      AddKinematicsToResult(kinematics, result.clip, result);
-
-      // ---- Contact-law fits go here (analysis/law_fit.h, helper-6 / the lead). ----
-      // From `kinematics.segmentation` and `kinematics.impacts` (analysis::MakeFitClip), fit
-      // every law (analysis::FitAllLaws); fill result.fits and result.best_law; for the best
-      // law, replace each impact's t_separation_s, contact_duration_s and peak_force_n with
-      // the law's force-zero instant and force history, set source to the law id (the
-      // track-only figures stay beside them as *_track_*), and, when the onset height was not
-      // from the geometry, re-run analysis::AnalyzeKinematics with the fitted onset height
-      // (onset_height_source kFit) so that speeds and COR are read at that height.
-    }
-  }
+  // Track, measure and fit (cli/clip_pipeline.h: the same code as `dropfit run`).
+  ClipRequest request;
+  request.clip_path = clip_path;
+  request.clip_id = result.clip;
+  request.mass_kg = options.mass_kg;
+  request.drop_height_m = options.drop_height_m;
+  request.free_radius_m = options.free_radius_m;
+  request.fps_option = options.fps;
+  request.gravity_mps2 = options.gravity_mps2;
+  request.marker = options.marker;
+  request.seed = options.seed;
+  ClipAnalysis analysis = AnalyzeClip(request, rig);
+  for (auto& entry : result.info) analysis.result.info.push_back(entry);
+  result = std::move(analysis.result);
+  const std::vector<TrackRow>& rows = analysis.track;
 
   WriteTrackCsv(out / "track.csv", rows);
   WriteClipResult(out / "result.json", result);
@@ -270,8 +236,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   for (const ImpactRecord& r : result.impacts) {
     if (!r.complete) continue;
     char line[160];
-    std::snprintf(line, sizeof line, "; first complete: impact %.4f m/s, rebound %.4f m/s, COR %.4f", r.impact_speed_mps,
-                  r.rebound_speed_mps, r.cor);
+    std::snprintf(line, sizeof line, "; first complete: impact %.4f m/s, rebound %.4f m/s, COR %.4f",
+                  r.impact_speed_mps, r.rebound_speed_mps, r.cor);
     std::cout << line;
     break;
   }

@@ -26,17 +26,17 @@
 namespace dropfit::cli {
 
 struct AnalyzeCommandOptions {
-  std::string clip;                      // video file or folder of numbered images
-  std::string rig_path;                  // rig.json from `dropfit calibrate`
-  double mass_kg = 0.0;                  // dropped mass [kg]; (0, 1e4]
-  std::optional<double> fps;             // true capture rate [frames/s]; > 0; overrides rig and container
-  std::optional<double> drop_height_m;   // nominal drop height [m]; (0, 100]; for the drop-height check
-  std::optional<double> free_radius_m;   // unloaded radius, hub to tread [m]; (0, 10]
-  std::optional<double> gravity_mps2;    // local gravity [m/s^2]; (0, 100]; default standard
-                                         // gravity 9.80665 (3rd CGPM, 1901)
-  std::string marker = "auto";           // auto|quadrant|dot|template (tracker/marker_kind.h)
-  std::string seed;                      // "U,V" [px] to pick one marker among several
-  std::string out_dir;                   // folder for result.json and track.csv
+  std::string clip;                     // video file or folder of numbered images
+  std::string rig_path;                 // rig.json from `dropfit calibrate`
+  double mass_kg = 0.0;                 // dropped mass [kg]; (0, 1e4]
+  std::optional<double> fps;            // true capture rate [frames/s]; > 0; overrides rig and container
+  std::optional<double> drop_height_m;  // nominal drop height [m]; (0, 100]; for the drop-height check
+  std::optional<double> free_radius_m;  // unloaded radius, hub to tread [m]; (0, 10]
+  std::optional<double> gravity_mps2;   // local gravity [m/s^2]; (0, 100]; default standard
+                                        // gravity 9.80665 (3rd CGPM, 1901)
+  std::string marker = "auto";          // auto|quadrant|dot|template (tracker/marker_kind.h)
+  std::string seed;                     // "U,V" [px] to pick one marker among several
+  std::string out_dir;                  // folder for result.json and track.csv
 };
 // A message naming the first bad option and its valid range, or nothing.
 std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& options);

@@ -48,8 +48,9 @@ void PrintSummary(const calib::Rig& rig, const std::string& path, std::ostream& 
       << Fixed(q.square_error_max_mm, 3) << " mm (of " << Fixed(rig.board.square_m * 1e3, 1) << " mm)\n";
   out << "  scale at the image centre " << Fixed(q.metres_per_px_centre * 1e3, 4) << " mm/px\n";
   out << "  up: image " << calib::ToString(rig.up) << "; y_m = 0 at the "
-      << (rig.y_origin == calib::YOrigin::kFloor ? "floor (lowest corner row at " + Fixed(*rig.corner_height_m, 4) + " m)"
-                                                 : std::string("plane view's lowest inner-corner row"))
+      << (rig.y_origin == calib::YOrigin::kFloor
+              ? "floor (lowest corner row at " + Fixed(*rig.corner_height_m, 4) + " m)"
+              : std::string("plane view's lowest inner-corner row"))
       << "\n";
 }
 
@@ -95,7 +96,8 @@ int RunCalibrate(const CalibrateCommandOptions& options, std::ostream& out, std:
   rig.input_hashes = inputs.hashes;
   std::string input_list;
   for (size_t i = 0; i < options.inputs.size(); ++i) input_list += (i ? " " : "") + options.inputs[i];
-  rig.settings.insert(rig.settings.begin(), {{"inputs", input_list}, {"plane", options.plane_image}, {"output", options.out_path}});
+  rig.settings.insert(rig.settings.begin(),
+                      {{"inputs", input_list}, {"plane", options.plane_image}, {"output", options.out_path}});
   try {
     WriteRigFile(options.out_path, rig);
   } catch (const std::exception& e) {

@@ -18,15 +18,15 @@
 namespace dropfit::cli {
 
 struct CalibrateCommandOptions {
-  std::vector<std::string> inputs;  // image files, folders of images, or a video of the board
-  std::string board = "9x6";        // inner corners, columns x rows
-  double square_m = 0.025;          // checkerboard square size [m]
-  std::string plane_image;          // the view whose board lies in the drop plane
+  std::vector<std::string> inputs;        // image files, folders of images, or a video of the board
+  std::string board = "9x6";              // inner corners, columns x rows
+  double square_m = 0.025;                // checkerboard square size [m]
+  std::string plane_image;                // the view whose board lies in the drop plane
   std::optional<double> corner_height_m;  // height of the plane view's lowest inner-corner row above the floor [m]
-  std::string up = "top";           // image side that physical up points to
-  std::optional<double> fps;        // capture rate of the clips filmed with this rig [frames/s]
-  bool force = false;               // write the rig despite too few views or a high RMS (with warnings)
-  std::string out_path;             // rig.json to write
+  std::string up = "top";                 // image side that physical up points to
+  std::optional<double> fps;              // capture rate of the clips filmed with this rig [frames/s]
+  bool force = false;                     // write the rig despite too few views or a high RMS (with warnings)
+  std::string out_path;                   // rig.json to write
 };
 
 // Returns the contract's exit status. Messages go to `err`, the summary to `out`.

@@ -67,8 +67,8 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, cons
     result.errors.push_back(e.what());
     return out;
   }
-  const std::optional<CaptureRate> rate = ResolveCaptureRate(request.fps_option, request.fps_manifest,
-                                                             rig.capture_fps, source->info().container_fps);
+  const std::optional<CaptureRate> rate =
+      ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, source->info().container_fps);
   if (!rate) {
     result.errors.push_back(name +
                             ": no capture rate is known (none in the manifest, the rig or the clip's container); "
@@ -88,6 +88,7 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, cons
 
   tracker::TrackOptions track_options;
   track_options.marker = tracker::MarkerKindFromString(request.marker);
+  if (!request.seed.empty()) track_options.seed_px = ParseSeed(request.seed);
   const tracker::Track track = tracker::TrackClip(*source, track_options, progress);
   AddTrackToResult(track, result);
   result.extra.push_back({"time_decode_s", track.read_seconds});

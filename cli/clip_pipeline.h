@@ -17,27 +17,28 @@
 namespace dropfit::cli {
 
 struct ClipRequest {
-  std::filesystem::path clip_path;       // video file or folder of numbered images
-  std::string clip_id;                   // for messages and result.json's "clip"
-  double mass_kg = 0.0;                  // dropped mass [kg], > 0
-  std::optional<double> drop_height_m;   // nominal drop height [m]
-  std::optional<double> free_radius_m;   // unloaded radius, hub to tread [m]
-  std::optional<double> tread_width_m;   // volumetric law: cylinder width [m]
+  std::filesystem::path clip_path;         // video file or folder of numbered images
+  std::string clip_id;                     // for messages and result.json's "clip"
+  double mass_kg = 0.0;                    // dropped mass [kg], > 0
+  std::optional<double> drop_height_m;     // nominal drop height [m]
+  std::optional<double> free_radius_m;     // unloaded radius, hub to tread [m]
+  std::optional<double> tread_width_m;     // volumetric law: cylinder width [m]
   std::optional<double> section_radius_m;  // volumetric law: torus section radius [m] (wins)
-  std::optional<double> fps_option;      // --fps (wins over everything)
-  std::optional<double> fps_manifest;    // manifest capture_fps
-  std::optional<double> gravity_mps2;    // local gravity; default standard gravity
-  std::string marker = "auto";           // tracker::MarkerKind text
-  bool fit_laws = true;                  // run the per-clip contact-law fits
+  std::optional<double> fps_option;        // --fps (wins over everything)
+  std::optional<double> fps_manifest;      // manifest capture_fps
+  std::optional<double> gravity_mps2;      // local gravity; default standard gravity
+  std::string marker = "auto";             // tracker::MarkerKind text
+  std::string seed;                        // "U,V" [px]: marker position in the first frames
+  bool fit_laws = true;                    // run the per-clip contact-law fits
 };
 
 // frames done, frames total (0 when unknown)
 using ClipProgress = std::function<void(int, int)>;
 
 struct ClipAnalysis {
-  ClipResult result;           // the contract's result.json content
-  std::vector<TrackRow> track; // the contract's track.csv rows (empty when nothing was read)
-  bool analysed = false;       // false: the clip failed; the reasons are in result.errors
+  ClipResult result;            // the contract's result.json content
+  std::vector<TrackRow> track;  // the contract's track.csv rows (empty when nothing was read)
+  bool analysed = false;        // false: the clip failed; the reasons are in result.errors
 };
 
 // The onset height from the geometry (free radius above a floor the rig knows), if known.

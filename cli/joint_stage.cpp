@@ -81,8 +81,7 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips, c
       record.fit = ToFitRecord(law.fit, -1);
       for (const analysis::HoldoutError& h : law.holdout) {
         if (h.failure) continue;
-        record.holdout.push_back(
-            {h.drop_height_m, h.cor_error, h.contact_duration_error_s, h.max_deflection_error_m});
+        record.holdout.push_back({h.drop_height_m, h.cor_error, h.contact_duration_error_s, h.max_deflection_error_m});
       }
       summary.joint_fits.push_back(record);
       if (v_hi > v_lo) summary.curves.push_back(CorCurve(law.fit, mass, 0.8 * v_lo, 1.2 * v_hi, options));

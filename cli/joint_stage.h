@@ -15,7 +15,7 @@ namespace dropfit::cli {
 
 struct JointClip {
   const ManifestRow* row = nullptr;
-  const ClipResult* result = nullptr;    // capture rate, measured impacts
+  const ClipResult* result = nullptr;  // capture rate, measured impacts
   const std::vector<TrackRow>* track = nullptr;
 };
 

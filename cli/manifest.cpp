@@ -214,8 +214,8 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
   for (const auto& f : header.fields) found += (found.empty() ? "" : ", ") + f;
   for (const char* required : {"clip", "drop_height_m", "mass_kg"}) {
     if (std::none_of(header.fields.begin(), header.fields.end(), [&](const std::string& f) { return f == required; })) {
-      throw ManifestStructureError(display_name + ":" + std::to_string(header.line) + ": required column '" +
-                                   required + "' is missing (found: " + found +
+      throw ManifestStructureError(display_name + ":" + std::to_string(header.line) + ": required column '" + required +
+                                   "' is missing (found: " + found +
                                    "); the header needs clip, drop_height_m and mass_kg");
     }
   }
@@ -255,9 +255,15 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
     }
     double value = 0;
     std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
-    if (err.empty()) row.drop_height_m = value; else fail("drop_height_m", err);
+    if (err.empty())
+      row.drop_height_m = value;
+    else
+      fail("drop_height_m", err);
     err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
-    if (err.empty()) row.mass_kg = value; else fail("mass_kg", err);
+    if (err.empty())
+      row.mass_kg = value;
+    else
+      fail("mass_kg", err);
     const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
         {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
         {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
@@ -267,7 +273,10 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
     for (const auto& [column, name, target, spec] : optional_numbers) {
       if (!index.count(column) || get(column).empty()) continue;
       err = ParsePositive(get(column), spec, value);
-      if (err.empty()) *target = value; else fail(name, err + " (or leave it empty)");
+      if (err.empty())
+        *target = value;
+      else
+        fail(name, err + " (or leave it empty)");
     }
     if (index.count(Column::kSpecimen)) row.specimen = get(Column::kSpecimen);
     if (!row.clip_id.empty()) {

@@ -29,17 +29,17 @@ class ManifestStructureError : public std::runtime_error {
 };
 
 struct ManifestRow {
-  int line = 0;                 // 1-based line of the row in the file
-  std::string clip;             // as written: a video file or a folder of numbered images
-  std::string clip_id;          // file name without extension (folder name for a sequence)
-  double drop_height_m = 0.0;   // nominal drop height: lowest point above the floor at release
-  double mass_kg = 0.0;         // dropped mass
+  int line = 0;                            // 1-based line of the row in the file
+  std::string clip;                        // as written: a video file or a folder of numbered images
+  std::string clip_id;                     // file name without extension (folder name for a sequence)
+  double drop_height_m = 0.0;              // nominal drop height: lowest point above the floor at release
+  double mass_kg = 0.0;                    // dropped mass
   std::optional<double> capture_fps;       // true capture rate [frames/s]
   std::string specimen;                    // free text; rows are grouped by it
   std::optional<double> free_radius_m;     // unloaded radius, hub centre to tread
   std::optional<double> tread_width_m;     // for the volumetric law's cylinder
   std::optional<double> section_radius_m;  // for the volumetric law's torus (wins)
-  std::string error;            // empty when the row is usable; else why this clip fails
+  std::string error;                       // empty when the row is usable; else why this clip fails
   bool ok() const { return error.empty(); }
 };
 
@@ -54,8 +54,8 @@ struct Manifest {
 Manifest ReadManifest(const std::filesystem::path& folder);
 
 // Parses manifest text. `check_files` also fails rows whose clip does not exist in `folder`.
-Manifest ParseManifest(std::string_view text, const std::filesystem::path& folder,
-                       const std::string& display_name, bool check_files = true);
+Manifest ParseManifest(std::string_view text, const std::filesystem::path& folder, const std::string& display_name,
+                       bool check_files = true);
 
 // The clip id of a clip path: its file name without extension, or the folder's name.
 std::string ClipIdOf(const std::filesystem::path& clip);

@@ -16,8 +16,9 @@ void AddAnalyzeCommand(CLI::App& app, CommandAction& action) {
                   "True capture rate [frames/s]; overrides the rig's and the container's (a playback rate is wrong)");
   sub->add_option("--drop-height", opts->drop_height_m,
                   "Nominal drop height [m]: tread to floor at release; checked against the first impact speed");
-  sub->add_option("--free-radius", opts->free_radius_m,
-                  "Unloaded radius, hub centre to tread [m]; with a floor in the rig it fixes the contact-onset height");
+  sub->add_option(
+      "--free-radius", opts->free_radius_m,
+      "Unloaded radius, hub centre to tread [m]; with a floor in the rig it fixes the contact-onset height");
   sub->add_option("--gravity", opts->gravity_mps2, "Local gravity [m/s^2] (default: standard gravity 9.80665)");
   sub->add_option("--marker", opts->marker, "Hub marker kind: auto|quadrant|dot|template (default auto)");
   sub->add_option("--seed", opts->seed, "U,V [px]: pick the marker nearest this point in the first frames");

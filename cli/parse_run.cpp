@@ -11,7 +11,8 @@ void AddRunCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("folder", opts->folder, "Clip folder holding manifest.csv")->required();
   sub->add_option("--rig", opts->rig_path, "Rig file from `dropfit calibrate`")->required();
   sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
-  sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")->check(CLI::NonNegativeNumber);
+  sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")
+      ->check(CLI::NonNegativeNumber);
   sub->footer("Example:\n  dropfit run demo_clips --rig demo_clips/rig.json -o demo_out --jobs 2");
   sub->callback([opts, &action] { action = [opts] { return RunRun(*opts); }; });
 }

@@ -4,18 +4,18 @@
 
 #include <atomic>
 #include <chrono>
-#include <exception>
-#include <mutex>
-#include <thread>
 #include <cmath>
+#include <exception>
 #include <filesystem>
 #include <functional>
 #include <iomanip>
 #include <iostream>
 #include <map>
+#include <mutex>
 #include <numbers>
 #include <random>
 #include <sstream>
+#include <thread>
 
 #include "analysis/camera.h"
 #include "analysis/contact_law.h"
@@ -134,11 +134,11 @@ RenderPlan MakePlan(const RenderCommandOptions& o) {
   c.aim_x_m = (plan.board.inner_cols - 1) * plan.board.square_m / 2;
   c.aim_y_m = (size->second / 2.0 - o.floor_margin_px) * o.camera_distance_m / o.focal_px;
   plan.wheel.free_radius_m = o.free_radius_m;
-  plan.wheel.rim_radius_m = o.rim_radius_m > 0 ? o.rim_radius_m
+  plan.wheel.rim_radius_m = o.rim_radius_m > 0       ? o.rim_radius_m
                             : o.section_radius_m > 0 ? o.free_radius_m - 2 * o.section_radius_m
                                                      : 0.55 * o.free_radius_m;
   plan.wheel.marker = analysis::MarkerShapeFromString(o.marker);
-  plan.wheel.marker_diameter_m = o.marker_diameter_m > 0 ? o.marker_diameter_m
+  plan.wheel.marker_diameter_m = o.marker_diameter_m > 0                            ? o.marker_diameter_m
                                  : plan.wheel.marker == analysis::MarkerShape::kDot ? 0.018
                                                                                     : 0.030;
   analysis::ExposureSettings& e = plan.exposure;
@@ -333,11 +333,16 @@ void WriteManifest(const fs::path& path, const RenderCommandOptions& o, const st
 
 std::vector<std::string> RenderLawDefaults(const std::string& law) {
   switch (analysis::LawIdFromString(law)) {
-    case analysis::LawId::kKelvinVoigt: return {"k_n_per_m=4e4", "c_ns_per_m=100"};
-    case analysis::LawId::kHuntCrossley: return {"k=2.5e5", "n=1.5", "alpha_s_per_m=0.2"};
-    case analysis::LawId::kHertz: return {"k=2.5e5", "n=1.5", "alpha_s_per_m=0.2"};
-    case analysis::LawId::kBilinear: return {"k1_n_per_m=2.5e4", "k2_n_per_m=8e4", "knee_m=0.015", "c_ns_per_m=90"};
-    case analysis::LawId::kVolumetric: return {"kv_n_per_m3=5.4e6", "a_s_per_m=0.2"};
+    case analysis::LawId::kKelvinVoigt:
+      return {"k_n_per_m=4e4", "c_ns_per_m=100"};
+    case analysis::LawId::kHuntCrossley:
+      return {"k=2.5e5", "n=1.5", "alpha_s_per_m=0.2"};
+    case analysis::LawId::kHertz:
+      return {"k=2.5e5", "n=1.5", "alpha_s_per_m=0.2"};
+    case analysis::LawId::kBilinear:
+      return {"k1_n_per_m=2.5e4", "k2_n_per_m=8e4", "knee_m=0.015", "c_ns_per_m=90"};
+    case analysis::LawId::kVolumetric:
+      return {"kv_n_per_m3=5.4e6", "a_s_per_m=0.2"};
   }
   return {};
 }
@@ -361,11 +366,13 @@ std::optional<std::string> ValidateRenderOptions(const RenderCommandOptions& o) 
   }
   if (!(std::abs(o.drift_mps) <= 1)) return OutOfRange("drift", o.drift_mps, "[-1, 1]", "m/s");
   if (!(std::abs(o.spin_radps) <= 100)) return OutOfRange("spin", o.spin_radps, "[-100, 100]", "rad/s");
-  if (!(o.gravity_mps2 >= 9.7 && o.gravity_mps2 <= 9.9)) return OutOfRange("gravity", o.gravity_mps2, "[9.7, 9.9]", "m/s^2");
+  if (!(o.gravity_mps2 >= 9.7 && o.gravity_mps2 <= 9.9))
+    return OutOfRange("gravity", o.gravity_mps2, "[9.7, 9.9]", "m/s^2");
   if (o.specimen.find_first_of(",\"\n\r") != std::string::npos) {
     return "--specimen '" + o.specimen + "' must not contain commas, quotes or line breaks";
   }
-  if (!(o.free_radius_m >= 0.02 && o.free_radius_m <= 1)) return OutOfRange("free-radius", o.free_radius_m, "[0.02, 1]", "m");
+  if (!(o.free_radius_m >= 0.02 && o.free_radius_m <= 1))
+    return OutOfRange("free-radius", o.free_radius_m, "[0.02, 1]", "m");
   if (!(o.tread_width_m >= 0 && o.tread_width_m <= 1)) return OutOfRange("tread-width", o.tread_width_m, "[0, 1]", "m");
   if (!(o.section_radius_m >= 0 && o.section_radius_m < o.free_radius_m / 2)) {
     return OutOfRange("section-radius", o.section_radius_m, "[0, free radius / 2)", "m");
@@ -386,7 +393,8 @@ std::optional<std::string> ValidateRenderOptions(const RenderCommandOptions& o) 
   if (!(o.container_fps >= 0 && o.container_fps <= 1e6)) {
     return OutOfRange("container-fps", o.container_fps, "0 (the capture rate) or (0, 1e6]", "frames/s");
   }
-  if (!(o.duration_s >= 0 && o.duration_s <= 60)) return OutOfRange("duration", o.duration_s, "0 (auto) or (0, 60]", "s");
+  if (!(o.duration_s >= 0 && o.duration_s <= 60))
+    return OutOfRange("duration", o.duration_s, "0 (auto) or (0, 60]", "s");
   if (!(o.pre_release_s >= 0 && o.pre_release_s <= 1)) return OutOfRange("pre-release", o.pre_release_s, "[0, 1]", "s");
   if (o.lens_views < 1 || o.lens_views > 12) return OutOfRange("lens-views", o.lens_views, "1..12", "");
   if (o.first_frames < 0) return OutOfRange("first-frames", o.first_frames, "0 (all) or more", "");
@@ -605,8 +613,7 @@ int RunRender(const RenderCommandOptions& options) {
                 << out_of_view << " frames (marker_in_view = false in truth.json)\n";
     }
     std::cerr << "dropfit render: " << job.truth.clip << ": " << job.truth.frames.size() << " frames, "
-              << trajectory.impacts().size() << " impacts, " << std::fixed << std::setprecision(1) << seconds
-              << " s\n";
+              << trajectory.impacts().size() << " impacts, " << std::fixed << std::setprecision(1) << seconds << " s\n";
   };
   auto worker = [&]() {
     for (size_t i = next_job++; i < jobs.size(); i = next_job++) {

@@ -24,7 +24,6 @@ std::string Num(double v, int significant = 4) {
   return buf;
 }
 
-
 std::string Scaled(double v, double scale, int decimals) {
   if (!std::isfinite(v)) return "&ndash;";
   char buf[48];
@@ -67,8 +66,8 @@ svg .cg{stroke:#e4e0d6;stroke-width:1}
 void AttentionList(std::ostringstream& html, const std::vector<std::pair<std::string, std::string>>& items,
                    const std::string& title, bool bad) {
   if (items.empty()) return;
-  html << "<div class=\"attention" << (bad ? " bad" : "") << "\"><strong>" << EscapeHtml(title) << " ("
-       << items.size() << ")</strong><ul>";
+  html << "<div class=\"attention" << (bad ? " bad" : "") << "\"><strong>" << EscapeHtml(title) << " (" << items.size()
+       << ")</strong><ul>";
   for (const auto& [clip, message] : items) {
     html << "<li>" << (clip.empty() ? "" : "<strong>" + EscapeHtml(clip) + "</strong>: ") << EscapeHtml(message)
          << "</li>";
@@ -124,19 +123,21 @@ void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fit
           "<th>onset height [mm]</th><th>RMS residual [&micro;m]</th><th>BIC</th><th>&Delta;BIC</th>"
           "<th class=\"t\">converged</th></tr>";
   for (const FitRecord* f : fits) {
-    html << "<tr" << (best && *best == f->law ? " class=\"best\"" : "") << "><td class=\"t\"><span style=\"color:"
-         << LawColour(f->law) << "\">&#9632;</span> " << EscapeHtml(f->law) << "</td><td class=\"t\">"
-         << ParamText(*f) << "</td><td>" << Scaled(f->onset_height_m, 1e3, 2) << " (" << EscapeHtml(f->onset_height_source)
-         << ")</td><td>" << Scaled(f->rms_residual_m, 1e6, 1) << "</td><td>" << Scaled(f->bic, 1, 1) << "</td><td>"
-         << (std::isfinite(best_bic) && f->converged ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;") << "</td><td class=\"t\">"
-         << (f->converged ? "yes" : "no") << "</td></tr>";
+    html << "<tr" << (best && *best == f->law ? " class=\"best\"" : "")
+         << "><td class=\"t\"><span style=\"color:" << LawColour(f->law) << "\">&#9632;</span> " << EscapeHtml(f->law)
+         << "</td><td class=\"t\">" << ParamText(*f) << "</td><td>" << Scaled(f->onset_height_m, 1e3, 2) << " ("
+         << EscapeHtml(f->onset_height_source) << ")</td><td>" << Scaled(f->rms_residual_m, 1e6, 1) << "</td><td>"
+         << Scaled(f->bic, 1, 1) << "</td><td>"
+         << (std::isfinite(best_bic) && f->converged ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;")
+         << "</td><td class=\"t\">" << (f->converged ? "yes" : "no") << "</td></tr>";
   }
   html << "</table>";
 }
 
 void SpecimenSection(std::ostringstream& html, const SpecimenSummary& sp) {
   html << "<h2>Specimen: " << EscapeHtml(sp.specimen.empty() ? "(unnamed)" : sp.specimen) << "</h2>";
-  html << "<p>Best law by BIC over all heights: <strong>" << EscapeHtml(sp.best_law.value_or("none")) << "</strong></p>";
+  html << "<p>Best law by BIC over all heights: <strong>" << EscapeHtml(sp.best_law.value_or("none"))
+       << "</strong></p>";
   std::vector<const FitRecord*> fits;
   for (const JointFitRecord& jf : sp.joint_fits) fits.push_back(&jf.fit);
   html << "<h3>Joint fits (one law, one onset height, all clips)</h3>";
@@ -184,7 +185,8 @@ void RigSection(std::ostringstream& html, const Summary& summary) {
   if (!summary.run.empty()) {
     html << "<table><tr><th class=\"t\">run setting</th><th class=\"t\">value</th></tr>";
     for (const auto& [name, value] : summary.run) {
-      html << "<tr><td class=\"t\">" << EscapeHtml(name) << "</td><td class=\"t\">" << EscapeHtml(value) << "</td></tr>";
+      html << "<tr><td class=\"t\">" << EscapeHtml(name) << "</td><td class=\"t\">" << EscapeHtml(value)
+           << "</td></tr>";
     }
     html << "</table>";
   }
@@ -194,8 +196,8 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
   const ClipResult& r = clip.result;
   html << "<div class=\"clip\"><h3>Clip " << EscapeHtml(r.clip) << "</h3><p class=\"small\">" << r.frames
        << " frames at " << Num(r.capture_fps, 6) << " frames/s (" << EscapeHtml(r.capture_fps_source) << "), "
-       << r.tracked_frames << " tracked; y origin: " << EscapeHtml(r.y_origin) << "; best law: "
-       << EscapeHtml(r.best_law.value_or("none")) << "; flight acceleration "
+       << r.tracked_frames << " tracked; y origin: " << EscapeHtml(r.y_origin)
+       << "; best law: " << EscapeHtml(r.best_law.value_or("none")) << "; flight acceleration "
        << (r.gravity_check.flight_accel_mps2 ? Num(*r.gravity_check.flight_accel_mps2, 5) : std::string("&ndash;"))
        << " m/s&sup2; (expected " << Num(r.gravity_check.expected_mps2, 6) << ")</p>";
   if (!r.impacts.empty()) {

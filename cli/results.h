@@ -20,11 +20,11 @@ using NamedTexts = std::vector<std::pair<std::string, std::string>>;
 
 // One row of track.csv. Coordinates are empty where the marker was not found (never invented).
 struct TrackRow {
-  int frame = 0;                    // counts from 0 in the clip
-  double t_s = 0.0;                 // frame / capture rate: mid-exposure time
+  int frame = 0;                     // counts from 0 in the clip
+  double t_s = 0.0;                  // frame / capture rate: mid-exposure time
   std::optional<double> u_px, v_px;  // image position, OpenCV pixel convention
   std::optional<double> x_m, y_m;    // drop-plane position, y up
-  double quality = 0.0;             // [0, 1]
+  double quality = 0.0;              // [0, 1]
 };
 
 // A sampled curve kept for the report, so `dropfit report` can redraw without re-running.
@@ -63,17 +63,17 @@ struct ImpactRecord {
 };
 
 struct FitRecord {
-  std::string law;                 // a law id of analysis/contact_law.h
-  NamedValues params;              // contract names, in the law's order
-  NamedValues param_sd;            // standard deviations, same names
+  std::string law;       // a law id of analysis/contact_law.h
+  NamedValues params;    // contract names, in the law's order
+  NamedValues param_sd;  // standard deviations, same names
   double onset_height_m = 0.0;
   std::string onset_height_source = "fit";  // "geometry" or "fit"
-  std::vector<int> bounces;        // indices into `impacts`
+  std::vector<int> bounces;                 // indices into `impacts`
   double rms_residual_m = 0.0;
   double bic = 0.0;
   bool converged = false;
-  NamedValues extra;               // e.g. iterations, cost
-  NamedTexts notes;                // e.g. formula, geometry assumed
+  NamedValues extra;  // e.g. iterations, cost
+  NamedTexts notes;   // e.g. formula, geometry assumed
 };
 
 struct ClipResult {
@@ -89,9 +89,9 @@ struct ClipResult {
   std::optional<std::string> best_law;
   std::vector<std::string> warnings;
   std::vector<std::string> errors;
-  NamedValues extra;               // e.g. noise estimate, tilt
-  NamedTexts info;                 // e.g. marker kind chosen and why
-  std::vector<Curve> curves;       // for the report
+  NamedValues extra;          // e.g. noise estimate, tilt
+  NamedTexts info;            // e.g. marker kind chosen and why
+  std::vector<Curve> curves;  // for the report
 };
 
 // One row of summary.csv: a (specimen, nominal height) group. `*_sd` empty for one clip.
@@ -127,7 +127,7 @@ struct SpecimenSummary {
   std::string specimen;
   std::optional<std::string> best_law;
   std::vector<JointFitRecord> joint_fits;
-  std::vector<Curve> curves;       // for the report (COR against impact speed)
+  std::vector<Curve> curves;  // for the report (COR against impact speed)
 };
 
 struct ClipMessage {

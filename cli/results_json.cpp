@@ -50,11 +50,11 @@ NamedValues GetValues(const json& j) {
   return out;
 }
 
-const char* const kImpactKeys[] = {"t_contact_s", "t_separation_s", "impact_speed_mps", "rebound_speed_mps",
-                                   "cor", "contact_duration_s", "max_deflection_m", "peak_force_n",
-                                   "onset_height_m", "onset_height_source", "source", "complete"};
-const char* const kFitKeys[] = {"law", "params", "param_sd", "onset_height_m", "onset_height_source", "bounces",
-                                "rms_residual_m", "bic", "converged"};
+const char* const kImpactKeys[] = {
+    "t_contact_s",      "t_separation_s", "impact_speed_mps", "rebound_speed_mps",   "cor",    "contact_duration_s",
+    "max_deflection_m", "peak_force_n",   "onset_height_m",   "onset_height_source", "source", "complete"};
+const char* const kFitKeys[] = {"law",     "params",         "param_sd", "onset_height_m", "onset_height_source",
+                                "bounces", "rms_residual_m", "bic",      "converged"};
 
 bool IsKey(const std::string& key, const auto& keys) {
   for (const char* k : keys) {
@@ -67,9 +67,12 @@ bool IsKey(const std::string& key, const auto& keys) {
 void ReadExtras(const json& j, const auto& keys, NamedValues& numbers, NamedTexts* texts) {
   for (auto it = j.begin(); it != j.end(); ++it) {
     if (IsKey(it.key(), keys)) continue;
-    if (it.value().is_number()) numbers.emplace_back(it.key(), it.value().get<double>());
-    else if (it.value().is_null()) numbers.emplace_back(it.key(), std::nan(""));
-    else if (texts && it.value().is_string()) texts->emplace_back(it.key(), it.value().get<std::string>());
+    if (it.value().is_number())
+      numbers.emplace_back(it.key(), it.value().get<double>());
+    else if (it.value().is_null())
+      numbers.emplace_back(it.key(), std::nan(""));
+    else if (texts && it.value().is_string())
+      texts->emplace_back(it.key(), it.value().get<std::string>());
   }
 }
 
@@ -94,8 +97,8 @@ std::vector<Curve> CurvesFromJson(const json& j) {
   std::vector<Curve> out;
   if (!j.contains("curves")) return out;
   for (const json& c : j.at("curves")) {
-    out.push_back({c.at("name").get<std::string>(), c.at("kind").get<std::string>(), NumbersOf(c.at("x")),
-                   NumbersOf(c.at("y"))});
+    out.push_back(
+        {c.at("name").get<std::string>(), c.at("kind").get<std::string>(), NumbersOf(c.at("x")), NumbersOf(c.at("y"))});
   }
   return out;
 }
@@ -221,10 +224,9 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     if (j.contains("best_law") && j["best_law"].is_string()) r.best_law = j["best_law"].get<std::string>();
     r.warnings = j.value("warnings", std::vector<std::string>{});
     r.errors = j.value("errors", std::vector<std::string>{});
-    static const char* const kTop[] = {"clip",   "capture_fps", "capture_fps_source", "frames",
-                                       "tracked_frames", "y_origin", "gravity_check", "impacts",
-                                       "fits",   "best_law",    "warnings",           "errors",
-                                       "curves"};
+    static const char* const kTop[] = {
+        "clip",    "capture_fps", "capture_fps_source", "frames",   "tracked_frames", "y_origin", "gravity_check",
+        "impacts", "fits",        "best_law",           "warnings", "errors",         "curves"};
     ReadExtras(j, kTop, r.extra, &r.info);
     r.curves = CurvesFromJson(j);
     return r;

@@ -144,8 +144,8 @@ calib::Rig RigFromJson(const json& j, const Reader& in) {
   }
 
   const json& plane = in.Field(j, "", "plane");
-  rig.plane_from_undistorted = in.Matrix33(in.Field(plane, "plane", "plane_from_undistorted"),
-                                           "plane.plane_from_undistorted");
+  rig.plane_from_undistorted =
+      in.Matrix33(in.Field(plane, "plane", "plane_from_undistorted"), "plane.plane_from_undistorted");
   rig.plane_rvec_rad = in.OptVector3(plane, "plane", "rvec_rad");
   rig.plane_tvec_m = in.OptVector3(plane, "plane", "tvec_m");
   rig.plane_view = in.TextOr(plane, "plane", "view", "");
@@ -163,7 +163,8 @@ calib::Rig RigFromJson(const json& j, const Reader& in) {
   if (j.contains("board") && !j.at("board").is_null()) {
     const json& board = j.at("board");
     try {
-      rig.board = calib::BoardSizeFromString(in.Text(board, "board", "inner_corners"), in.Num(board, "board", "square_m"));
+      rig.board =
+          calib::BoardSizeFromString(in.Text(board, "board", "inner_corners"), in.Num(board, "board", "square_m"));
     } catch (const std::invalid_argument& e) {
       in.Fail(std::string("field 'board': ") + e.what());
     }
@@ -229,7 +230,8 @@ std::string RigToJson(const calib::Rig& rig) {
                 {"tvec_m", Vector3(rig.plane_tvec_m)}};
   ordered_json up_at_centre = nullptr;
   if (!calib::ValidateRig(rig)) {
-    const cv::Vec2d d = calib::ImageUpDirection(rig, {0.5 * (rig.image_size.width - 1), 0.5 * (rig.image_size.height - 1)});
+    const cv::Vec2d d =
+        calib::ImageUpDirection(rig, {0.5 * (rig.image_size.width - 1), 0.5 * (rig.image_size.height - 1)});
     up_at_centre = {Number(d[0]), Number(d[1])};
   }
   j["vertical"] = {{"up", calib::ToString(rig.up)}, {"image_up_at_centre", up_at_centre}};

@@ -225,8 +225,8 @@ int RunRun(const RunCommandOptions& options) {
         slot.result.errors.push_back(e.what());
       }
       char line[256];
-      std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(),
-                    slot.analysed ? "analysed" : "FAILED", slot.seconds);
+      std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(), slot.analysed ? "analysed" : "FAILED",
+                    slot.seconds);
       progress.ClipDone(line);
     }
   };

@@ -36,12 +36,23 @@ std::string EscapeHtml(const std::string& text) {
   out.reserve(text.size());
   for (char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&#39;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&#39;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -92,8 +103,14 @@ std::string RenderSvg(const Plot& plot) {
     svg << "<text x=\"" << w / 2 << "\" y=\"" << h / 2 << "\" text-anchor=\"middle\" class=\"cl\">no data</text></svg>";
     return svg.str();
   }
-  if (x_hi - x_lo < 1e-12 * std::max(1.0, std::abs(x_lo))) { x_lo -= 0.5; x_hi += 0.5; }
-  if (y_hi - y_lo < 1e-12 * std::max(1.0, std::abs(y_lo))) { y_lo -= 0.5; y_hi += 0.5; }
+  if (x_hi - x_lo < 1e-12 * std::max(1.0, std::abs(x_lo))) {
+    x_lo -= 0.5;
+    x_hi += 0.5;
+  }
+  if (y_hi - y_lo < 1e-12 * std::max(1.0, std::abs(y_lo))) {
+    y_lo -= 0.5;
+    y_hi += 0.5;
+  }
   const double y_pad = 0.05 * (y_hi - y_lo);
   y_lo -= y_pad;
   y_hi += y_pad;

@@ -154,9 +154,10 @@ int RunTrack(const TrackCommandOptions& options) {
   result.clip = ClipIdOf(clip_path);
   result.y_origin = calib::ToString(rig.y_origin);
   result.info.push_back({"clip_path", options.clip});
-  result.info.push_back({"track_options", "marker=" + options.marker + (options.seed.empty() ? "" : " seed=" + options.seed) +
-                                              (options.fps ? " fps=" + Num(*options.fps) : "") +
-                                              (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
+  result.info.push_back(
+      {"track_options", "marker=" + options.marker + (options.seed.empty() ? "" : " seed=" + options.seed) +
+                            (options.fps ? " fps=" + Num(*options.fps) : "") +
+                            (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
   const fs::path out(options.out_dir);
 
   std::unique_ptr<tracker::FrameSource> source;
@@ -197,9 +198,8 @@ int RunTrack(const TrackCommandOptions& options) {
     overlay.path = options.overlay_path;
     tracker::Track track;
     try {
-      track = tracker::TrackClip(
-          *source, track_options, progress.enabled() ? tracker::ProgressCallback(std::ref(progress)) : nullptr,
-          overlay);
+      track = tracker::TrackClip(*source, track_options,
+                                 progress.enabled() ? tracker::ProgressCallback(std::ref(progress)) : nullptr, overlay);
     } catch (const std::invalid_argument& e) {
       progress.Done();
       return BadUsage(e.what());

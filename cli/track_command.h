@@ -28,13 +28,13 @@
 namespace dropfit::cli {
 
 struct TrackCommandOptions {
-  std::string clip;                 // video file or folder of numbered images
-  std::string rig_path;             // rig.json from `dropfit calibrate`
-  std::optional<double> fps;        // true capture rate [frames/s]; overrides rig and container
-  std::string marker = "auto";      // auto|quadrant|dot|template
-  std::string seed;                 // "U,V" [px] to pick one marker among several
-  std::string overlay_path;         // optional overlay video (.avi, .mp4, .mov, .mkv)
-  std::string out_dir;              // folder for track.csv and result.json
+  std::string clip;             // video file or folder of numbered images
+  std::string rig_path;         // rig.json from `dropfit calibrate`
+  std::optional<double> fps;    // true capture rate [frames/s]; overrides rig and container
+  std::string marker = "auto";  // auto|quadrant|dot|template
+  std::string seed;             // "U,V" [px] to pick one marker among several
+  std::string overlay_path;     // optional overlay video (.avi, .mp4, .mov, .mkv)
+  std::string out_dir;          // folder for track.csv and result.json
 };
 
 // Returns the contract's exit status.
@@ -42,10 +42,10 @@ int RunTrack(const TrackCommandOptions& options);
 
 // The capture rate of a clip and where it came from.
 struct CaptureRate {
-  double fps = 0.0;                   // [frames/s]
-  std::string source;                 // "option" | "manifest" | "rig" | "container"
-  std::optional<std::string> warning; // set when only the container's rate was found and it
-                                      // looks like a playback rate (<= kPlaybackRateMaxFps)
+  double fps = 0.0;                    // [frames/s]
+  std::string source;                  // "option" | "manifest" | "rig" | "container"
+  std::optional<std::string> warning;  // set when only the container's rate was found and it
+                                       // looks like a playback rate (<= kPlaybackRateMaxFps)
 };
 // Highest container rate still taken for a playback rate [frames/s] (the 120).
 inline constexpr double kPlaybackRateMaxFps = 120.0;

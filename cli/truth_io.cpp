@@ -128,9 +128,17 @@ json ClipJson(const ClipTruth& c) {
     contact.push_back(f.in_contact);
     in_view.push_back(f.marker_in_view);
   }
-  j["frames"] = {{"frame", frame}, {"t_s", t},       {"u_px", u},       {"v_px", v},
-                 {"x_m", x},       {"y_m", y},       {"spin_rad", spin}, {"vy_mps", vy},
-                 {"contact_force_n", force}, {"in_contact", contact}, {"marker_in_view", in_view}};
+  j["frames"] = {{"frame", frame},
+                 {"t_s", t},
+                 {"u_px", u},
+                 {"v_px", v},
+                 {"x_m", x},
+                 {"y_m", y},
+                 {"spin_rad", spin},
+                 {"vy_mps", vy},
+                 {"contact_force_n", force},
+                 {"in_contact", contact},
+                 {"marker_in_view", in_view}};
   return j;
 }
 

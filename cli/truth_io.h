@@ -43,29 +43,29 @@
 namespace dropfit::cli {
 
 struct ClipTruth {
-  std::string clip;                  // file (or folder) name in the output folder
-  std::string clip_id;               // contract clip id
-  double drop_height_m = 0.0;        // nominal (manifest)
+  std::string clip;                    // file (or folder) name in the output folder
+  std::string clip_id;                 // contract clip id
+  double drop_height_m = 0.0;          // nominal (manifest)
   double release_drop_height_m = 0.0;  // tyre's lowest point at release, as simulated
-  double release_time_s = 0.0;       // release instant on the clip clock
+  double release_time_s = 0.0;         // release instant on the clip clock
   double capture_fps = 0.0;
   double container_fps = 0.0;
   uint64_t noise_seed = 0;
-  double onset_height_m = 0.0;       // hub height at first contact (= free radius)
+  double onset_height_m = 0.0;  // hub height at first contact (= free radius)
   double start_x_m = 0.0, start_spin_rad = 0.0, drift_mps = 0.0, spin_radps = 0.0;
   std::vector<analysis::ImpactTruth> impacts;
   std::vector<analysis::FrameTruth> frames;
 };
 
 struct CalibrationViewTruth {
-  std::string file;                  // relative to the output folder
+  std::string file;  // relative to the output folder
   bool drop_plane = false;
   cv::Vec3d board_rvec_rad, board_tvec_m;
   std::vector<cv::Point2d> inner_corners_px;
 };
 
 struct CalibrationTruth {
-  std::string board;                 // "9x6"
+  std::string board;  // "9x6"
   double square_m = 0.0;
   double corner_height_m = 0.0;
   std::vector<CalibrationViewTruth> views;

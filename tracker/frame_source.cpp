@@ -84,7 +84,8 @@ class VideoSource final : public FrameSource {
     if (std::isfinite(fps) && fps > 0) info_.container_fps = fps;
     info_.codec = FourCcText(capture_.get(cv::CAP_PROP_FOURCC));
     if (!capture_.read(bgr_) || bgr_.empty()) {
-      throw std::runtime_error(clip.string() + ": no frame could be decoded (empty, truncated before the first frame, "
+      throw std::runtime_error(clip.string() +
+                               ": no frame could be decoded (empty, truncated before the first frame, "
                                "or an unsupported codec); check the file plays, or export it as MJPG .avi or images");
     }
     info_.size = bgr_.size();

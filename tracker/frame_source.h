@@ -50,8 +50,8 @@ enum class ReadStatus {
 
 struct FrameRead {
   ReadStatus status = ReadStatus::kEnd;
-  int frame = 0;        // index of the frame in the clip, counting from 0
-  std::string message;  // for kError: names the file and frame, and what went wrong
+  int frame = 0;         // index of the frame in the clip, counting from 0
+  std::string message;   // for kError: names the file and frame, and what went wrong
   bool is_frame = true;  // false for an error that is no frame of the clip (decoding stopped)
 };
 

@@ -132,8 +132,7 @@ std::optional<MarkerCandidate> VerifyQuadrant(const cv::Mat& g, cv::Point2d p, c
 }
 
 // Radius where the ring-mean profile crosses halfway between inside and outside levels.
-bool DotProfile(const cv::Mat& g, cv::Point2d c, double r_guess, double& radius, double& level_in,
-                double& level_out) {
+bool DotProfile(const cv::Mat& g, cv::Point2d c, double r_guess, double& radius, double& level_in, double& level_out) {
   const double rho_max = 2.0 * r_guess + 5.0;
   std::vector<std::pair<double, double>> prof;
   for (double rho = 0; rho <= rho_max; rho += 0.5) {
@@ -176,8 +175,7 @@ bool DotProfile(const cv::Mat& g, cv::Point2d c, double r_guess, double& radius,
 std::optional<MarkerCandidate> VerifyDot(const cv::Mat& g, cv::Point2d p, double r_guess, const DetectOptions& o) {
   double radius = 0, in = 0, out = 0;
   if (!DotProfile(g, p, r_guess, radius, in, out)) return std::nullopt;
-  if (std::abs(in - out) < o.min_contrast || radius < o.min_radius_px || radius > o.max_radius_px)
-    return std::nullopt;
+  if (std::abs(in - out) < o.min_contrast || radius < o.min_radius_px || radius > o.max_radius_px) return std::nullopt;
   SymmetryFitOptions so;
   so.window_radius_px = radius + 3.0;
   so.max_shift_px = std::max(2.0, 0.5 * radius);
@@ -218,8 +216,8 @@ std::optional<std::string> ValidateDetectOptions(const DetectOptions& o) {
 std::string MarkerCandidate::Describe() const {
   std::string s = kind == MarkerKind::kQuadrant ? "quadrant disc" : (bright ? "bright dot" : "dark dot");
   s += " of radius " + Num(radius_px, "%.1f") + " px at (" + Num(centre_px.x, "%.2f") + ", " +
-       Num(centre_px.y, "%.2f") + "): half-turn correlation " + Num(half_turn_corr, "%.3f") +
-       ", quarter-turn " + Num(quarter_turn_corr, "%.3f") + ", contrast " + Num(contrast, "%.0f");
+       Num(centre_px.y, "%.2f") + "): half-turn correlation " + Num(half_turn_corr, "%.3f") + ", quarter-turn " +
+       Num(quarter_turn_corr, "%.3f") + ", contrast " + Num(contrast, "%.0f");
   return s;
 }
 
@@ -303,8 +301,10 @@ std::vector<MarkerCandidate> FindMarkerCandidates(const cv::Mat& grey, const cv:
       if (level != base_level || ext != base_rect) {
         grey(ext).convertTo(base, CV_32F);
         if (level > 0) {
-          cv::resize(base, base, cv::Size(std::max(1, static_cast<int>(ext.width / f)),
-                                           std::max(1, static_cast<int>(ext.height / f))), 0, 0, cv::INTER_AREA);
+          cv::resize(
+              base, base,
+              cv::Size(std::max(1, static_cast<int>(ext.width / f)), std::max(1, static_cast<int>(ext.height / f))), 0,
+              0, cv::INTER_AREA);
         }
         base_level = level;
         base_rect = ext;

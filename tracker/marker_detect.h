@@ -54,7 +54,7 @@ struct MarkerCandidate {
   bool bright = true;                       // dots: brighter than the background
   double half_turn_corr = 0.0;
   double quarter_turn_corr = 0.0;
-  double score = 0.0;                       // [0, 1]; higher is more marker-like
+  double score = 0.0;  // [0, 1]; higher is more marker-like
   // One line for the user, e.g. "quadrant disc of radius 15.1 px at (402.31, 288.70): half-turn
   // correlation 0.998, quarter-turn -0.995, contrast 158".
   std::string Describe() const;

@@ -19,7 +19,8 @@ cv::Point Fixed(cv::Point2d p) {
 
 int FourCcFor(const std::filesystem::path& path) {
   std::string ext = path.extension().string();
-  std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+  std::transform(ext.begin(), ext.end(), ext.begin(),
+                 [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
   if (ext == ".avi") return cv::VideoWriter::fourcc('M', 'J', 'P', 'G');
   if (ext == ".mp4" || ext == ".mov") return cv::VideoWriter::fourcc('m', 'p', '4', 'v');
   if (ext == ".mkv") return cv::VideoWriter::fourcc('F', 'F', 'V', '1');

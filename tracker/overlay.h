@@ -20,8 +20,8 @@ namespace dropfit::tracker {
 
 class OverlayWriter {
  public:
-  // Opens the video; `marker_radius_px` is drawn when a report carries none. Throws std::invalid_argument on an unknown extension or bad options, and
-  // std::runtime_error naming the file when it cannot be opened for writing.
+  // Opens the video; `marker_radius_px` is drawn when a report carries none. Throws std::invalid_argument on an unknown
+  // extension or bad options, and std::runtime_error naming the file when it cannot be opened for writing.
   OverlayWriter(const OverlayOptions& options, cv::Size frame_size, double marker_radius_px);
 
   // Draws one frame (CV_8UC1) with what the tracker reported and appends it.

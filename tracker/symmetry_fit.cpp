@@ -92,8 +92,8 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
 
   // Float patch with gradients covering every sample the fit may take.
   const int reach = static_cast<int>(std::ceil(options_.window_radius_px + options_.max_shift_px)) + 2;
-  const cv::Rect want(static_cast<int>(std::floor(start_px.x)) - reach, static_cast<int>(std::floor(start_px.y)) - reach,
-                      2 * reach + 2, 2 * reach + 2);
+  const cv::Rect want(static_cast<int>(std::floor(start_px.x)) - reach,
+                      static_cast<int>(std::floor(start_px.y)) - reach, 2 * reach + 2, 2 * reach + 2);
   const cv::Rect rect = want & cv::Rect(0, 0, grey.cols, grey.rows);
   if (rect.width < 3 || rect.height < 3) {
     res.inside = false;
@@ -151,8 +151,8 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
       }
       const double s = 0.5 * (p.value + m.value);
       const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
-      const double j[6] = {p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x),
-                           -static_cast<double>(d.y)};
+      const double j[6] = {
+          p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
       for (int i = 0; i < n_params; ++i) {
         jtr[i] += j[i] * r;
         for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];

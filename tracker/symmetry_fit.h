@@ -63,12 +63,12 @@ struct SymmetryFitOptions {
 std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& options);
 
 struct SymmetryFitResult {
-  cv::Point2d centre_px;     // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
-  double quality = 0.0;      // [0, 1], see above
-  double residual_rms = 0.0; // RMS of r(d) [grey levels]
+  cv::Point2d centre_px;      // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
+  double quality = 0.0;       // [0, 1], see above
+  double residual_rms = 0.0;  // RMS of r(d) [grey levels]
   int iterations = 0;
-  bool converged = false;    // false: did not settle, moved too far, or left the image
-  bool inside = true;        // false: part of the window fell outside the image
+  bool converged = false;  // false: did not settle, moved too far, or left the image
+  bool inside = true;      // false: part of the window fell outside the image
 };
 
 // Holds the offset list for one set of options; cheap to call many times, no shared state

@@ -48,7 +48,8 @@ std::optional<std::string> ValidateTrackOptions(const TrackOptions& o) {
     return "detect_frames = " + std::to_string(o.detect_frames) + " is outside [1, 1000000]";
   if (o.detect_every_frames < 1 || o.detect_every_frames > 1000000)
     return "detect_every_frames = " + std::to_string(o.detect_every_frames) + " is outside [1, 1000000]";
-  if (!in(o.search_margin_px, 1, 200)) return "search_margin_px = " + Num(o.search_margin_px) + " px is outside [1, 200]";
+  if (!in(o.search_margin_px, 1, 200))
+    return "search_margin_px = " + Num(o.search_margin_px) + " px is outside [1, 200]";
   if (!(o.min_quality >= 0 && o.min_quality < 1)) return "min_quality = " + Num(o.min_quality) + " is outside [0, 1)";
   if (!in(o.template_radius_px, 3, 100))
     return "template_radius_px = " + Num(o.template_radius_px) + " px is outside [3, 100]";
@@ -62,7 +63,8 @@ std::optional<std::string> ValidateTrackOptions(const TrackOptions& o) {
     return "history_frames = " + std::to_string(o.history_frames) + " is outside [1, 50]";
   if (o.history_span_frames < 1 || o.history_span_frames > 1000)
     return "history_span_frames = " + std::to_string(o.history_span_frames) + " is outside [1, 1000]";
-  if (!in(o.presmooth_sigma_px, 0, 3)) return "presmooth_sigma_px = " + Num(o.presmooth_sigma_px) + " is outside [0, 3]";
+  if (!in(o.presmooth_sigma_px, 0, 3))
+    return "presmooth_sigma_px = " + Num(o.presmooth_sigma_px) + " is outside [0, 3]";
   if (o.queue_frames < 1 || o.queue_frames > 256)
     return "queue_frames = " + std::to_string(o.queue_frames) + " is outside [1, 256]";
   if (o.seed_px && !(std::isfinite(o.seed_px->x) && std::isfinite(o.seed_px->y))) return "seed_px is not finite";
@@ -101,8 +103,8 @@ struct MarkerTracker::Impl {
   int last_detect_frame = -1;
 
   // Tracking state.
-  int lost_since = -1;        // first frame of the current loss, or -1 while tracking
-  int reacquire_level = 0;    // doublings of the re-acquisition window
+  int lost_since = -1;      // first frame of the current loss, or -1 while tracking
+  int reacquire_level = 0;  // doublings of the re-acquisition window
   int last_reacquire_frame = -1;
   bool reported_leaving = false;
   cv::Point2d last_prediction{0, 0};
@@ -158,8 +160,8 @@ struct MarkerTracker::Impl {
 
   bool ChooseTemplate(const cv::Mat& grey, cv::Point2d seed, const std::string& why) {
     const int r = static_cast<int>(std::lround(o.template_radius_px));
-    const cv::Rect rect(static_cast<int>(std::lround(seed.x)) - r, static_cast<int>(std::lround(seed.y)) - r,
-                        2 * r + 1, 2 * r + 1);
+    const cv::Rect rect(static_cast<int>(std::lround(seed.x)) - r, static_cast<int>(std::lround(seed.y)) - r, 2 * r + 1,
+                        2 * r + 1);
     if ((rect & cv::Rect(0, 0, grey.cols, grey.rows)) != rect) return false;
     grey(rect).convertTo(templ, CV_32F);
     cv::Scalar mean, sd;
@@ -168,8 +170,7 @@ struct MarkerTracker::Impl {
     kind = MarkerKind::kTemplate;
     radius_px = r;
     choice = why + "template patch of " + std::to_string(2 * r + 1) + "x" + std::to_string(2 * r + 1) +
-             " px centred at " + Point(cv::Point2d(rect.x + r, rect.y + r)) + ", grey-level s.d. " +
-             Num(sd[0], "%.1f");
+             " px centred at " + Point(cv::Point2d(rect.x + r, rect.y + r)) + ", grey-level s.d. " + Num(sd[0], "%.1f");
     if (sd[0] < 5.0) {
       warnings.push_back("the template patch at " + Point(seed) + " is nearly flat (grey-level s.d. " +
                          Num(sd[0], "%.1f") + "); tracking will be poor: put --seed on a textured spot");
@@ -181,8 +182,8 @@ struct MarkerTracker::Impl {
   bool TryChoose(const cv::Mat& grey) {
     const cv::Rect frame_rect(0, 0, grey.cols, grey.rows);
     if (o.seed_px && !frame_rect.contains(cv::Point(static_cast<int>(o.seed_px->x), static_cast<int>(o.seed_px->y)))) {
-      throw std::invalid_argument("seed " + Point(*o.seed_px) + " lies outside the " + std::to_string(grey.cols) +
-                                  "x" + std::to_string(grey.rows) + " frame; give --seed U,V in pixels of the frame");
+      throw std::invalid_argument("seed " + Point(*o.seed_px) + " lies outside the " + std::to_string(grey.cols) + "x" +
+                                  std::to_string(grey.rows) + " frame; give --seed U,V in pixels of the frame");
     }
     if (o.marker == MarkerKind::kTemplate) {
       return ChooseTemplate(grey, *o.seed_px, "template as asked (--marker template, --seed): ");
@@ -203,9 +204,9 @@ struct MarkerTracker::Impl {
         return true;
       }
       if (o.marker == MarkerKind::kAuto) {
-        return ChooseTemplate(grey, *o.seed_px,
-                              "no quadrant disc or dot near the seed " + Point(*o.seed_px) +
-                                  ", so the patch there is followed as a ");
+        return ChooseTemplate(
+            grey, *o.seed_px,
+            "no quadrant disc or dot near the seed " + Point(*o.seed_px) + ", so the patch there is followed as a ");
       }
       return false;
     }
@@ -232,9 +233,8 @@ struct MarkerTracker::Impl {
         others += (n_others++ ? "; " : "") + cands[i].Describe();
       }
       if (n_others > 0) {
-        warnings.push_back("several marker candidates in frame " + std::to_string(samples.size()) +
-                           "; following the " + cands[0].Describe() + "; others: " + others +
-                           ". Give --seed U,V to pick another");
+        warnings.push_back("several marker candidates in frame " + std::to_string(samples.size()) + "; following the " +
+                           cands[0].Describe() + "; others: " + others + ". Give --seed U,V to pick another");
       }
     }
     ChooseFrom(cands[0], why);
@@ -317,14 +317,15 @@ struct MarkerTracker::Impl {
   FrameReport Process(int frame, const cv::Mat& grey) {
     CV_Assert(grey.type() == CV_8UC1);
     CV_Assert(frame >= static_cast<int>(samples.size()));
-    while (static_cast<int>(samples.size()) < frame) samples.push_back({static_cast<int>(samples.size()), false, {}, 0});
+    while (static_cast<int>(samples.size()) < frame)
+      samples.push_back({static_cast<int>(samples.size()), false, {}, 0});
     FrameReport rep;
     rep.sample.frame = frame;
     const cv::Rect frame_rect(0, 0, grey.cols, grey.rows);
 
     if (!chosen) {
-      const bool attempt = detect_attempts_frames < o.detect_frames ||
-                           frame - last_detect_frame >= o.detect_every_frames;
+      const bool attempt =
+          detect_attempts_frames < o.detect_frames || frame - last_detect_frame >= o.detect_every_frames;
       if (attempt) {
         ++detect_attempts_frames;
         last_detect_frame = frame;
@@ -332,9 +333,8 @@ struct MarkerTracker::Impl {
         if (TryChoose(grey)) {
           // Locate on this same frame with the tracker's own fit.
           const cv::Point2d start = kind == MarkerKind::kTemplate ? *o.seed_px : candidate_centre;
-          Located l = kind == MarkerKind::kTemplate
-                          ? LocateTemplate(grey, SquareAround(start, o.search_margin_px))
-                          : FitAt(grey, start);
+          Located l = kind == MarkerKind::kTemplate ? LocateTemplate(grey, SquareAround(start, o.search_margin_px))
+                                                    : FitAt(grey, start);
           if (l.ok) {
             rep.sample = {frame, true, l.centre, l.quality};
           }
@@ -383,8 +383,8 @@ struct MarkerTracker::Impl {
     } else {
       if (lost_since < 0) {
         lost_since = frame;
-        const double edge = std::min({prediction.x, prediction.y, grey.cols - 1 - prediction.x,
-                                      grey.rows - 1 - prediction.y});
+        const double edge =
+            std::min({prediction.x, prediction.y, grey.cols - 1 - prediction.x, grey.rows - 1 - prediction.y});
         if ((l.outside || edge < radius_px + 2) && !reported_leaving) {
           reported_leaving = true;
           warnings.push_back("marker left the view at frame " + std::to_string(frame) + " (expected at " +
@@ -440,9 +440,10 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
     std::string kinds = o.marker == MarkerKind::kAuto ? "quadrant disc or dot" : ToString(o.marker);
     t.errors.push_back(prefix + "no " + kinds + " marker found (searched frames 0-" +
                        std::to_string(std::min(o.detect_frames, t.frames) - 1) + " and every " +
-                       std::to_string(o.detect_every_frames) + "th frame after; a marker needs a contrast of at least " +
-                       Num(o.detect.min_contrast) + " grey levels and a radius of " + Num(o.detect.min_radius_px) +
-                       "-" + Num(o.detect.max_radius_px) +
+                       std::to_string(o.detect_every_frames) +
+                       "th frame after; a marker needs a contrast of at least " + Num(o.detect.min_contrast) +
+                       " grey levels and a radius of " + Num(o.detect.min_radius_px) + "-" +
+                       Num(o.detect.max_radius_px) +
                        " px). Try: --seed U,V at the marker's centre in the first frame; --marker quadrant or --marker "
                        "dot; or --marker template --seed U,V to follow any textured patch");
   } else if (!t.lost.empty()) {

@@ -82,8 +82,8 @@ std::string FormatFrameRanges(const std::vector<FrameRange>& ranges);
 // What the tracker did on one frame (for the overlay and for tests).
 struct FrameReport {
   TrackSample sample;
-  cv::Rect search_window;    // where the marker was looked for (empty before one was chosen)
-  bool reacquiring = false;  // the marker had been lost before this frame
+  cv::Rect search_window;         // where the marker was looked for (empty before one was chosen)
+  bool reacquiring = false;       // the marker had been lost before this frame
   double marker_radius_px = 0.0;  // of the marker chosen (0 before one was chosen)
 };
 
@@ -92,14 +92,14 @@ struct Track {
   int frames = 0;                    // frames in the clip as read (unreadable ones included)
   int tracked_frames = 0;            // samples with found = true
   bool marker_chosen = false;
-  MarkerKind kind = MarkerKind::kAuto;   // kind followed (kAuto when none was chosen)
-  double marker_radius_px = 0.0;         // disc/dot radius, or template half-size
-  std::string choice;                // what was chosen and why (one sentence)
-  std::vector<FrameRange> lost;      // frames without the marker
-  std::vector<std::string> warnings; // lost ranges, marker leaving the view, other candidates
-  std::vector<std::string> errors;   // unreadable frames, truncation, marker never found
-  double read_seconds = 0.0;         // wall time of the reading thread (decode + grey)
-  double track_seconds = 0.0;        // time spent in the tracker proper
+  MarkerKind kind = MarkerKind::kAuto;  // kind followed (kAuto when none was chosen)
+  double marker_radius_px = 0.0;        // disc/dot radius, or template half-size
+  std::string choice;                   // what was chosen and why (one sentence)
+  std::vector<FrameRange> lost;         // frames without the marker
+  std::vector<std::string> warnings;    // lost ranges, marker leaving the view, other candidates
+  std::vector<std::string> errors;      // unreadable frames, truncation, marker never found
+  double read_seconds = 0.0;            // wall time of the reading thread (decode + grey)
+  double track_seconds = 0.0;           // time spent in the tracker proper
 };
 
 class MarkerTracker {
@@ -128,9 +128,9 @@ class MarkerTracker {
 using ProgressCallback = std::function<void(int, int)>;
 
 struct OverlayOptions {
-  std::filesystem::path path;   // .avi (MJPG), .mp4/.mov (MPEG-4 part 2) or .mkv (FFV1); empty: none
-  double playback_fps = 30.0;   // rate stored in the overlay video [frames/s]; (0, 1000]
-  int trail_frames = 20;        // positions drawn behind the current one; [0, 1000]
+  std::filesystem::path path;  // .avi (MJPG), .mp4/.mov (MPEG-4 part 2) or .mkv (FFV1); empty: none
+  double playback_fps = 30.0;  // rate stored in the overlay video [frames/s]; (0, 1000]
+  int trail_frames = 20;       // positions drawn behind the current one; [0, 1000]
 };
 
 // Reads every frame of `source` on a second thread (bounded queue of options.queue_frames) and

@@ -37,7 +37,8 @@ TEST(Camera, ProjectionMatchesOpenCvProjectPointsToANanopixel) {
     setup.yaw_deg = 3 * uniform(rng);
     const PinholeCamera camera = MakeCamera(setup);
     std::vector<cv::Point3d> world;
-    for (int i = 0; i < 50; ++i) world.emplace_back(0.2 + 0.45 * uniform(rng), 0.3 + 0.35 * uniform(rng), 0.1 * uniform(rng));
+    for (int i = 0; i < 50; ++i)
+      world.emplace_back(0.2 + 0.45 * uniform(rng), 0.3 + 0.35 * uniform(rng), 0.1 * uniform(rng));
     std::vector<cv::Point2d> reference;
     const CameraIntrinsics& k = camera.intrinsics;
     const cv::Matx33d kmat(k.fx_px, 0, k.cx_px, 0, k.fy_px, k.cy_px, 0, 0, 1);

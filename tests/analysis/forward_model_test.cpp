@@ -14,9 +14,9 @@ namespace dropfit::analysis {
 namespace {
 
 // The integrator's default tolerances aim at ~1e-11 m; the references list 9-10 digits.
-constexpr double kReferenceRelative = 1e-6;        // brief: eq. 21 "to 1e-6 relative" (we do better)
-constexpr double kTightRelative = 2e-9;            // 10-digit table values, rounded in the last digit
-constexpr double kTableSixDigits = 6e-6;           // tables printed with 6 significant digits
+constexpr double kReferenceRelative = 1e-6;  // brief: eq. 21 "to 1e-6 relative" (we do better)
+constexpr double kTightRelative = 2e-9;      // 10-digit table values, rounded in the last digit
+constexpr double kTableSixDigits = 6e-6;     // tables printed with 6 significant digits
 
 // One impact starting exactly at the onset height with downward speed v_in.
 Trajectory SimulateSingleImpact(LawId law, std::vector<double> params, double mass_kg, double v_in_mps,
@@ -61,11 +61,10 @@ TEST(ForwardModel, KelvinVoigtDampingSweepMatchesEquation21InEveryBranch) {
   struct Row {
     double zeta, e, omega_tc;
   };
-  const Row rows[] = {{0.05, 0.858758102, 3.045360022}, {0.1, 0.744079398, 2.956075325},
-                      {0.2, 0.571740028, 2.795354441}, {0.3, 0.450975453, 2.654474564},
-                      {0.5, 0.298436059, 2.418399152}, {0.7, 0.210284564, 2.227562282},
-                      {0.9, 0.155282748, 2.069452940}, {1.2, 0.105210491, 1.876493553},
-                      {2.0, 0.047768733, 1.520691993}};
+  const Row rows[] = {
+      {0.05, 0.858758102, 3.045360022}, {0.1, 0.744079398, 2.956075325}, {0.2, 0.571740028, 2.795354441},
+      {0.3, 0.450975453, 2.654474564},  {0.5, 0.298436059, 2.418399152}, {0.7, 0.210284564, 2.227562282},
+      {0.9, 0.155282748, 2.069452940},  {1.2, 0.105210491, 1.876493553}, {2.0, 0.047768733, 1.520691993}};
   const double m = 1.0, k = 1e4, v = 1.0;
   const double omega0 = std::sqrt(k / m);
   for (const Row& row : rows) {
@@ -99,7 +98,7 @@ TEST(ForwardModel, KelvinVoigtWithGravityMatchesTheGravityTable) {
   const ImpactTruth& impact = trajectory.impacts()[0];
   EXPECT_NEAR(impact.contact_duration_s, 0.0214142646, 0.5e-10 + 1e-12);
   EXPECT_NEAR(impact.separation_speed_mps / 2.0, 0.7258884392, 0.5e-10 + 1e-12);  // e_sep
-  EXPECT_NEAR(impact.cor, 0.7184958075, 0.5e-10 + 1e-12);                          // e_level
+  EXPECT_NEAR(impact.cor, 0.7184958075, 0.5e-10 + 1e-12);                         // e_level
   EXPECT_NEAR(impact.separation_deflection_m, 2.1776653e-3, 0.5e-10);
   EXPECT_TRUE(impact.complete);
   // The level rebound follows from the separation state by the flight parabola.
@@ -142,8 +141,7 @@ TEST(ForwardModel, ContactPositionHistoryMatchesTheClosedFormToANanometre) {
     const double t = impact.t_separation_s * i / 2000.0;
     const double e = std::exp(-beta * t);
     const double x = x_eq + e * (-x_eq * std::cos(wd * t) + (v - beta * x_eq) / wd * std::sin(wd * t));
-    const double xdot = -beta * (x - x_eq) +
-                        e * (x_eq * wd * std::sin(wd * t) + (v - beta * x_eq) * std::cos(wd * t));
+    const double xdot = -beta * (x - x_eq) + e * (x_eq * wd * std::sin(wd * t) + (v - beta * x_eq) * std::cos(wd * t));
     const HubState state = trajectory.At(t);
     worst = std::max(worst, std::abs((0.3 - state.y_m) - x));
     worst_velocity = std::max(worst_velocity, std::abs(-state.vy_mps - xdot));
@@ -195,8 +193,8 @@ TEST(ForwardModel, HertzImpactMatchesDeflectionDurationAndPeakForce) {
                       {1, 1, 1, 1.093362074, 3.218065460, 1.143262630},
                       {10, 5e6, 3.131557121, 1.431476668e-2, 1.345410475e-2, 8563.40363}};
   for (const Row& row : rows) {
-    const Trajectory trajectory = SimulateSingleImpact(LawId::kHertz, {row.k, 1.5, 0.0}, row.m, row.v, 0.0,
-                                                       5.0 * row.tc);
+    const Trajectory trajectory =
+        SimulateSingleImpact(LawId::kHertz, {row.k, 1.5, 0.0}, row.m, row.v, 0.0, 5.0 * row.tc);
     ASSERT_GE(trajectory.impacts().size(), 1u);
     const ImpactTruth& impact = trajectory.impacts()[0];
     EXPECT_NEAR(impact.max_deflection_m, row.delta_max, 1e-9 * row.delta_max) << row.k << " " << row.v;
@@ -484,9 +482,9 @@ TEST(ForwardModel, JetDerivativesMatchCentralFiniteDifferences) {
     const int np = ParameterCount(test_case.law);
     // Variables: law params, onset, start height, start velocity.
     std::vector<double> values = test_case.params;
-    values.push_back(0.3);    // onset
-    values.push_back(0.32);   // start height (just above the onset: falling in)
-    values.push_back(-1.9);   // start velocity
+    values.push_back(0.3);   // onset
+    values.push_back(0.32);  // start height (just above the onset: falling in)
+    values.push_back(-1.9);  // start velocity
     const int nv = static_cast<int>(values.size());
     const std::vector<double> times = SampleTimes(0.0, 0.08, 2000.0);
     const int ns = static_cast<int>(times.size());

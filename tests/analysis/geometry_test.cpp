@@ -20,14 +20,18 @@ TEST(Geometry, CircularSegmentAreaMatchesTheHandbookTable) {
   struct Row {
     double r, d, area;
   };
-  const Row rows[] = {{0.25, 0.005, 3.323315406e-4}, {0.25, 0.010, 9.371318255e-4}, {0.25, 0.020, 2.634434465e-3},
-                      {0.30, 0.010, 1.027616112e-3}, {1.0, 0.5, 0.6141848493},      {1.0, 1.0, M_PI / 2.0},
+  const Row rows[] = {{0.25, 0.005, 3.323315406e-4},
+                      {0.25, 0.010, 9.371318255e-4},
+                      {0.25, 0.020, 2.634434465e-3},
+                      {0.30, 0.010, 1.027616112e-3},
+                      {1.0, 0.5, 0.6141848493},
+                      {1.0, 1.0, M_PI / 2.0},
                       {1.0, 2.0, M_PI}};
   for (const Row& row : rows) {
     EXPECT_NEAR(CircularSegmentArea(row.r, row.d), row.area, kTableRelative * row.area) << row.r << " " << row.d;
     // The handbook form itself, evaluated directly.
-    const double direct =
-        row.r * row.r * std::acos((row.r - row.d) / row.r) - (row.r - row.d) * std::sqrt(2 * row.r * row.d - row.d * row.d);
+    const double direct = row.r * row.r * std::acos((row.r - row.d) / row.r) -
+                          (row.r - row.d) * std::sqrt(2 * row.r * row.d - row.d * row.d);
     EXPECT_NEAR(CircularSegmentArea(row.r, row.d), direct, 1e-13 * row.area);
   }
   EXPECT_EQ(CircularSegmentArea(0.3, -0.01), 0.0);

@@ -106,8 +106,9 @@ TEST(Impacts, EveryLawWithTheOnsetHeightFromGeometryMeetsTheAccuracyTargets) {
       EXPECT_NEAR(f.cor_from_apex.value, f.cor.value, kCorTolerance);
       EXPECT_FALSE(f.cor_disagreement.has_value());
       // Energy lost, from the definition (1/2) m (v_in^2 - v_out^2) with the true speeds.
-      const double energy = 0.5 * kMassKg *
-                            (truth.impact_speed_mps * truth.impact_speed_mps - truth.rebound_speed_mps * truth.rebound_speed_mps);
+      const double energy =
+          0.5 * kMassKg *
+          (truth.impact_speed_mps * truth.impact_speed_mps - truth.rebound_speed_mps * truth.rebound_speed_mps);
       EXPECT_NEAR(f.energy_lost_j.value / energy, 1.0, 0.01);
       // Track-only peak force is noisier; within 15 % of the law's.
       EXPECT_NEAR(f.peak_force_track_n.value / truth.peak_force_n, 1.0, 0.15);

@@ -36,11 +36,16 @@ TreadGeometry Tread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
 // Representative truths: tyre-like contacts of 10-20 ms and 5-15 mm at 1-3 m/s.
 std::vector<double> TruthParams(LawId law) {
   switch (law) {
-    case LawId::kKelvinVoigt: return {2e5, 300.0};
-    case LawId::kHuntCrossley: return {2.5e7, 1.7, 0.2};
-    case LawId::kHertz: return {1e7, 1.5, 0.15};
-    case LawId::kBilinear: return {1e5, 4e5, 0.006, 200.0};
-    case LawId::kVolumetric: return {2.5e7, 0.2};
+    case LawId::kKelvinVoigt:
+      return {2e5, 300.0};
+    case LawId::kHuntCrossley:
+      return {2.5e7, 1.7, 0.2};
+    case LawId::kHertz:
+      return {1e7, 1.5, 0.15};
+    case LawId::kBilinear:
+      return {1e5, 4e5, 0.006, 200.0};
+    case LawId::kVolumetric:
+      return {2.5e7, 0.2};
   }
   return {};
 }
@@ -341,8 +346,8 @@ bool HasWarning(const LawFitResult& fit, const std::string& text) {
 void ExpectHonest(const LawFitResult& fit, const std::vector<double>& truth) {
   for (size_t i = 0; i < truth.size(); ++i) {
     const bool within = std::abs(fit.params[i] - truth[i]) <= 3.0 * fit.param_sd[i];
-    EXPECT_TRUE(within || HasWarning(fit, fit.param_names[i] + " =")) << fit.param_names[i] << " = " << fit.params[i]
-                                                                     << " +- " << fit.param_sd[i];
+    EXPECT_TRUE(within || HasWarning(fit, fit.param_names[i] + " ="))
+        << fit.param_names[i] << " = " << fit.params[i] << " +- " << fit.param_sd[i];
   }
 }
 

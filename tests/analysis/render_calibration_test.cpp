@@ -128,8 +128,8 @@ TEST(RenderCalibration, EveryViewIsDetectedAtTheTrueCornersAndCalibratesTheLens)
   }
   cv::Mat k, dist;
   std::vector<cv::Mat> rvecs, tvecs;
-  const double rms = cv::calibrateCamera(object, detected, camera.intrinsics.image_size, k, dist, rvecs, tvecs,
-                                         cv::CALIB_FIX_K3);
+  const double rms =
+      cv::calibrateCamera(object, detected, camera.intrinsics.image_size, k, dist, rvecs, tvecs, cv::CALIB_FIX_K3);
   EXPECT_LT(rms, kCornerRmsPx);
   EXPECT_NEAR(k.at<double>(0, 0), camera.intrinsics.fx_px, kFocalRelTolerance * camera.intrinsics.fx_px);
   EXPECT_NEAR(dist.at<double>(0), camera.intrinsics.k1, kK1Tolerance);

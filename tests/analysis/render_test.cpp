@@ -177,8 +177,9 @@ TEST(Render, MotionBlurredMarkerIsCentredOnTheMidExposurePosition) {
   const cv::Mat1f radiance = renderer.RenderRadiance(SubframePoses(drop, frame, fps, e));
   const double px_per_m = 1.0 / MetresPerPixelAtCentre(camera);
   const double cap_r_px = CapRadius(look) * px_per_m;
-  const cv::Point2d bias = PredictedMomentCentroid(camera, {truth.x_m, truth.y_m, 0.0}, look.marker_diameter_m / 2,
-                                                    look.marker) - cv::Point2d(truth.u_px, truth.v_px);
+  const cv::Point2d bias =
+      PredictedMomentCentroid(camera, {truth.x_m, truth.y_m, 0.0}, look.marker_diameter_m / 2, look.marker) -
+      cv::Point2d(truth.u_px, truth.v_px);
   const cv::Point2d measured =
       MomentCentroid(radiance, {truth.u_px, truth.v_px}, cap_r_px - 1.5, 12.0, cap_r_px - 1.5) - bias;
   EXPECT_NEAR(measured.x, truth.u_px, kCentreTolerancePx);

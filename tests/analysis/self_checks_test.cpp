@@ -112,8 +112,8 @@ TEST(SelfChecks, ATiltedCameraIsReportedInDegrees) {
 TEST(SelfChecks, AWrongNominalHeightIsReportedWithTheHeightTheSpeedImplies) {
   std::mt19937 rng(4);
   // Dropped from 0.44 m, entered as 0.40 m: 4.9 % faster than sqrt(2 g h).
-  const KinematicsResult r = AnalyzeKinematics(Sample(Simulate(kStandardGravityMps2, 0.44), kTrueFps, rng),
-                                               Options(kTrueFps));
+  const KinematicsResult r =
+      AnalyzeKinematics(Sample(Simulate(kStandardGravityMps2, 0.44), kTrueFps, rng), Options(kTrueFps));
   ASSERT_TRUE(r.checks.drop_height.has_value());
   EXPECT_TRUE(r.checks.drop_height->flagged);
   EXPECT_NEAR(r.checks.drop_height->implied_height_m, 0.44, 0.002);

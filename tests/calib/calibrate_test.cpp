@@ -67,11 +67,12 @@ struct Scene {
 Scene MakeScene() {
   Scene s;
   std::mt19937_64 rng(20240611);
-  const double lens_views[][6] = {
-      {512, 384, 0.45, 0.0, 0.0, 0.0},    {300, 230, 0.50, 0.45, -0.35, 0.1}, {720, 230, 0.50, 0.45, 0.35, -0.1},
-      {300, 540, 0.50, -0.45, -0.35, -0.05}, {720, 540, 0.50, -0.45, 0.35, 0.05}, {512, 384, 0.45, 0.0, 0.6, 0.0},
-      {512, 384, 0.45, 0.6, 0.0, 0.0},    {230, 384, 0.50, 0.0, -0.5, 0.2},  {790, 384, 0.50, 0.0, 0.5, -0.2},
-      {512, 170, 0.50, 0.5, 0.0, 0.0},    {512, 600, 0.50, -0.5, 0.0, 0.0},  {512, 384, 0.55, 0.25, 0.25, 1.5707963}};
+  const double lens_views[][6] = {{512, 384, 0.45, 0.0, 0.0, 0.0},     {300, 230, 0.50, 0.45, -0.35, 0.1},
+                                  {720, 230, 0.50, 0.45, 0.35, -0.1},  {300, 540, 0.50, -0.45, -0.35, -0.05},
+                                  {720, 540, 0.50, -0.45, 0.35, 0.05}, {512, 384, 0.45, 0.0, 0.6, 0.0},
+                                  {512, 384, 0.45, 0.6, 0.0, 0.0},     {230, 384, 0.50, 0.0, -0.5, 0.2},
+                                  {790, 384, 0.50, 0.0, 0.5, -0.2},    {512, 170, 0.50, 0.5, 0.0, 0.0},
+                                  {512, 600, 0.50, -0.5, 0.0, 0.0},    {512, 384, 0.55, 0.25, 0.25, 1.5707963}};
   int k = 0;
   for (const auto& v : lens_views) {
     const Pose p = ViewPose(s.cam, s.board, v[0], v[1], v[2], v[3], v[4], v[5]);
@@ -298,7 +299,8 @@ TEST(Calibrate, AHighOverallReprojectionErrorIsRefusedUnlessForced) {
   EXPECT_FALSE(out.rig);
   const std::regex expected(
       "the overall RMS reprojection error is [0-9.]+ px \\(limit 1 px\\): the corners do not fit one lens model; check "
-      "that every view shows the same flat board and that zoom and focus did not change between views, or pass --force");
+      "that every view shows the same flat board and that zoom and focus did not change between views, or pass "
+      "--force");
   EXPECT_TRUE(std::regex_match(out.refusal, expected)) << out.refusal;
   o.force = true;
   const CalibrationOutcome forced = Calibrate(views, TheScene().plane_image, o);

@@ -23,8 +23,7 @@ Rig MakeTiltedRig() {
   cv::Matx33d r;
   cv::Rodrigues(rvec, r);
   // image ~ K [r1 r2 t] [X Y 1]^T for board points with Z = 0; world y_m up = -Y.
-  cv::Matx33d image_from_board(r(0, 0), r(0, 1), tvec[0], r(1, 0), r(1, 1), tvec[1], r(2, 0), r(2, 1),
-                               tvec[2]);
+  cv::Matx33d image_from_board(r(0, 0), r(0, 1), tvec[0], r(1, 0), r(1, 1), tvec[1], r(2, 0), r(2, 1), tvec[2]);
   const cv::Matx33d board_from_world(1, 0, 0, 0, -1, 0, 0, 0, 1);
   const cv::Matx33d image_from_plane = lens.camera_matrix * image_from_board * board_from_world;
   rig.plane_from_undistorted = image_from_plane.inv();
@@ -57,8 +56,8 @@ TEST(Rig, ImageFromPlaneMatchesOpenCvProjectPoints) {
       // Board frame has Y down: y_m up maps to Y = -y_m.
       std::vector<cv::Point3d> obj{{x, -y, 0.0}};
       std::vector<cv::Point2d> ref;
-      cv::projectPoints(obj, *rig.plane_rvec_rad, *rig.plane_tvec_m, rig.lens->camera_matrix,
-                        rig.lens->distortion, ref);
+      cv::projectPoints(obj, *rig.plane_rvec_rad, *rig.plane_tvec_m, rig.lens->camera_matrix, rig.lens->distortion,
+                        ref);
       const cv::Point2d ours = ImageFromPlane(rig, {x, y});
       EXPECT_NEAR(ours.x, ref[0].x, kProjectionTolPx);
       EXPECT_NEAR(ours.y, ref[0].y, kProjectionTolPx);

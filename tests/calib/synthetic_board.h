@@ -27,11 +27,11 @@ struct SyntheticCamera {
 };
 
 struct RenderSettings {
-  double blur_px = 0.6;          // optical blur sigma [px]
-  double noise_grey = 1.0;       // sensor noise sigma [grey levels]
+  double blur_px = 0.6;           // optical blur sigma [px]
+  double noise_grey = 1.0;        // sensor noise sigma [grey levels]
   double dark = 30, white = 220;  // square and border brightness
-  double background = 110;       // beyond the board's paper
-  double margin_squares = 0.8;   // white border around the squares, in squares
+  double background = 110;        // beyond the board's paper
+  double margin_squares = 0.8;    // white border around the squares, in squares
 };
 
 // Board pose in the camera for a board whose centre sits on the ray through pixel (u, v) at
@@ -65,7 +65,8 @@ inline bool BoardInView(const SyntheticCamera& cam, const BoardSpec& b, const cv
   std::vector<cv::Point2d> img;
   cv::projectPoints(pts, rvec, tvec, cam.camera_matrix, cam.distortion, img);
   for (const auto& p : img) {
-    if (p.x < border_px || p.y < border_px || p.x > cam.size.width - 1 - border_px || p.y > cam.size.height - 1 - border_px) {
+    if (p.x < border_px || p.y < border_px || p.x > cam.size.width - 1 - border_px ||
+        p.y > cam.size.height - 1 - border_px) {
       return false;
     }
   }
@@ -110,7 +111,8 @@ inline cv::Mat RenderBoard(const SyntheticCamera& cam, const BoardSpec& b, const
   const double mid = 0.5 * (rs.dark + rs.white), amp = 0.5 * (rs.white - rs.dark);
   for (int y = 0; y < h; ++y) {
     for (int x = 0; x < w; ++x) {
-      const int x0 = std::max(0, x - 1), x1 = std::min(w - 1, x + 1), y0 = std::max(0, y - 1), y1 = std::min(h - 1, y + 1);
+      const int x0 = std::max(0, x - 1), x1 = std::min(w - 1, x + 1), y0 = std::max(0, y - 1),
+                y1 = std::min(h - 1, y + 1);
       const double X = bx.at<double>(y, x), Y = by.at<double>(y, x);
       double value = rs.background;
       if (std::abs(X) < 1e8 && std::abs(bx.at<double>(y0, x0)) < 1e8 && std::abs(bx.at<double>(y1, x1)) < 1e8) {
@@ -123,7 +125,8 @@ inline cv::Mat RenderBoard(const SyntheticCamera& cam, const BoardSpec& b, const
         const double m = rs.margin_squares * sq;
         const double paper = step(X + sq + m, sx) * step(b.columns * sq + m - X, sx) * step(Y + sq + m, sy) *
                              step(b.rows * sq + m - Y, sy);
-        const double squares = step(X + sq, sx) * step(b.columns * sq - X, sx) * step(Y + sq, sy) * step(b.rows * sq - Y, sy);
+        const double squares =
+            step(X + sq, sx) * step(b.columns * sq - X, sx) * step(Y + sq, sy) * step(b.rows * sq - Y, sy);
         const double checker = mid + amp * wave(X, sx) * wave(Y, sy);
         value = rs.background + paper * (rs.white - rs.background) + squares * (checker - rs.white);
       }

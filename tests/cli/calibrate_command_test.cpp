@@ -47,8 +47,10 @@ const Fixture& TheFixture() {
     fx.dir = fs::temp_directory_path() / ("dropfit_calibrate_command_test_" + std::to_string(rng()) + "_" +
                                           std::to_string(std::chrono::steady_clock::now().time_since_epoch().count()));
     fs::create_directories(fx.dir / "views");
-    const double poses[][6] = {{300, 230, 0.5, 0.45, -0.35, 0.1},  {720, 230, 0.5, 0.45, 0.35, -0.1},
-                               {300, 540, 0.5, -0.45, -0.35, 0.0}, {720, 540, 0.5, -0.45, 0.35, 0.05},
+    const double poses[][6] = {{300, 230, 0.5, 0.45, -0.35, 0.1},
+                               {720, 230, 0.5, 0.45, 0.35, -0.1},
+                               {300, 540, 0.5, -0.45, -0.35, 0.0},
+                               {720, 540, 0.5, -0.45, 0.35, 0.05},
                                {512, 384, 0.45, 0.0, 0.6, 0.0}};
     int k = 0;
     for (const auto& p : poses) {
@@ -58,7 +60,8 @@ const Fixture& TheFixture() {
         PoseLookingAt(fx.cam, fx.board, p[0], p[1], z, p[3], p[4], p[5], r, t);
         z *= 1.08;
       } while (!BoardInView(fx.cam, fx.board, r, t, 0.8, 4.0));
-      cv::imwrite((fx.dir / "views" / ("v" + std::to_string(k++) + ".png")).string(), RenderBoard(fx.cam, fx.board, r, t, {}, rng));
+      cv::imwrite((fx.dir / "views" / ("v" + std::to_string(k++) + ".png")).string(),
+                  RenderBoard(fx.cam, fx.board, r, t, {}, rng));
     }
     PoseLookingAt(fx.cam, fx.board, 560, 430, 0.7, 0.03, -0.05, 0.0, fx.plane_rvec, fx.plane_tvec);
     cv::imwrite((fx.dir / "plane.png").string(), RenderBoard(fx.cam, fx.board, fx.plane_rvec, fx.plane_tvec, {}, rng));
@@ -132,8 +135,8 @@ TEST(CalibrateCommand, ARefusedCalibrationExitsWithStatusTwoAndWritesNothing) {
   EXPECT_EQ(r.status, kExitBadUsage);
   EXPECT_EQ(r.err,
             "dropfit calibrate: no checkerboard with 10x7 inner corners was found in any of the 6 images, but one with "
-            "9x6 inner corners was found in " + o.plane_image +
-            ": pass --board 9x6 (inner corners, not squares); nothing was written\n");
+            "9x6 inner corners was found in " +
+                o.plane_image + ": pass --board 9x6 (inner corners, not squares); nothing was written\n");
   EXPECT_FALSE(fs::exists(o.out_path));
 }
 
@@ -146,9 +149,10 @@ TEST(CalibrateCommand, AMissingPlaneViewIsNamed) {
                        " does not exist; --plane must name an image file of the board lying in the drop plane; nothing "
                        "was written\n");
   o.plane_image.clear();
-  EXPECT_EQ(RunIt(o).err,
-            "dropfit calibrate: no plane view given: pass --plane IMAGE, an image of the board lying in the drop plane; "
-            "nothing was written\n");
+  EXPECT_EQ(
+      RunIt(o).err,
+      "dropfit calibrate: no plane view given: pass --plane IMAGE, an image of the board lying in the drop plane; "
+      "nothing was written\n");
   EXPECT_FALSE(fs::exists(o.out_path));
 }
 
@@ -159,9 +163,10 @@ TEST(CalibrateCommand, BadOptionsAreRefusedWithTheValidValues) {
             "dropfit calibrate: unknown up side 'sky'; valid: top, bottom, left, right; nothing was written\n");
   o = BaseOptions("bad.json");
   o.board = "9by6";
-  EXPECT_EQ(RunIt(o).err,
-            "dropfit calibrate: board size '9by6' is not COLUMNSxROWS of inner corners, each at least 3 (e.g. 9x6 for a "
-            "board of 10 x 7 squares); nothing was written\n");
+  EXPECT_EQ(
+      RunIt(o).err,
+      "dropfit calibrate: board size '9by6' is not COLUMNSxROWS of inner corners, each at least 3 (e.g. 9x6 for a "
+      "board of 10 x 7 squares); nothing was written\n");
   o = BaseOptions("bad.json");
   o.corner_height_m = -0.1;
   EXPECT_EQ(RunIt(o).status, kExitBadUsage);

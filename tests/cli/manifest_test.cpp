@@ -67,7 +67,9 @@ TEST_F(ManifestTest, SkipsCommentsAndBlankLinesAndKeepsLineNumbers) {
 }
 
 TEST_F(ManifestTest, AcceptsAByteOrderMarkAndCrlfLineEnds) {
-  const Manifest m = Parse("\xEF\xBB\xBF" "clip,drop_height_m,mass_kg\r\na.avi,0.3,12\r\nb.avi,0.4,12\r\n");
+  const Manifest m = Parse(
+      "\xEF\xBB\xBF"
+      "clip,drop_height_m,mass_kg\r\na.avi,0.3,12\r\nb.avi,0.4,12\r\n");
   ASSERT_EQ(m.rows.size(), 2u);
   EXPECT_TRUE(m.rows[0].ok()) << m.rows[0].error;
   EXPECT_TRUE(m.rows[1].ok()) << m.rows[1].error;
@@ -100,7 +102,8 @@ TEST_F(ManifestTest, BinaryDataStopsTheCommand) {
 }
 
 TEST_F(ManifestTest, AColumnNamedTwiceStopsTheCommand) {
-  EXPECT_EQ(StructureError("clip,mass_kg,drop_height_m,mass_kg\n"), "m.csv:1: column 'mass_kg' is named twice; keep one");
+  EXPECT_EQ(StructureError("clip,mass_kg,drop_height_m,mass_kg\n"),
+            "m.csv:1: column 'mass_kg' is named twice; keep one");
 }
 
 TEST_F(ManifestTest, AnUnclosedQuoteStopsTheCommand) {
@@ -133,12 +136,14 @@ TEST_F(ManifestTest, ADuplicateClipFailsTheLaterRow) {
   ASSERT_EQ(m.rows.size(), 3u);
   EXPECT_TRUE(m.rows[0].ok());
   EXPECT_TRUE(m.rows[1].ok());
-  EXPECT_EQ(m.rows[2].error,
-            "m.csv:4: column 'clip': clip id 'a' is already used at line 2; remove the duplicate row or rename the clip");
+  EXPECT_EQ(
+      m.rows[2].error,
+      "m.csv:4: column 'clip': clip id 'a' is already used at line 2; remove the duplicate row or rename the clip");
 }
 
 TEST_F(ManifestTest, APathThatLeavesTheFolderFailsItsRow) {
-  const Manifest m = Parse("clip,drop_height_m,mass_kg\n../outside.avi,0.3,12\n/etc/passwd,0.3,12\nx/../a.avi,0.3,12\n");
+  const Manifest m =
+      Parse("clip,drop_height_m,mass_kg\n../outside.avi,0.3,12\n/etc/passwd,0.3,12\nx/../a.avi,0.3,12\n");
   ASSERT_EQ(m.rows.size(), 3u);
   const std::string folder = dir_.string();
   EXPECT_EQ(m.rows[0].error, "m.csv:2: column 'clip': '../outside.avi' leaves the clip folder; put the clip inside " +

@@ -75,7 +75,8 @@ ClipReportData MakeClip() {
                      {"kelvin-voigt", "force_deflection", {0, 0.01}, {0, 2000}},
                      {"track", "force_deflection_track", {0, 0.01}, {10, 1900}},
                      {"kelvin-voigt", "residual", {0, 0.001}, {1e-6, -2e-6}}};
-  c.track = {{0, 0.0, 1.0, 2.0, 0.0, 0.3, 1.0}, {1, 0.0005, std::nullopt, std::nullopt, std::nullopt, std::nullopt, 0},
+  c.track = {{0, 0.0, 1.0, 2.0, 0.0, 0.3, 1.0},
+             {1, 0.0005, std::nullopt, std::nullopt, std::nullopt, std::nullopt, 0},
              {2, 0.001, 1.0, 2.0, 0.0, 0.3, 1.0}};
   return c;
 }

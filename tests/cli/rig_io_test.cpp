@@ -144,8 +144,7 @@ TEST(RigIo, ANonInvertibleMappingIsRefused) {
   std::string text = RigToJson(rig);
   const auto at = text.find("\"plane_from_undistorted\"");
   const auto end = text.find("\"rvec_rad\"", at);
-  text.replace(at, end - at,
-               "\"plane_from_undistorted\": [[0, 0, 0], [0, 0, 0], [0, 0, 0]],\n    ");
+  text.replace(at, end - at, "\"plane_from_undistorted\": [[0, 0, 0], [0, 0, 0], [0, 0, 0]],\n    ");
   EXPECT_EQ(ErrorOf(text), "rig.json: the plane mapping is not invertible (determinant 0)");
 }
 
@@ -166,8 +165,9 @@ TEST(RigIo, AMissingFileIsNamed) {
     ReadRigFile(dir / "none.json");
     FAIL() << "no exception";
   } catch (const std::runtime_error& e) {
-    EXPECT_EQ(std::string(e.what()),
-              (dir / "none.json").string() + ": cannot open the rig file (no such file); make one with `dropfit calibrate`");
+    EXPECT_EQ(
+        std::string(e.what()),
+        (dir / "none.json").string() + ": cannot open the rig file (no such file); make one with `dropfit calibrate`");
   }
   fs::remove_all(dir);
 }

@@ -8,9 +8,9 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
-#include <functional>
 #include <filesystem>
 #include <fstream>
+#include <functional>
 
 #include "cli/exit_status.h"
 #include "cli/results.h"

@@ -78,7 +78,8 @@ TEST(FrameSource, VideoFramesComeBackGreyWithTheContainersCountAndRate) {
   const fs::path dir = MakeTempDir("video");
   const fs::path file = dir / "clip.mov";
   {
-    cv::VideoWriter w(file.string(), cv::CAP_FFMPEG, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), 500.0, {64, 48}, true);
+    cv::VideoWriter w(file.string(), cv::CAP_FFMPEG, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), 500.0, {64, 48},
+                      true);
     ASSERT_TRUE(w.isOpened());
     for (int f = 0; f < 7; ++f) w.write(Pattern(f, CV_8UC3));
   }

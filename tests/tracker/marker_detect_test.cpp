@@ -52,7 +52,7 @@ TEST(MarkerDetect, QuadrantDiscAndDotAreFoundWithTheirKindRadiusAndPolarity) {
 TEST(MarkerDetect, PlainEdgesAndLowContrastAreNotMarkers) {
   cv::RNG rng(42);
   cv::Mat img(120, 160, CV_8U, cv::Scalar(60));
-  img(cv::Rect(80, 0, 80, 120)).setTo(200);         // a straight edge
+  img(cv::Rect(80, 0, 80, 120)).setTo(200);               // a straight edge
   cv::rectangle(img, {20, 20, 30, 50}, 180, cv::FILLED);  // a rectangle (corners, not X-corners)
   cv::Mat noise(img.size(), CV_8U);
   rng.fill(noise, cv::RNG::NORMAL, 0, 2);

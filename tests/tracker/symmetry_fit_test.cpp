@@ -35,8 +35,8 @@ Stats RunTrials(const SyntheticMarkerOptions& marker, const SymmetryFitOptions& 
     m.rotation_rad = rng.uniform(-3.14, 3.14);
     const cv::Point2d truth(40 + rng.uniform(0.0, 1.0), 40 + rng.uniform(0.0, 1.0));
     const cv::Mat img = RenderSyntheticMarker({80, 80}, truth, m, rng);
-    const cv::Point2d start = truth + cv::Point2d(rng.uniform(-start_error_px, start_error_px),
-                                                  rng.uniform(-start_error_px, start_error_px));
+    const cv::Point2d start =
+        truth + cv::Point2d(rng.uniform(-start_error_px, start_error_px), rng.uniform(-start_error_px, start_error_px));
     const SymmetryFitResult r = fitter.Fit(img, start);
     if (!r.converged) {
       ++s.failures;

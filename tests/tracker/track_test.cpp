@@ -124,8 +124,9 @@ TEST(Track, TemplateNeedsASeedAndFollowsThePatch) {
   TrackOptions o;
   o.marker = MarkerKind::kTemplate;
   EXPECT_THROW(MarkerTracker{o}, std::invalid_argument);
-  const Clip c = MakeClip(Reference(MarkerKind::kQuadrant), 60, 24, {200, 170},
-                          [](double f) { return cv::Point2d(60 + 0.7 * f, 60 + 0.4 * f); }, 0.0);
+  const Clip c = MakeClip(
+      Reference(MarkerKind::kQuadrant), 60, 24, {200, 170},
+      [](double f) { return cv::Point2d(60 + 0.7 * f, 60 + 0.4 * f); }, 0.0);
   o.seed_px = c.truth[0] + cv::Point2d(0.3, -0.2);
   const Track t = TrackInMemory(c, o);
   ASSERT_TRUE(t.marker_chosen);
