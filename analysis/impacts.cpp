@@ -607,12 +607,37 @@ Estimate Unknown() { return Estimate{kNaN, kNaN}; }
 
 }  // namespace
 
+ContactAccelerationTrace ContactAcceleration(const TimeSeries& s, const Bounce& b) {
+  // A quartic Savitzky-Golay acceleration over the contact: window about a third of the
+  // contact (at least 7 samples), so that the peak is not flattened.
+  ContactAccelerationTrace out;
+  const int contact_samples = b.contact_last_index - b.contact_first_index + 1;
+  if (contact_samples < 3) return out;
+  const double dt = s.frame_interval_s;
+  SavgolOptions sg{7, 4};
+  while (sg.window + 2 <= std::min(41, contact_samples / 3)) sg.window += 2;
+  const int pad = sg.window;
+  const int lo = std::max(0, b.contact_first_index - pad);
+  const int hi = std::min(s.size() - 1, b.contact_last_index + pad);
+  std::vector<double> y(s.y_m.begin() + lo, s.y_m.begin() + hi + 1);
+  std::vector<bool> valid(s.valid.begin() + lo, s.valid.begin() + hi + 1);
+  const SmoothedSeries sm = SavgolFilter(y, valid, dt, sg);
+  for (int i = b.contact_first_index; i <= b.contact_last_index; ++i) {
+    const size_t k = U(i - lo);
+    if (!sm.valid[k]) continue;
+    out.t_s.push_back(s.t_s[U(i)]);
+    out.y_m.push_back(sm.value[k]);
+    out.accel_mps2.push_back(sm.accel[k]);
+  }
+  out.accel_noise_gain_per_m = SavgolNoiseGain(sg, 2) / (dt * dt);
+  return out;
+}
+
 std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentation& seg, const ImpactOptions& options) {
   if (auto m = ValidateImpactOptions(options)) throw std::invalid_argument("MeasureImpacts: " + *m);
   std::vector<ImpactFigures> out;
   const double h = seg.onset_height_m;
   const double h_sd = std::isfinite(seg.onset_height_sd_m) ? seg.onset_height_sd_m : 0.0;
-  const double dt = s.frame_interval_s;
   for (const Bounce& b : seg.bounces) {
     ImpactFigures f;
     f.bounce_index = b.index;
@@ -694,32 +719,20 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
     }
     if (std::isfinite(h)) f.max_deflection_m = {h - b.y_lowest_m, std::hypot(h_sd, b.y_lowest_sd_m)};
 
-    // Peak force from a quartic Savitzky-Golay acceleration over the contact: window about a
-    // third of the contact (at least 7 samples), so that the peak is not flattened.
-    const int contact_samples = b.contact_last_index - b.contact_first_index + 1;
-    if (contact_samples >= 3) {
-      SavgolOptions sg{7, 4};
-      while (sg.window + 2 <= std::min(41, contact_samples / 3)) sg.window += 2;
-      const int pad = sg.window;
-      const int lo = std::max(0, b.contact_first_index - pad);
-      const int hi = std::min(s.size() - 1, b.contact_last_index + pad);
-      std::vector<double> y(s.y_m.begin() + lo, s.y_m.begin() + hi + 1);
-      std::vector<bool> valid(s.valid.begin() + lo, s.valid.begin() + hi + 1);
-      const SmoothedSeries sm = SavgolFilter(y, valid, dt, sg);
-      double best = -std::numeric_limits<double>::infinity();
-      int best_i = -1;
-      for (int i = b.contact_first_index; i <= b.contact_last_index; ++i) {
-        const size_t k = U(i - lo);
-        if (sm.valid[k] && sm.accel[k] > best) {
-          best = sm.accel[k];
-          best_i = i;
-        }
+    // Peak force from the contact's filtered acceleration (ContactAcceleration).
+    const ContactAccelerationTrace acc = ContactAcceleration(s, b);
+    double best = -std::numeric_limits<double>::infinity();
+    int best_k = -1;
+    for (size_t k = 0; k < acc.t_s.size(); ++k) {
+      if (acc.accel_mps2[k] > best) {
+        best = acc.accel_mps2[k];
+        best_k = static_cast<int>(k);
       }
-      if (best_i >= 0) {
-        f.peak_force_track_n = {options.mass_kg * (best + options.gravity_mps2),
-                                options.mass_kg * seg.noise_sd_m * SavgolNoiseGain(sg, 2) / (dt * dt)};
-        f.t_peak_force_track_s = s.t_s[U(best_i)];
-      }
+    }
+    if (best_k >= 0) {
+      f.peak_force_track_n = {options.mass_kg * (best + options.gravity_mps2),
+                              options.mass_kg * seg.noise_sd_m * acc.accel_noise_gain_per_m};
+      f.t_peak_force_track_s = acc.t_s[U(best_k)];
     }
     out.push_back(f);
   }

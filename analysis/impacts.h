@@ -172,6 +172,17 @@ struct ImpactOptions {
 };
 std::optional<std::string> ValidateImpactOptions(const ImpactOptions& options);
 
+// The filtered track over one contact (the samples between the bounce's flight windows):
+// smoothed height and acceleration from a quartic Savitzky-Golay filter whose window is about
+// a third of the contact (at least 7 samples), as used for peak_force_track_n. Force from the
+// track = mass x (accel_mps2 + g). accel_noise_gain_per_m: sd of accel per metre of position
+// noise [1/s^2].
+struct ContactAccelerationTrace {
+  std::vector<double> t_s, y_m, accel_mps2;
+  double accel_noise_gain_per_m = 0.0;
+};
+ContactAccelerationTrace ContactAcceleration(const TimeSeries& series, const Bounce& bounce);
+
 // One ImpactFigures per bounce of `segmentation` (same order). Throws std::invalid_argument
 // for invalid options.
 std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& series, const Segmentation& segmentation,

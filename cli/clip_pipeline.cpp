@@ -22,6 +22,26 @@ double Seconds(std::chrono::steady_clock::time_point since) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - since).count();
 }
 
+// Force against deflection of the first complete bounce from the filtered track,
+// m (a + g), for the report (curve kind "force_deflection_track").
+void AddTrackForceCurve(const analysis::TimeSeries& series, const analysis::KinematicsResult& kinematics,
+                        const ClipRequest& request, ClipResult& result) {
+  const double g = request.gravity_mps2.value_or(analysis::kStandardGravityMps2);
+  const double onset = kinematics.segmentation.onset_height_m;
+  if (!std::isfinite(onset)) return;
+  for (const analysis::Bounce& b : kinematics.segmentation.bounces) {
+    if (!b.complete) continue;
+    const analysis::ContactAccelerationTrace acc = analysis::ContactAcceleration(series, b);
+    Curve curve{"track", "force_deflection_track", {}, {}};
+    for (size_t k = 0; k < acc.t_s.size(); ++k) {
+      curve.x.push_back(onset - acc.y_m[k]);
+      curve.y.push_back(request.mass_kg * (acc.accel_mps2[k] + g));
+    }
+    result.curves.push_back(curve);
+    return;
+  }
+}
+
 }  // namespace
 
 std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig) {
@@ -141,6 +161,7 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, cons
     }
     result.extra.push_back({"time_fits_s", Seconds(fit_start)});
   }
+  AddTrackForceCurve(series, kinematics, request, result);
   out.analysed = result.errors.empty();
   return out;
 }

@@ -53,6 +53,7 @@ table{border-collapse:collapse;margin:6px 0 10px;background:#fff}
 th,td{border:1px solid #c9c4b6;padding:3px 8px;text-align:right;white-space:nowrap}
 th{background:#e2ddd0;font-weight:600}
 td.t,th.t{text-align:left}
+td.p{white-space:normal;min-width:380px;max-width:560px}
 tr.best td{background:#eaf5ef}
 .charts{display:flex;flex-wrap:wrap;gap:12px}
 svg.chart{border:1px solid #c9c4b6}
@@ -125,7 +126,7 @@ void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fit
   for (const FitRecord* f : fits) {
     html << "<tr" << (best && *best == f->law ? " class=\"best\"" : "")
          << "><td class=\"t\"><span style=\"color:" << LawColour(f->law) << "\">&#9632;</span> " << EscapeHtml(f->law)
-         << "</td><td class=\"t\">" << ParamText(*f) << "</td><td>" << Scaled(f->onset_height_m, 1e3, 2) << " ("
+         << "</td><td class=\"t p\">" << ParamText(*f) << "</td><td>" << Scaled(f->onset_height_m, 1e3, 2) << " ("
          << EscapeHtml(f->onset_height_source) << ")</td><td>" << Scaled(f->rms_residual_m, 1e6, 1) << "</td><td>"
          << Scaled(f->bic, 1, 1) << "</td><td>"
          << (std::isfinite(best_bic) && f->converged ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;")
@@ -159,8 +160,9 @@ void SpecimenSection(std::ostringstream& html, const SpecimenSummary& sp) {
     html << "<p>Needs at least two drop heights.</p>";
     return;
   }
-  html << "<p class=\"small\">Each law is fitted without one height and predicts it; the errors are predicted minus "
-          "measured. A law that extrapolates keeps them small at every height.</p>";
+  html << "<p class=\"small\">Each law is fitted without one height and predicts the held-out bounces from their "
+          "pre-impact state; the errors are that prediction minus the same law fitted to the held-out height alone. "
+          "A law that extrapolates keeps them small at every height.</p>";
   html << "<table><tr><th class=\"t\">law</th><th>held-out height [m]</th><th>COR error</th>"
           "<th>contact duration error [ms]</th><th>max deflection error [mm]</th></tr>";
   for (const JointFitRecord& jf : sp.joint_fits) {
