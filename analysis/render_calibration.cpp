@@ -245,7 +245,7 @@ std::vector<CalibrationImage> RenderCalibrationImages(const SceneRenderer& scene
   }
   std::vector<std::pair<std::string, BoardPose>> poses;
   for (int i = 0; i < lens_views; ++i) {
-    char name[16];
+    char name[32];  // room for any int: GCC checks snprintf truncation at -O1
     std::snprintf(name, sizeof name, "lens_%02d", i + 1);
     poses.emplace_back(name, PlanLensView(camera, board, kViewPlans[i]));
   }
