@@ -44,6 +44,19 @@ void AddTrackForceCurve(const analysis::TimeSeries& series, const analysis::Kine
 
 }  // namespace
 
+ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesystem::path& folder) {
+  ClipRequest r;
+  r.clip_path = folder / std::filesystem::path(row.clip).lexically_normal();
+  r.clip_id = row.clip_id;
+  r.mass_kg = row.mass_kg;
+  r.drop_height_m = row.drop_height_m;
+  r.free_radius_m = row.free_radius_m;
+  r.tread_width_m = row.tread_width_m;
+  r.section_radius_m = row.section_radius_m;
+  r.fps_manifest = row.capture_fps;
+  return r;
+}
+
 std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig) {
   if (request.free_radius_m && rig.y_origin == calib::YOrigin::kFloor) return *request.free_radius_m;
   return std::nullopt;

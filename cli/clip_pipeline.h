@@ -12,6 +12,7 @@
 #include "analysis/kinematics.h"
 #include "analysis/law_fit.h"
 #include "calib/rig.h"
+#include "cli/manifest.h"
 #include "cli/results.h"
 
 namespace dropfit::cli {
@@ -31,6 +32,9 @@ struct ClipRequest {
   std::string seed;                        // "U,V" [px]: marker position in the first frames
   bool fit_laws = true;                    // run the per-clip contact-law fits
 };
+
+// The request of a manifest row (clip path inside `folder`, mass, heights, geometry, rate).
+ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesystem::path& folder);
 
 // frames done, frames total (0 when unknown)
 using ClipProgress = std::function<void(int, int)>;

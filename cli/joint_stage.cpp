@@ -13,21 +13,6 @@
 
 namespace dropfit::cli {
 
-namespace {
-
-ClipRequest RequestFor(const ManifestRow& row) {
-  ClipRequest r;
-  r.clip_id = row.clip_id;
-  r.mass_kg = row.mass_kg;
-  r.drop_height_m = row.drop_height_m;
-  r.free_radius_m = row.free_radius_m;
-  r.tread_width_m = row.tread_width_m;
-  r.section_radius_m = row.section_radius_m;
-  return r;
-}
-
-}  // namespace
-
 std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips, const calib::Rig& rig,
                                           const std::function<void(const std::string&)>& log) {
   std::vector<std::string> order;
@@ -46,7 +31,7 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips, c
     for (const JointClip& c : clips) {
       if (c.row->specimen != specimen || !c.result || !c.track || !(c.result->capture_fps > 0)) continue;
       if (!first_row) first_row = c.row;
-      const ClipRequest request = RequestFor(*c.row);
+      const ClipRequest request = ClipRequestFor(*c.row, {});
       try {
         const analysis::TimeSeries series = TimeSeriesFromTrackRows(*c.track, c.result->capture_fps);
         const analysis::KinematicsResult kin =
@@ -72,7 +57,7 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips, c
       out.push_back(summary);
       continue;
     }
-    const analysis::LawFitOptions options = LawFitOptionsFor(RequestFor(*first_row));
+    const analysis::LawFitOptions options = LawFitOptionsFor(ClipRequestFor(*first_row, {}));
     const analysis::SpecimenFit fit = analysis::FitSpecimen(fit_clips, options);
     const double mass = mass_sum / static_cast<double>(fit_clips.size());
     summary.curves.push_back(measured);

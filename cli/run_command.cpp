@@ -176,9 +176,9 @@ int RunRun(const RunCommandOptions& options) {
       ClipSlot& slot = slots[i];
       const ManifestRow& row = *slot.row;
       const auto t0 = std::chrono::steady_clock::now();
-      const std::filesystem::path clip_path = manifest.folder / std::filesystem::path(row.clip).lexically_normal();
       const std::filesystem::path clip_out = out / "clips" / row.clip_id;
-      const std::string fingerprint = HashFile(clip_path) + "/" + rig_hash + "/" + SettingsText(row);
+      const std::string fingerprint = HashFile(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) +
+                                      "/" + rig_hash + "/" + SettingsText(row);
       // Re-run: reuse a result made from the same clip, rig and settings.
       if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
         try {
@@ -195,15 +195,7 @@ int RunRun(const RunCommandOptions& options) {
           // An unreadable old result is simply redone.
         }
       }
-      ClipRequest request;
-      request.clip_path = clip_path;
-      request.clip_id = row.clip_id;
-      request.mass_kg = row.mass_kg;
-      request.drop_height_m = row.drop_height_m;
-      request.free_radius_m = row.free_radius_m;
-      request.tread_width_m = row.tread_width_m;
-      request.section_radius_m = row.section_radius_m;
-      request.fps_manifest = row.capture_fps;
+      const ClipRequest request = ClipRequestFor(row, manifest.folder);
       ClipAnalysis analysis;
       try {
         analysis = AnalyzeClip(request, rig, [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
