@@ -18,26 +18,66 @@ std::string Num(double v) {
   return buf;
 }
 
-// Bilinear sample of value and central-difference gradient on a float patch.
+// Value and central-difference gradient sampled on a float patch.
 struct Sample {
   float value, gx, gy;
+};
+
+// Weights of one sub-pixel fraction (fx, fy) in [0, 1)²: four-point Lagrange weights for the
+// value at the nodes -1, 0, 1, 2 (Abramowitz & Stegun 1964, 25.2.13, from memory; they reproduce
+// cubics exactly) and bilinear ones for the gradient. Every sample of one Gauss-Newton iteration
+// shares them: the offsets are whole pixels, so c + d and c - d both have the fraction of c.
+struct Weights {
+  float vx[4], vy[4];
+  float b00, b01, b10, b11;
+  Weights(float fx, float fy) {
+    Cubic(fx, vx);
+    Cubic(fy, vy);
+    b00 = (1 - fx) * (1 - fy);
+    b01 = fx * (1 - fy);
+    b10 = (1 - fx) * fy;
+    b11 = fx * fy;
+  }
+  static void Cubic(float t, float w[4]) {
+    const float tm1 = t - 1.0f, tm2 = t - 2.0f, tp1 = t + 1.0f;
+    w[0] = -t * tm1 * tm2 / 6.0f;
+    w[1] = tp1 * tm1 * tm2 / 2.0f;
+    w[2] = -tp1 * t * tm2 / 2.0f;
+    w[3] = tp1 * t * tm1 / 6.0f;
+  }
 };
 
 struct Patch {
   cv::Mat value, gx, gy;  // CV_32F
   cv::Point origin;       // image coordinates of the patch's (0, 0)
 
-  // `x`, `y` in patch coordinates; caller guarantees 0 <= x < cols-1, 0 <= y < rows-1.
-  Sample At(double x, double y) const {
-    const int x0 = static_cast<int>(x), y0 = static_cast<int>(y);
-    const float fx = static_cast<float>(x - x0), fy = static_cast<float>(y - y0);
-    const float w00 = (1 - fx) * (1 - fy), w01 = fx * (1 - fy), w10 = (1 - fx) * fy, w11 = fx * fy;
-    auto interp = [&](const cv::Mat& m) {
+  // The sample at (x0 + fx, y0 + fy) in patch coordinates, (fx, fy) the fraction `w` was made for;
+  // caller guarantees 0 <= x0 < cols-1, 0 <= y0 < rows-1.
+  // The value is interpolated with the four-point Lagrange weights, the gradient bilinearly.
+  // Why not bilinear for the value: bilinear weights w_k at offsets e_k = k - f have a third
+  // moment sum(w_k e_k^3) = f (1 - f) (1 - 2 f) (so has Keys' cubic convolution), which leaves
+  // a term in I(c + d) - I(c - d) that pulls the centre by up to ~0.01 px periodically with f
+  // ("pixel locking"). Weights that reproduce cubics have no third moment, so that term is gone;
+  // the gradient only steers the Gauss-Newton steps and does not move the fixed point.
+  Sample At(int x0, int y0, const Weights& w) const {
+    auto bilinear = [&](const cv::Mat& m) {
       const float* r0 = m.ptr<float>(y0) + x0;
       const float* r1 = m.ptr<float>(y0 + 1) + x0;
-      return w00 * r0[0] + w01 * r0[1] + w10 * r1[0] + w11 * r1[1];
+      return w.b00 * r0[0] + w.b01 * r0[1] + w.b10 * r1[0] + w.b11 * r1[1];
     };
-    return {interp(value), interp(gx), interp(gy)};
+    float v = 0.0f;
+    if (x0 >= 1 && y0 >= 1 && x0 + 2 < value.cols && y0 + 2 < value.rows) {
+      for (int j = 0; j < 4; ++j) {
+        const float* row = value.ptr<float>(y0 - 1 + j) + x0 - 1;
+        v += w.vy[j] * (w.vx[0] * row[0] + w.vx[1] * row[1] + w.vx[2] * row[2] + w.vx[3] * row[3]);
+      }
+    } else {  // at the patch border: nodes clamped to it
+      for (int j = 0; j < 4; ++j) {
+        const float* row = value.ptr<float>(std::clamp(y0 - 1 + j, 0, value.rows - 1));
+        for (int k = 0; k < 4; ++k) v += w.vy[j] * w.vx[k] * row[std::clamp(x0 - 1 + k, 0, value.cols - 1)];
+      }
+    }
+    return {v, bilinear(gx), bilinear(gy)};
   }
   float ValueAt(double x, double y) const {
     const int x0 = static_cast<int>(x), y0 = static_cast<int>(y);
@@ -127,13 +167,20 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
   const int n_params = options_.fit_light_gradient ? 6 : 2;
   double cx = start_px.x - patch.origin.x, cy = start_px.y - patch.origin.y;  // patch coordinates
   double a[2] = {0, 0}, b[2] = {0, 0};
-  const double max_x = cols - 1.000001, max_y = rows - 1.000001;
-
+  // Samples of one iteration: c ± d for whole-pixel d, so the weights are made once per centre.
+  int base_x = 0, base_y = 0;
+  Weights weights(0.0f, 0.0f);
+  auto set_centre = [&] {
+    const double fx = std::floor(cx), fy = std::floor(cy);
+    base_x = static_cast<int>(fx);
+    base_y = static_cast<int>(fy);
+    weights = Weights(static_cast<float>(cx - fx), static_cast<float>(cy - fy));
+  };
   auto sample_pair = [&](const cv::Point& d, Sample& plus, Sample& minus) {
-    const double xp = cx + d.x, yp = cy + d.y, xm = cx - d.x, ym = cy - d.y;
-    if (xp < 0 || yp < 0 || xm < 0 || ym < 0 || xp > max_x || yp > max_y || xm > max_x || ym > max_y) return false;
-    plus = patch.At(xp, yp);
-    minus = patch.At(xm, ym);
+    const int xp = base_x + d.x, yp = base_y + d.y, xm = base_x - d.x, ym = base_y - d.y;
+    if (std::min({xp, yp, xm, ym}) < 0 || std::max(xp, xm) > cols - 2 || std::max(yp, ym) > rows - 2) return false;
+    plus = patch.At(xp, yp, weights);
+    minus = patch.At(xm, ym, weights);
     return true;
   };
 
@@ -142,6 +189,7 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
     cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
     ssr = 0.0;
+    set_centre();
     for (const cv::Point& d : offsets_) {
       Sample p, m;
       if (!sample_pair(d, p, m)) {
@@ -185,6 +233,7 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
   res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
 
   // Quality and residual at the final centre, on the unsmoothed samples.
+  set_centre();
   double sum = 0.0, sum2 = 0.0, rss = 0.0;
   for (const cv::Point& d : offsets_) {
     Sample p, m;

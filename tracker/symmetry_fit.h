@@ -23,8 +23,10 @@
 //
 // Method: Gauss-Newton on the residuals r(d) = I(c+d) - I(c-d) - a·d S(d) - b·d over the integer
 // offsets d with inner_radius_px <= |d| <= window_radius_px (one of each pair d, -d), sampling
-// the image bilinearly at c ± d (the bilinear smoothing error is even in d to second order, so it
-// cancels in the difference). Jacobian w.r.t. c: ∇I(c+d) - ∇I(c-d) from central differences.
+// the image at c ± d with four-point Lagrange weights, which reproduce cubics: bilinear (or Keys
+// cubic) weights leave a third-order term in the difference that pulls the centre periodically
+// with its sub-pixel fraction, by up to ~0.01 px on sharp edges (symmetry_fit.cpp derives it).
+// Jacobian w.r.t. c: ∇I(c+d) - ∇I(c-d) from central differences, sampled bilinearly.
 //
 // Quality: q = 1 - Σ r² / Σ((I(c+d) - m)² + (I(c-d) - m)²), m the mean sample, clamped to [0, 1].
 // It is 1 for a perfectly symmetric, noise-free window and about 0 for pure noise or an
@@ -53,8 +55,8 @@ struct SymmetryFitOptions {
   // Converged when a step moves the centre by less than this [px]; valid (0, 0.1].
   double tolerance_px = 1e-4;
   // Gaussian smoothing of the window before the fit [px s.d.]; valid [0, 3]. A centrally
-  // symmetric filter keeps the centre of symmetry, and a little smoothing makes the bilinear
-  // samples of sharp edges far more accurate (less "pixel locking"). 0 = none.
+  // symmetric filter keeps the centre of symmetry, and a little smoothing makes the interpolated
+  // samples of sharp edges more accurate (less "pixel locking"). 0 = none.
   double presmooth_sigma_px = 0.7;
   // Estimate the linear light terms a, b (see above); false fits the centre alone.
   bool fit_light_gradient = true;
