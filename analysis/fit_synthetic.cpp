@@ -24,6 +24,47 @@ std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptio
   return m.str();
 }
 
+DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,
+                              double mass_kg, double onset_height_m, double drop_m, double end_time_s,
+                              double gravity_mps2) {
+  DropScenario s;
+  s.setup.law = law;
+  s.setup.tread = tread;
+  s.setup.mass_kg = mass_kg;
+  s.setup.gravity_mps2 = gravity_mps2;
+  s.law_params = law_params;
+  s.onset_height_m = onset_height_m;
+  s.start_height_m = onset_height_m + drop_m;
+  s.start_time_s = 0.0;
+  s.end_time_s = end_time_s;
+  return s;
+}
+
+std::vector<double> SampleHeights(const Trajectory& truth, double t0_s, int frames, double capture_fps,
+                                  double noise_sd_m, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> noise(0.0, 1.0);
+  const double dt = 1.0 / capture_fps;
+  std::vector<double> y(static_cast<size_t>(std::max(frames, 0)));
+  for (int k = 0; k < frames; ++k) {
+    y[static_cast<size_t>(k)] = truth.HeightAt(t0_s + k * dt) + (noise_sd_m > 0.0 ? noise_sd_m * noise(rng) : 0.0);
+  }
+  return y;
+}
+
+TimeSeries MakeSyntheticTrack(const Trajectory& truth, int frames, double capture_fps, double noise_sd_m,
+                              std::uint64_t seed) {
+  TimeSeries series = MakeTimeSeries(frames, capture_fps);
+  const std::vector<double> y = SampleHeights(truth, 0.0, frames, capture_fps, noise_sd_m, seed);
+  for (int i = 0; i < frames; ++i) {
+    const size_t k = static_cast<size_t>(i);
+    series.x_m[k] = truth.At(series.t_s[k]).x_m;
+    series.y_m[k] = y[k];
+    series.valid[k] = true;
+  }
+  return series;
+}
+
 SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& scenario,
                                 const SyntheticClipOptions& options) {
   if (const auto e = ValidateSyntheticClipOptions(options)) throw std::invalid_argument("MakeSyntheticClip: " + *e);
@@ -43,15 +84,12 @@ SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& sce
   if (options.geometry_known) clip.known_onset_height_m = onset;
   clip.onset_height_guess_m = onset + options.onset_guess_error_m;
 
-  std::mt19937_64 rng(options.seed);
-  std::normal_distribution<double> noise(0.0, 1.0);
   // Sample grid of the whole clip, with its noise drawn once in frame order.
   const int frames = static_cast<int>(std::floor((scenario.end_time_s - scenario.start_time_s) / dt)) + 1;
-  std::vector<double> t(frames), y(frames);
-  for (int k = 0; k < frames; ++k) {
-    t[k] = scenario.start_time_s + k * dt;
-    y[k] = truth.HeightAt(t[k]) + options.noise_sd_m * noise(rng);
-  }
+  std::vector<double> t(frames);
+  for (int k = 0; k < frames; ++k) t[k] = scenario.start_time_s + k * dt;
+  const std::vector<double> y =
+      SampleHeights(truth, scenario.start_time_s, frames, options.capture_fps, options.noise_sd_m, options.seed);
   // Apex after each impact: the window boundary between it and the next.
   const auto& impacts = truth.impacts();
   std::vector<double> apex(impacts.size());

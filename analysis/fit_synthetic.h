@@ -14,6 +14,7 @@
 
 #include "analysis/forward_model.h"
 #include "analysis/law_fit.h"
+#include "analysis/time_series.h"
 
 namespace dropfit::analysis {
 
@@ -44,6 +45,24 @@ struct SyntheticClip {
   FitClip clip;
   Trajectory truth;  // the simulated drop
 };
+
+// A drop from rest: the hub released at start time 0 from drop_m above the onset height (the
+// hub height at first contact), simulated until end_time_s.
+DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,
+                              double mass_kg, double onset_height_m, double drop_m, double end_time_s,
+                              double gravity_mps2 = kStandardGravityMps2);
+
+// Heights of `truth` at t0_s + k / capture_fps, k = 0..frames-1, each plus noise_sd_m x N(0, 1)
+// drawn in frame order from std::mt19937_64(seed) (no noise drawn when noise_sd_m is 0).
+std::vector<double> SampleHeights(const Trajectory& truth, double t0_s, int frames, double capture_fps,
+                                  double noise_sd_m, std::uint64_t seed);
+
+// The measured track the kinematics (analysis/kinematics.h) would receive from a perfect
+// tracker with white position noise on the height: frames 0..frames-1 at t = frame /
+// capture_fps, all valid, x_m the truth's, y_m from SampleHeights. For tests of the real
+// input path (kinematics, MakeFitClip) without video.
+TimeSeries MakeSyntheticTrack(const Trajectory& truth, int frames, double capture_fps, double noise_sd_m,
+                              std::uint64_t seed);
 
 // Simulates `scenario` and builds the fitter's input. Throws std::invalid_argument for an
 // invalid scenario or options (message from the validators), std::runtime_error when the

@@ -69,14 +69,7 @@ int DampingIndex(LawId law) {
 
 FitClip Clip(LawId law, double drop_m, std::uint64_t seed, bool geometry_known, double* max_deflection_m = nullptr,
              double* duration_s = nullptr, double* peak_n = nullptr) {
-  DropScenario s;
-  s.setup.law = law;
-  s.setup.tread = Tread();
-  s.setup.mass_kg = kMassKg;
-  s.law_params = Truth(law);
-  s.onset_height_m = kOnsetM;
-  s.start_height_m = kOnsetM + drop_m;
-  s.end_time_s = 1.0;
+  const DropScenario s = MakeDropScenario(law, Truth(law), Tread(), kMassKg, kOnsetM, drop_m, 1.0);
   SyntheticClipOptions so;
   so.noise_sd_m = kNoiseM;
   so.seed = seed;
@@ -181,8 +174,15 @@ void Recovery(int clips_per_law) {
         const LawFitResult& best = all.fits[*all.best];
         if (best.law == truth ||
             ((LawNests(best.law, truth) || truth == LawId::kHertz || truth == LawId::kVolumetric) &&
-             fit.bic - best.bic < 2.0))
+             fit.bic - best.bic < 2.0)) {
           ++rank_ok;
+        } else {  // say which law won, by how much, and with what
+          std::printf("  (%s clip %d, drop %.2f m: %s ranked first by %.1f BIC:", ToString(truth).c_str(), r,
+                      heights[r % heights.size()], ToString(best.law).c_str(), fit.bic - best.bic);
+          for (size_t i = 0; i < best.params.size(); ++i)
+            std::printf(" %s=%.5g", best.param_names[i].c_str(), best.params[i]);
+          std::printf("; rms %.3g vs %.3g um)\n", 1e6 * best.rms_residual_m, 1e6 * fit.rms_residual_m);
+        }
       }
     }
     std::printf("%-14s %10.3f %10.3f %9.4f %11.4f %10.3f %12.0f\n", ToString(truth).c_str(), 100 * worst_stiff,

@@ -13,7 +13,6 @@
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
 #include "cli/track_command.h"
-#include "tracker/frame_source.h"
 #include "tracker/track.h"
 
 namespace dropfit::cli {
@@ -161,32 +160,28 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   std::error_code ec;
   if (!fs::exists(clip_path, ec)) return BadUsage(options.clip + ": no such file or folder; check the path");
 
-  std::unique_ptr<tracker::FrameSource> source;
-  std::string open_error;
-  try {
-    source = tracker::FrameSource::Open(clip_path);
-  } catch (const std::exception& e) {
-    open_error = e.what();
-  }
-  const std::optional<double> container_fps = source ? source->info().container_fps : std::nullopt;
-  const std::optional<CaptureRate> rate = ResolveCaptureRate(options.fps, std::nullopt, rig.capture_fps, container_fps);
-  if (source && !rate) {
-    return BadUsage(options.clip + ": no capture rate is known (no --fps, none in " + options.rig_path +
-                    ", none in the clip's container); give --fps N with the camera's true frames per second");
-  }
-  if (source && !rig.image_size.empty() && source->info().size != rig.image_size) {
-    const cv::Size s = source->info().size;
-    return BadUsage(options.rig_path + " was made for " + std::to_string(rig.image_size.width) + "x" +
-                    std::to_string(rig.image_size.height) + " images but " + options.clip + " has " +
-                    std::to_string(s.width) + "x" + std::to_string(s.height) +
-                    " frames; calibrate this camera set-up (dropfit calibrate) and pass its rig");
-  }
+  // Track, measure and fit (cli/clip_pipeline.h: the same code as `dropfit run`).
+  ClipRequest request;
+  request.clip_path = clip_path;
+  request.clip_id = ClipIdOf(clip_path);
+  request.mass_kg = options.mass_kg;
+  request.drop_height_m = options.drop_height_m;
+  request.free_radius_m = options.free_radius_m;
+  request.fps_option = options.fps;
+  request.gravity_mps2 = options.gravity_mps2;
+  request.marker = options.marker;
+  request.seed = options.seed;
+  // A set-up problem (no capture rate, a rig for another image size) stops the command; a clip
+  // that cannot be read is analysed as a failure, with the files saying why.
+  OpenedClip opened = OpenClip(request, rig);
+  if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
+  const std::optional<CaptureRate>& rate = opened.rate;
   const fs::path out(options.out_dir);
   fs::create_directories(out, ec);
   if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
 
   ClipResult result;
-  result.clip = ClipIdOf(clip_path);
+  result.clip = request.clip_id;
   result.y_origin = calib::ToString(rig.y_origin);
   const double gravity = options.gravity_mps2.value_or(kStandardGravityMps2);
 
@@ -210,18 +205,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
     result.info.push_back({"analyze_options", text.str()});
   }
 
-  // Track, measure and fit (cli/clip_pipeline.h: the same code as `dropfit run`).
-  ClipRequest request;
-  request.clip_path = clip_path;
-  request.clip_id = result.clip;
-  request.mass_kg = options.mass_kg;
-  request.drop_height_m = options.drop_height_m;
-  request.free_radius_m = options.free_radius_m;
-  request.fps_option = options.fps;
-  request.gravity_mps2 = options.gravity_mps2;
-  request.marker = options.marker;
-  request.seed = options.seed;
-  ClipAnalysis analysis = AnalyzeClip(request, rig);
+  ClipAnalysis analysis = AnalyzeClip(request, rig, opened);
   for (auto& entry : result.info) analysis.result.info.push_back(entry);
   result = std::move(analysis.result);
   const std::vector<TrackRow>& rows = analysis.track;

@@ -13,7 +13,9 @@
 //
 // Exit status (contract): 0 done (warnings allowed); 1 the clip could not be analysed (no
 // frames, no impact found...), the reason in result.json's errors and on stderr, both files
-// still written; 2 bad options or an unreadable rig, nothing written.
+// still written; 2 bad options, an unreadable rig, no capture rate known or a rig made for
+// another image size (cli/clip_pipeline.h, OpenClip), nothing written. Frames that cannot be
+// read (a truncated file, a missing or damaged image) are left empty with a warning naming them.
 
 #include <optional>
 #include <string>

@@ -81,7 +81,43 @@ analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request) {
   return o;
 }
 
+OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
+  OpenedClip out;
+  const std::string name = request.clip_path.filename().string();
+  try {
+    out.source = tracker::FrameSource::Open(request.clip_path);
+  } catch (const std::exception& e) {
+    out.problem = e.what();  // names the clip and says what to do (tracker/frame_source.h)
+    return out;
+  }
+  const tracker::FrameSourceInfo& info = out.source->info();
+  out.rate = ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, info.container_fps);
+  if (!out.rate) {
+    out.setup_problem = true;
+    out.problem = name +
+                  ": no capture rate is known (none given with --fps or in the manifest's capture_fps, none in the "
+                  "rig, none in the clip's container); give the camera's true frames per second: --fps N, or "
+                  "capture_fps in the manifest";
+    return out;
+  }
+  if (!rig.image_size.empty() && info.size != rig.image_size) {
+    out.setup_problem = true;
+    out.problem = name + ": frames are " + std::to_string(info.size.width) + "x" + std::to_string(info.size.height) +
+                  " but the rig was made for " + std::to_string(rig.image_size.width) + "x" +
+                  std::to_string(rig.image_size.height) +
+                  " images; use the rig of this camera set-up (or make one with dropfit calibrate)";
+    return out;
+  }
+  return out;
+}
+
 ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, const ClipProgress& progress) {
+  OpenedClip opened = OpenClip(request, rig);
+  return AnalyzeClip(request, rig, opened, progress);
+}
+
+ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
+                         const ClipProgress& progress) {
   ClipAnalysis out;
   ClipResult& result = out.result;
   result.clip = request.clip_id;
@@ -92,29 +128,12 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, cons
                               ": the free radius is not used: the rig does not know the floor (y_origin \"board\"); "
                               "the onset height is estimated. Calibrate with --corner-height to use the geometry");
   }
-
-  std::unique_ptr<tracker::FrameSource> source;
-  try {
-    source = tracker::FrameSource::Open(request.clip_path);
-  } catch (const std::exception& e) {
-    result.errors.push_back(e.what());
+  if (!opened.ok()) {
+    result.errors.push_back(opened.problem);
     return out;
   }
-  const std::optional<CaptureRate> rate =
-      ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, source->info().container_fps);
-  if (!rate) {
-    result.errors.push_back(name +
-                            ": no capture rate is known (none in the manifest, the rig or the clip's container); "
-                            "give capture_fps in the manifest");
-    return out;
-  }
-  if (!rig.image_size.empty() && source->info().size != rig.image_size) {
-    const cv::Size s = source->info().size;
-    result.errors.push_back(name + ": frames are " + std::to_string(s.width) + "x" + std::to_string(s.height) +
-                            " but the rig was made for " + std::to_string(rig.image_size.width) + "x" +
-                            std::to_string(rig.image_size.height) + " images; use the rig of this camera set-up");
-    return out;
-  }
+  tracker::FrameSource* source = opened.source.get();
+  const std::optional<CaptureRate>& rate = opened.rate;
   result.capture_fps = rate->fps;
   result.capture_fps_source = rate->source;
   if (rate->warning) result.warnings.push_back(name + ": " + *rate->warning);
@@ -143,7 +162,16 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, cons
   analysis::KinematicsResult kinematics = analysis::AnalyzeKinematics(series, kin_options);
   const ClipResult tracked = result;  // tracking fields only, to rebuild from after a refit
   AddKinematicsToResult(kinematics, name, result);
-  if (kinematics.failure) return out;
+  if (kinematics.failure) {
+    // A marker missing on most frames is the likelier cause: say so, with the frames.
+    if (2 * track.tracked_frames < track.frames && !result.errors.empty()) {
+      result.errors.back() += "; the hub marker was found on only " + std::to_string(track.tracked_frames) + " of " +
+                              std::to_string(track.frames) +
+                              " frames (not found: " + tracker::FormatFrameRanges(track.lost) +
+                              "): check that it stays in view, lit and unhidden through the fall and the impact";
+    }
+    return out;
+  }
 
   if (request.fit_laws) {
     const auto fit_start = std::chrono::steady_clock::now();

@@ -5,6 +5,7 @@
 
 #include <filesystem>
 #include <functional>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -14,6 +15,8 @@
 #include "calib/rig.h"
 #include "cli/manifest.h"
 #include "cli/results.h"
+#include "cli/track_command.h"
+#include "tracker/frame_source.h"
 
 namespace dropfit::cli {
 
@@ -51,8 +54,29 @@ std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const cali
 analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, const calib::Rig& rig, double fps);
 analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
 
+// The start-up checks of a clip, the one place `track`, `analyze` and `run` make them: open the
+// clip (tracker::FrameSource), find its capture rate (ResolveCaptureRate: option, manifest, rig,
+// container) and compare its frame size with the rig's. The clip is opened once; the caller
+// passes the result on to AnalyzeClip (or tracks it itself).
+struct OpenedClip {
+  std::unique_ptr<tracker::FrameSource> source;  // null when nothing can be read from the clip
+  std::optional<CaptureRate> rate;               // set when the clip can be tracked
+  // Why the clip cannot be tracked, naming the clip and saying what to do; empty when it can.
+  std::string problem;
+  // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a
+  // rig made for another image size): the single-clip commands stop with exit status 2 and write
+  // nothing; a folder run fails that clip only.
+  bool setup_problem = false;
+  bool ok() const { return problem.empty(); }
+};
+// Never throws for a problem of the clip; those come back in `problem`.
+OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
+
 // Never throws for a per-clip problem (unreadable clip, marker not found, no impact): those
 // come back as data with analysed = false and the reason in result.errors.
 ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, const ClipProgress& progress = {});
+// The same on a clip OpenClip has opened (its source is read to the end).
+ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
+                         const ClipProgress& progress = {});
 
 }  // namespace dropfit::cli

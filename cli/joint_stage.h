@@ -19,8 +19,9 @@ struct JointClip {
   const std::vector<TrackRow>* track = nullptr;
 };
 
-// Specimens in order of first appearance. `log` receives one line per specimen.
+// Specimens in order of first appearance, fitted on up to `jobs` threads (the same result for
+// any count). `log` receives one line per specimen, from the thread that fitted it.
 std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips, const calib::Rig& rig,
-                                          const std::function<void(const std::string&)>& log);
+                                          const std::function<void(const std::string&)>& log, int jobs = 1);
 
 }  // namespace dropfit::cli

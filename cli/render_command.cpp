@@ -2,7 +2,6 @@
 
 #include <opencv2/imgcodecs.hpp>
 
-#include <atomic>
 #include <chrono>
 #include <cmath>
 #include <exception>
@@ -15,7 +14,6 @@
 #include <numbers>
 #include <random>
 #include <sstream>
-#include <thread>
 
 #include "analysis/camera.h"
 #include "analysis/contact_law.h"
@@ -26,6 +24,7 @@
 #include "analysis/video_out.h"
 #include "cli/atomic_write.h"
 #include "cli/exit_status.h"
+#include "cli/parallel_for.h"
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
 #include "dropfit/version.h"
@@ -576,8 +575,6 @@ int RunRender(const RenderCommandOptions& options) {
   const double container_fps = options.container_fps > 0 ? options.container_fps : options.fps;
   // Clips are independent (own generator, own file): render them on `threads` workers.
   std::mutex log_mutex;
-  std::atomic<size_t> next_job{0};
-  std::exception_ptr failure;
   auto render_job = [&](Job& job) {
     const auto clip_started = std::chrono::steady_clock::now();
     const analysis::Trajectory trajectory = analysis::SimulateDrop(job.plan.scenario);
@@ -615,23 +612,7 @@ int RunRender(const RenderCommandOptions& options) {
     std::cerr << "dropfit render: " << job.truth.clip << ": " << job.truth.frames.size() << " frames, "
               << trajectory.impacts().size() << " impacts, " << std::fixed << std::setprecision(1) << seconds << " s\n";
   };
-  auto worker = [&]() {
-    for (size_t i = next_job++; i < jobs.size(); i = next_job++) {
-      try {
-        render_job(jobs[i]);
-      } catch (...) {
-        std::lock_guard<std::mutex> lock(log_mutex);
-        if (!failure) failure = std::current_exception();
-      }
-    }
-  };
-  {
-    std::vector<std::jthread> workers;
-    const int count = std::min<int>(options.threads, static_cast<int>(jobs.size()));
-    for (int t = 1; t < count; ++t) workers.emplace_back(worker);
-    worker();
-  }
-  if (failure) std::rethrow_exception(failure);
+  ParallelFor(jobs.size(), options.threads, [&](size_t i) { render_job(jobs[i]); });
   long total_frames = 0;
   for (Job& job : jobs) {
     total_frames += static_cast<long>(job.truth.frames.size());

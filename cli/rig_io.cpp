@@ -5,6 +5,7 @@
 
 #include <cmath>
 #include <fstream>
+#include <limits>
 #include <sstream>
 #include <stdexcept>
 
@@ -52,6 +53,14 @@ class Reader {
   }
   double Num(const json& j, const std::string& path, const char* key) const {
     return NumberAt(Field(j, path, key), Join(path, key));
+  }
+  // A whole number that fits an int (casting a larger double to int is undefined behaviour).
+  int PixelCount(const json& j, const std::string& path, const char* key) const {
+    const double v = Num(j, path, key);
+    if (!(v == std::floor(v) && v >= std::numeric_limits<int>::min() && v <= std::numeric_limits<int>::max())) {
+      Fail("field '" + Join(path, key) + "' is " + Field(j, path, key).dump() + "; a whole number of pixels is needed");
+    }
+    return static_cast<int>(v);
   }
   std::optional<double> OptNum(const json& j, const std::string& path, const char* key) const {
     if (!j.is_object() || !j.contains(key) || j.at(key).is_null()) return std::nullopt;
@@ -119,16 +128,17 @@ calib::Rig RigFromJson(const json& j, const Reader& in) {
   calib::Rig rig;
   const json& version = in.Field(j, "", "schema_version");
   if (!version.is_number_integer()) in.Fail("field 'schema_version' is not an integer");
-  rig.schema_version = version.get<int>();
-  if (rig.schema_version != calib::Rig::kSchemaVersion) {
-    in.Fail("unknown rig schema version " + std::to_string(rig.schema_version) + " (this dropfit reads version " +
+  // Compared as JSON, not after get<int>(): 4294967297 would wrap to 1 and be taken for version 1.
+  if (version != calib::Rig::kSchemaVersion) {
+    in.Fail("unknown rig schema version " + version.dump() + " (this dropfit reads version " +
             std::to_string(calib::Rig::kSchemaVersion) + "); remake the rig with this dropfit's `calibrate`");
   }
+  rig.schema_version = calib::Rig::kSchemaVersion;
   rig.tool_version = in.TextOr(j, "", "tool_version", "");
 
   const json& size = in.Field(j, "", "image_size_px");
-  rig.image_size = cv::Size(static_cast<int>(in.Num(size, "image_size_px", "width")),
-                            static_cast<int>(in.Num(size, "image_size_px", "height")));
+  rig.image_size =
+      cv::Size(in.PixelCount(size, "image_size_px", "width"), in.PixelCount(size, "image_size_px", "height"));
 
   const json& lens = in.Field(j, "", "lens");
   if (!lens.is_null()) {
@@ -267,14 +277,28 @@ std::string RigToJson(const calib::Rig& rig) {
 
 calib::Rig ParseRigJson(const std::string& text, const std::string& display_name) {
   const Reader in(display_name);
+  // Deeper nesting than any rig file has (it nests 4 levels: plane.plane_from_undistorted[r][c])
+  // is refused while parsing: nlohmann's parser is iterative but dump() recurses, and a
+  // million '[' under calibrate_options overflowed the stack (found while writing tests/fuzz).
+  constexpr int kMaxDepth = 32;
+  const auto limit_depth = [&](int depth, json::parse_event_t event, json&) {
+    if ((event == json::parse_event_t::object_start || event == json::parse_event_t::array_start) &&
+        depth >= kMaxDepth) {
+      in.Fail("malformed JSON: nested deeper than " + std::to_string(kMaxDepth) + " levels");
+    }
+    return true;
+  };
   json j;
   try {
-    j = json::parse(text);
-  } catch (const json::parse_error& e) {
-    // nlohmann's message reads "[json.exception.parse_error.101] parse error at line L, column C: ...".
+    j = json::parse(text, limit_depth);
+  } catch (const json::exception& e) {
+    // Not only parse_error: a number beyond double's range ("1e400") throws out_of_range (406).
+    // nlohmann's messages read "[json.exception.<kind>.<id>] <text>", e.g. "[json.exception.
+    // parse_error.101] parse error at line L, column C: ..."; keep the text.
     std::string what = e.what();
-    const auto at = what.find("parse error");
-    in.Fail("malformed JSON: " + (at == std::string::npos ? what : what.substr(at)));
+    const auto end = what.find("] ");
+    in.Fail("malformed JSON: " +
+            (what.rfind("[json.exception.", 0) == 0 && end != std::string::npos ? what.substr(end + 2) : what));
   }
   return RigFromJson(j, in);
 }
@@ -288,7 +312,16 @@ calib::Rig ReadRigFile(const std::filesystem::path& path) {
   }
   std::ostringstream text;
   text << file.rdbuf();
-  return ParseRigJson(text.str(), path.string());
+  try {
+    return ParseRigJson(text.str(), path.string());
+  } catch (const std::runtime_error& e) {
+    // Say what to do where the reader's message does not (issue 9).
+    std::string message = e.what();
+    if (message.find("calibrate`") == std::string::npos) {
+      message += "; correct the file or make it again with `dropfit calibrate`";
+    }
+    throw std::runtime_error(message);
+  }
 }
 
 void WriteRigFile(const std::filesystem::path& path, const calib::Rig& rig) {

@@ -33,7 +33,8 @@ namespace dropfit::cli {
 // Reads and checks a rig file. Throws std::runtime_error whose message starts with the file
 // name and says what is wrong: unreadable file, malformed JSON (with line and column), unknown
 // schema version, a missing or mistyped field (named), a null where a number is needed, or a
-// rig calib::ValidateRig refuses (non-invertible mapping, bad lens...).
+// rig calib::ValidateRig refuses (non-invertible mapping, bad lens...); and what to do (correct
+// the file or make it again with `dropfit calibrate`).
 calib::Rig ReadRigFile(const std::filesystem::path& path);
 
 // Parses rig JSON text; `display_name` names the source in messages. Throws as ReadRigFile.

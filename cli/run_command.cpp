@@ -3,9 +3,9 @@
 #include <unistd.h>
 
 #include <algorithm>
-#include <atomic>
 #include <chrono>
 #include <cstdio>
+#include <ctime>
 #include <fstream>
 #include <iostream>
 #include <mutex>
@@ -17,6 +17,7 @@
 #include "cli/exit_status.h"
 #include "cli/joint_stage.h"
 #include "cli/manifest.h"
+#include "cli/parallel_for.h"
 #include "cli/report_command.h"
 #include "cli/report_html.h"
 #include "cli/results.h"
@@ -135,13 +136,13 @@ int RunRun(const RunCommandOptions& options) {
   try {
     manifest = ReadManifest(options.folder);
   } catch (const ManifestStructureError& e) {
-    std::cerr << "dropfit run: " << e.what() << "\n";
+    std::cerr << "dropfit run: " << e.what() << "; nothing was written\n";
     return kExitBadUsage;
   }
   try {
     rig = ReadRigFile(options.rig_path);
   } catch (const std::exception& e) {
-    std::cerr << "dropfit run: " << e.what() << "\n";
+    std::cerr << "dropfit run: " << e.what() << "; nothing was written\n";
     return kExitBadUsage;
   }
   const std::filesystem::path out(options.out_dir);
@@ -170,61 +171,62 @@ int RunRun(const RunCommandOptions& options) {
   ProgressDisplay progress(static_cast<int>(slots.size()));
   progress.Line("dropfit run: " + std::to_string(slots.size()) + " clips from " + manifest.display_name + ", " +
                 std::to_string(jobs) + " in parallel");
-  std::atomic<size_t> next{0};
-  auto worker = [&] {
-    for (size_t i = next++; i < slots.size(); i = next++) {
-      ClipSlot& slot = slots[i];
-      const ManifestRow& row = *slot.row;
-      const auto t0 = std::chrono::steady_clock::now();
-      const std::filesystem::path clip_out = out / "clips" / row.clip_id;
-      const std::string fingerprint = HashFile(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) +
-                                      "/" + rig_hash + "/" + SettingsText(row);
-      // Re-run: reuse a result made from the same clip, rig and settings.
-      if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
-        try {
-          ClipResult old = ReadClipResult(clip_out / "result.json");
-          if (InfoValue(old, "input_fingerprint") == fingerprint) {
-            slot.result = std::move(old);
-            slot.track = ReadTrackCsv(clip_out / "track.csv");
-            slot.analysed = slot.result.errors.empty();
-            slot.reused = true;
-            progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
-            continue;
-          }
-        } catch (const std::exception&) {
-          // An unreadable old result is simply redone.
+  auto analyse_clip = [&](size_t i) {
+    ClipSlot& slot = slots[i];
+    const ManifestRow& row = *slot.row;
+    const auto t0 = std::chrono::steady_clock::now();
+    const std::filesystem::path clip_out = out / "clips" / row.clip_id;
+    const std::string fingerprint = HashFile(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) +
+                                    "/" + rig_hash + "/" + SettingsText(row);
+    // Re-run: reuse a result made from the same clip, rig and settings.
+    if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
+      try {
+        ClipResult old = ReadClipResult(clip_out / "result.json");
+        if (InfoValue(old, "input_fingerprint") == fingerprint) {
+          slot.result = std::move(old);
+          slot.track = ReadTrackCsv(clip_out / "track.csv");
+          slot.analysed = slot.result.errors.empty();
+          slot.reused = true;
+          progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
+          return;
         }
+      } catch (const std::exception&) {
+        // An unreadable old result is simply redone.
       }
-      const ClipRequest request = ClipRequestFor(row, manifest.folder);
-      ClipAnalysis analysis;
-      try {
-        analysis = AnalyzeClip(request, rig, [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
-      } catch (const std::exception& e) {
-        analysis.result.clip = row.clip_id;
-        analysis.result.errors.push_back(row.clip + ": " + e.what());
-      }
-      slot.result = std::move(analysis.result);
-      slot.track = std::move(analysis.track);
-      slot.analysed = analysis.analysed;
-      slot.result.info.emplace_back("input_fingerprint", fingerprint);
-      slot.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-      try {
-        std::filesystem::create_directories(clip_out);
-        WriteTrackCsv(clip_out / "track.csv", slot.track);
-        WriteClipResult(clip_out / "result.json", slot.result);
-      } catch (const std::exception& e) {
-        slot.analysed = false;
-        slot.result.errors.push_back(e.what());
-      }
-      char line[256];
-      std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(), slot.analysed ? "analysed" : "FAILED",
-                    slot.seconds);
-      progress.ClipDone(line);
     }
+    const ClipRequest request = ClipRequestFor(row, manifest.folder);
+    ClipAnalysis analysis;
+    try {
+      analysis = AnalyzeClip(request, rig, [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
+    } catch (const std::exception& e) {
+      analysis.result.clip = row.clip_id;
+      analysis.result.errors.push_back(row.clip + ": " + e.what());
+    }
+    slot.result = std::move(analysis.result);
+    slot.track = std::move(analysis.track);
+    slot.analysed = analysis.analysed;
+    slot.result.info.emplace_back("input_fingerprint", fingerprint);
+    slot.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    try {
+      std::filesystem::create_directories(clip_out);
+      WriteTrackCsv(clip_out / "track.csv", slot.track);
+      WriteClipResult(clip_out / "result.json", slot.result);
+    } catch (const std::exception& e) {
+      slot.analysed = false;
+      slot.result.errors.push_back(e.what());
+    }
+    char line[256];
+    std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(), slot.analysed ? "analysed" : "FAILED",
+                  slot.seconds);
+    progress.ClipDone(line);
   };
-  std::vector<std::thread> threads;
-  for (int j = 0; j < std::min<int>(jobs, static_cast<int>(slots.size())); ++j) threads.emplace_back(worker);
-  for (auto& t : threads) t.join();
+  const auto clip_stage_started = std::chrono::steady_clock::now();
+  const std::clock_t clip_stage_cpu_started = std::clock();  // process CPU time, all threads
+  ParallelFor(slots.size(), jobs, analyse_clip);
+  const double clip_stage_seconds =
+      std::chrono::duration<double>(std::chrono::steady_clock::now() - clip_stage_started).count();
+  const double clip_stage_cpu_seconds =
+      static_cast<double>(std::clock() - clip_stage_cpu_started) / static_cast<double>(CLOCKS_PER_SEC);
 
   std::vector<AnalysedClip> analysed;
   int reused = 0;
@@ -244,7 +246,10 @@ int RunRun(const RunCommandOptions& options) {
   for (const ClipSlot& slot : slots) {
     if (slot.analysed) joint_inputs.push_back({slot.row, &slot.result, &slot.track});
   }
-  summary.specimens = FitSpecimens(joint_inputs, rig, [&](const std::string& line) { progress.Line(line); });
+  const auto joint_started = std::chrono::steady_clock::now();
+  summary.specimens = FitSpecimens(
+      joint_inputs, rig, [&](const std::string& line) { progress.Line(line); }, jobs);
+  const double joint_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - joint_started).count();
 
   summary.rig_quality = {{"rms_reprojection_px", rig.quality.rms_reprojection_px},
                          {"plane_rms_px", rig.quality.plane_rms_px},
@@ -257,7 +262,12 @@ int RunRun(const RunCommandOptions& options) {
                  {"rig_fnv1a64", rig_hash},
                  {"out", options.out_dir},
                  {"jobs", std::to_string(jobs)},
-                 {"clips_reused", std::to_string(reused)}};
+                 {"clips_reused", std::to_string(reused)},
+                 // Wall-clock seconds of the two stages: every clip (decode, track, per-clip fits;
+                 // their own times are in each result.json) and the per-specimen joint fits.
+                 {"time_clip_stage_s", FormatNumber(clip_stage_seconds)},
+                 {"cpu_time_clip_stage_s", FormatNumber(clip_stage_cpu_seconds)},
+                 {"time_joint_fits_s", FormatNumber(joint_seconds)}};
   try {
     WriteSummaryCsv(out / "summary.csv", summary.groups);
     WriteSummaryJson(out / "summary.json", summary);

@@ -9,10 +9,10 @@
 #include <iostream>
 #include <stdexcept>
 
+#include "cli/clip_pipeline.h"
 #include "cli/exit_status.h"
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
-#include "tracker/frame_source.h"
 
 namespace dropfit::cli {
 
@@ -160,27 +160,17 @@ int RunTrack(const TrackCommandOptions& options) {
                             (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
   const fs::path out(options.out_dir);
 
-  std::unique_ptr<tracker::FrameSource> source;
-  std::string open_error;
-  try {
-    source = tracker::FrameSource::Open(clip_path);
-  } catch (const std::exception& e) {
-    open_error = e.what();
-  }
-
-  const std::optional<double> container_fps = source ? source->info().container_fps : std::nullopt;
-  const std::optional<CaptureRate> rate = ResolveCaptureRate(options.fps, std::nullopt, rig.capture_fps, container_fps);
-  if (source && !rate) {
-    return BadUsage(options.clip + ": no capture rate is known (no --fps, none in " + options.rig_path +
-                    ", none in the clip's container); give --fps N with the camera's true frames per second");
-  }
-  if (source && !rig.image_size.empty() && source->info().size != rig.image_size) {
-    const cv::Size s = source->info().size;
-    return BadUsage(options.rig_path + " was made for " + std::to_string(rig.image_size.width) + "x" +
-                    std::to_string(rig.image_size.height) + " images but " + options.clip + " has " +
-                    std::to_string(s.width) + "x" + std::to_string(s.height) +
-                    " frames; calibrate this camera set-up (dropfit calibrate) and pass its rig");
-  }
+  // The start-up checks shared with analyze and run (cli/clip_pipeline.h). A set-up problem
+  // (no capture rate, a rig for another image size) stops the command; a clip that cannot be
+  // read fails, with the files saying why.
+  ClipRequest request;
+  request.clip_path = clip_path;
+  request.clip_id = result.clip;
+  request.fps_option = options.fps;
+  OpenedClip opened = OpenClip(request, rig);
+  if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
+  tracker::FrameSource* source = opened.source.get();
+  const std::optional<CaptureRate>& rate = opened.rate;
 
   fs::create_directories(out, ec);
   if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
@@ -188,7 +178,7 @@ int RunTrack(const TrackCommandOptions& options) {
   std::vector<TrackRow> rows;
   if (!source) {
     // Nothing decodes: the clip fails; the files still say why.
-    result.errors.push_back(open_error);
+    result.errors.push_back(opened.problem);
   } else {
     result.capture_fps = rate->fps;
     result.capture_fps_source = rate->source;

@@ -9,11 +9,12 @@
 // capture_fps and its source, frames, tracked_frames, y_origin, warnings, errors; the marker
 // chosen and why, the lost frame ranges and the options used under "info").
 //
-// Exit status (cli/exit_status.h): 0 tracked (warnings allowed); 1 the clip could be tracked
-// only in part or not at all (unreadable frames, truncated file, marker never found), with the
-// reasons in result.json's errors and on stderr and both files written; 2 bad usage or an input
-// the command cannot start from (bad option, unreadable rig, missing clip, no capture rate, a
-// rig made for another image size), nothing written.
+// Exit status (cli/exit_status.h): 0 tracked (warnings allowed: frames that cannot be read, as
+// in a truncated file or an image folder with a missing or damaged image, are left empty with a
+// warning naming them); 1 the clip could not be tracked (nothing decodes, marker never found),
+// with the reasons in result.json's errors and on stderr and both files written; 2 bad usage
+// or an input the command cannot start from (bad option, unreadable rig, missing clip, no
+// capture rate, a rig made for another image size), nothing written.
 //
 // The pieces below are shared with `analyze` and `run` (cli/clip_pipeline.h).
 

@@ -105,8 +105,9 @@ class VideoSource final : public FrameSource {
         r.is_frame = false;
         r.message = info_.path + ": decoding stopped at frame " + std::to_string(next_) + " of the " +
                     std::to_string(*info_.announced_frames) +
-                    " frames the container announces (truncated or damaged file); frames 0-" +
-                    std::to_string(next_ - 1) + " were read";
+                    " frames the container announces (truncated or damaged file); the last good frame is " +
+                    std::to_string(next_ - 1) + " and frames 0-" + std::to_string(next_ - 1) +
+                    " are used: copy the file from the camera again to use the rest";
       }
       return r;
     }
@@ -114,7 +115,8 @@ class VideoSource final : public FrameSource {
     if (bgr_.size() != info_.size) {
       r.status = ReadStatus::kError;
       r.message = info_.path + ": frame " + std::to_string(r.frame) + " is " + SizeText(bgr_.size()) +
-                  " but the clip's first frame is " + SizeText(info_.size) + "; the frame is skipped";
+                  " but the clip's first frame is " + SizeText(info_.size) +
+                  "; the frame is left empty: check that the file holds one recording";
       return r;
     }
     bool scaled = false;
@@ -149,7 +151,7 @@ class ImageFolderSource final : public FrameSource {
     if (span != static_cast<long long>(files_.size())) {
       info_.warnings.push_back(folder.string() + ": the numbering has " +
                                std::to_string(span - static_cast<long long>(files_.size())) +
-                               " gap(s); the missing numbers are reported as frames that could not be read");
+                               " gap(s); the missing numbers are frames left empty (each named in its own warning)");
     }
     // The first frame that decodes fixes the clip's size.
     for (const NumberedFile& f : files_) {
@@ -175,21 +177,25 @@ class ImageFolderSource final : public FrameSource {
     if (frame_of_file > r.frame) {  // gap in the numbering
       r.status = ReadStatus::kError;
       r.message = info_.path + ": no file for frame " + std::to_string(r.frame) + " (number " +
-                  std::to_string(first_number_ + r.frame) + " is missing from the sequence)";
+                  std::to_string(first_number_ + r.frame) +
+                  " is missing from the sequence); the frame is left empty: copy the missing file into the folder "
+                  "to use it";
       return r;
     }
     ++next_file_;
     cv::Mat img = cv::imread(f.path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
     if (img.empty()) {
       r.status = ReadStatus::kError;
-      r.message = f.path.string() + ": frame " + std::to_string(r.frame) +
-                  " could not be decoded (damaged or not an image); the frame is skipped";
+      r.message =
+          f.path.string() + ": frame " + std::to_string(r.frame) +
+          " could not be decoded (damaged or not an image); the frame is left empty: replace the file to use it";
       return r;
     }
     if (img.size() != info_.size) {
       r.status = ReadStatus::kError;
       r.message = f.path.string() + ": frame " + std::to_string(r.frame) + " is " + SizeText(img.size()) +
-                  " but the clip's first frame is " + SizeText(info_.size) + "; the frame is skipped";
+                  " but the clip's first frame is " + SizeText(info_.size) +
+                  "; the frame is left empty: keep one camera's frames, of one size, in the folder";
       return r;
     }
     bool scaled = false;
@@ -240,6 +246,11 @@ std::unique_ptr<FrameSource> FrameSource::Open(const std::filesystem::path& clip
     throw std::runtime_error(clip.string() + ": no such file or folder; check the path");
   }
   if (std::filesystem::is_directory(clip, ec)) return std::make_unique<ImageFolderSource>(clip);
+  if (std::filesystem::is_regular_file(clip, ec) && std::filesystem::file_size(clip, ec) == 0 && !ec) {
+    throw std::runtime_error(clip.string() +
+                             ": is empty (0 bytes): the recording was not saved or not copied completely; copy the "
+                             "clip from the camera again");
+  }
   return std::make_unique<VideoSource>(clip);
 }
 

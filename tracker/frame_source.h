@@ -14,11 +14,13 @@
 // the source says so in its warnings.
 //
 // Faults, per ../shared/style.md:
-// - a clip that cannot be opened at all (missing path, not a video, a folder without numbered
-//   images, no frame decodes) -> FrameSource::Open throws std::runtime_error naming the file;
-// - a frame that does not decode, a file that ends before the frame count its container
-//   announces, a frame whose size differs from the first -> returned as data (ReadStatus and a
-//   message naming the file and frame); the caller keeps reading what follows.
+// - a clip that cannot be opened at all (missing path, an empty file, not a video, a folder
+//   without numbered images, no frame decodes) -> FrameSource::Open throws std::runtime_error
+//   naming the file and saying what to do;
+// - a frame that does not decode, a missing number in a folder, a file that ends before the
+//   frame count its container announces, a frame whose size differs from the first -> returned
+//   as data (ReadStatus and a message naming the file and frame, and the last good frame for a
+//   truncated file); the caller keeps reading what follows, the frame is left empty.
 //
 // A FrameSource holds no global state: several may run at once on separate threads.
 

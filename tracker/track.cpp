@@ -370,6 +370,14 @@ struct MarkerTracker::Impl {
           l = LocateSymmetric(grey, prediction, window, false);
         }
         if (!whole) ++reacquire_level;
+      } else {
+        // Between the whole-frame searches, the first window around the prediction is still
+        // searched on every frame, so that a marker hidden for a few frames is found again on
+        // the first frame it shows (issue 9).
+        const double near_half = radius_px + o.reacquire_radius_px;
+        rep.search_window = SquareAround(prediction, near_half) & frame_rect;
+        l = kind == MarkerKind::kTemplate ? LocateTemplate(grey, SquareAround(prediction, near_half))
+                                          : LocateSymmetric(grey, prediction, rep.search_window, false);
       }
     }
     if (l.ok) {
@@ -539,7 +547,7 @@ Track TrackClip(FrameSource& source, const TrackOptions& options, const Progress
     read_seconds = Seconds(Clock::now() - start);
   });
 
-  std::vector<std::string> errors;
+  std::vector<std::string> read_problems;  // frames that could not be read, truncation
   int frames = 0;
   Clock::duration track_time{};
   try {
@@ -551,7 +559,7 @@ Track TrackClip(FrameSource& source, const TrackOptions& options, const Progress
       }
       if (f.read.is_frame) frames = std::max(frames, f.read.frame + 1);
       if (f.read.status == ReadStatus::kError) {
-        errors.push_back(f.read.message);
+        read_problems.push_back(f.read.message);
       } else {
         const auto t0 = Clock::now();
         const FrameReport rep = tracker.Process(f.read.frame, f.grey);
@@ -571,8 +579,10 @@ Track TrackClip(FrameSource& source, const TrackOptions& options, const Progress
   if (progress) progress(frames, announced);
 
   Track t = tracker.Finish(frames, info.path);
-  t.errors.insert(t.errors.begin(), errors.begin(), errors.end());
-  for (const std::string& w : info.warnings) t.warnings.insert(t.warnings.begin(), w);
+  // A frame that cannot be read is a frame without the marker, not a failure of the clip: the
+  // frames read are tracked and the problem is reported as a warning naming the file and frame.
+  t.warnings.insert(t.warnings.begin(), read_problems.begin(), read_problems.end());
+  t.warnings.insert(t.warnings.begin(), info.warnings.begin(), info.warnings.end());
   t.read_seconds = read_seconds;
   t.track_seconds = Seconds(track_time);
   return t;

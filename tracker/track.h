@@ -23,7 +23,9 @@
 //    below `min_quality` (template: correlation below `min_template_ncc`), or the window leaves
 //    the frame. After a loss the search window starts at `reacquire_radius_px` around the last
 //    prediction and doubles each frame; once it covers the frame, one frame in
-//    `reacquire_every_frames` is searched. Positions are never invented: a frame without the
+//    `reacquire_every_frames` is searched whole, and the first window around the prediction on
+//    the frames between (a marker hidden for a few frames is found again on the first frame it
+//    shows). Positions are never invented: a frame without the
 //    marker has found = false, and the lost frames are reported as ranges.
 //
 // Positions are in OpenCV's pixel convention (the centre of the top-left pixel is (0, 0)). Under
@@ -96,8 +98,9 @@ struct Track {
   double marker_radius_px = 0.0;        // disc/dot radius, or template half-size
   std::string choice;                   // what was chosen and why (one sentence)
   std::vector<FrameRange> lost;         // frames without the marker
-  std::vector<std::string> warnings;    // lost ranges, marker leaving the view, other candidates
-  std::vector<std::string> errors;      // unreadable frames, truncation, marker never found
+  std::vector<std::string> warnings;    // unreadable frames, truncation, lost ranges, marker
+                                        // leaving the view, other candidates
+  std::vector<std::string> errors;      // marker never found
   double read_seconds = 0.0;            // wall time of the reading thread (decode + grey)
   double track_seconds = 0.0;           // time spent in the tracker proper
 };
@@ -134,7 +137,7 @@ struct OverlayOptions {
 };
 
 // Reads every frame of `source` on a second thread (bounded queue of options.queue_frames) and
-// tracks them on the calling thread. Decode errors and truncation become Track::errors naming
+// tracks them on the calling thread. Decode errors and truncation become Track::warnings naming
 // the file and frame; the frames read are tracked. `progress` (may be empty) is called every
 // 64 frames and at the end. Throws std::invalid_argument on bad options or seed, and
 // std::runtime_error when the overlay cannot be written.

@@ -35,13 +35,7 @@ std::vector<FitClip> Specimen(LawId law, std::uint64_t seed) {
   std::vector<FitClip> clips;
   int i = 0;
   for (double h : {0.1, 0.2, 0.35}) {
-    DropScenario s;
-    s.setup.law = law;
-    s.setup.mass_kg = kMassKg;
-    s.law_params = Truth(law);
-    s.onset_height_m = kOnsetM;
-    s.start_height_m = kOnsetM + h;
-    s.end_time_s = 1.0;
+    const DropScenario s = MakeDropScenario(law, Truth(law), TreadGeometry{}, kMassKg, kOnsetM, h, 1.0);
     SyntheticClipOptions so;
     so.noise_sd_m = kNoiseM;
     so.seed = seed + i++;

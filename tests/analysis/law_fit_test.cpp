@@ -18,8 +18,6 @@
 #include "analysis/fit_synthetic.h"
 #include "analysis/kinematics.h"
 
-#include <random>
-
 namespace dropfit::analysis {
 namespace {
 
@@ -52,17 +50,7 @@ std::vector<double> TruthParams(LawId law) {
 
 DropScenario Scenario(LawId law, const std::vector<double>& params, double drop_above_onset_m, double gravity_mps2,
                       double end_time_s) {
-  DropScenario s;
-  s.setup.law = law;
-  s.setup.tread = Tread();
-  s.setup.mass_kg = kMassKg;
-  s.setup.gravity_mps2 = gravity_mps2;
-  s.law_params = params;
-  s.onset_height_m = kOnsetM;
-  s.start_height_m = kOnsetM + drop_above_onset_m;
-  s.start_time_s = 0.0;
-  s.end_time_s = end_time_s;
-  return s;
+  return MakeDropScenario(law, params, Tread(), kMassKg, kOnsetM, drop_above_onset_m, end_time_s, gravity_mps2);
 }
 
 LawFitOptions Options() {
@@ -295,14 +283,7 @@ TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   const DropScenario s = Scenario(law, TruthParams(law), 0.25, kStandardGravityMps2, 1.0);
   const Trajectory truth = SimulateDrop(s);
   constexpr double kFps = 2000.0;
-  TimeSeries series = MakeTimeSeries(static_cast<int>(s.end_time_s * kFps), kFps);
-  std::mt19937_64 rng(5);
-  std::normal_distribution<double> noise(0.0, 5e-5);
-  for (int i = 0; i < series.size(); ++i) {
-    series.x_m[i] = 0.0;
-    series.y_m[i] = truth.HeightAt(series.t_s[i]) + noise(rng);
-    series.valid[i] = true;
-  }
+  const TimeSeries series = MakeSyntheticTrack(truth, static_cast<int>(s.end_time_s * kFps), kFps, 5e-5, 5);
   KinematicsOptions ko;
   ko.mass_kg = kMassKg;
   ko.onset_height_m = std::nullopt;

@@ -159,6 +159,56 @@ TEST(RigIo, AnUnknownUpSideIsRefusedWithTheValidOnes) {
   EXPECT_EQ(ErrorOf(text), "rig.json: field 'vertical.up': unknown up side 'sky'; valid: top, bottom, left, right");
 }
 
+// Regression (found by tests/fuzz/rig_fuzz): a number beyond a double's range (largest finite
+// double about 1.8e308, IEEE 754-2008) makes nlohmann/json throw out_of_range (406), not
+// parse_error; it escaped the reader without the file's name.
+TEST(RigIo, ANumberBeyondADoublesRangeIsRefusedNamingTheFile) {
+  std::string text = RigToJson(MakeRig());
+  text.replace(text.find("1100.25"), 7, "1e400");
+  EXPECT_EQ(ErrorOf(text), "rig.json: malformed JSON: number overflow parsing '1e400'");
+}
+
+// Regression (found while writing tests/fuzz): the image size was cast from double to int unchecked;
+// for a value an int cannot hold that is undefined behaviour (ISO/IEC 14882:2020 [conv.fpint]/1).
+TEST(RigIo, AnImageSizeThatIsNotAWholeNumberOfPixelsIsRefused) {
+  const std::string text = RigToJson(MakeRig());
+  for (const char* width : {"1e10", "-3e9", "1024.5"}) {
+    std::string bad = text;
+    bad.replace(bad.find("\"width\": 1024"), std::string("\"width\": 1024").size(), std::string("\"width\": ") + width);
+    EXPECT_NE(ErrorOf(bad).find("rig.json: field 'image_size_px.width' is "), std::string::npos) << width;
+    EXPECT_NE(ErrorOf(bad).find("; a whole number of pixels is needed"), std::string::npos) << width;
+  }
+}
+
+// Regression (found while writing tests/fuzz): the version was read with get<int>(), which wraps
+// 4294967297 (2^32 + 1) to 1 (ISO/IEC 14882:2020 [conv.integral]/3), so the file passed as version 1.
+TEST(RigIo, ASchemaVersionBeyondIntIsNotTakenForVersionOne) {
+  std::string text = RigToJson(MakeRig());
+  text.replace(text.find("\"schema_version\": 1"), 19, "\"schema_version\": 4294967297");
+  EXPECT_EQ(ErrorOf(text),
+            "rig.json: unknown rig schema version 4294967297 (this dropfit reads version 1); remake the rig with this "
+            "dropfit's `calibrate`");
+}
+
+// Regression (found while writing tests/fuzz): nlohmann/json's dump() recurses, and the reader dumps
+// non-text calibrate_options values, so a deeply nested value (a million '[') overflowed the stack.
+// The limit is 32 levels, the top-level object included (a rig file uses 4).
+TEST(RigIo, JsonNestedDeeperThanARigFileIsRefused) {
+  const std::string text = RigToJson(MakeRig());
+  const auto close = text.rfind('}');
+  const auto with = [&](const std::string& field) {
+    std::string t = text;
+    t.insert(close, ",\n  " + field + "\n");
+    return t;
+  };
+  const std::string refused = "rig.json: malformed JSON: nested deeper than 32 levels";
+  EXPECT_EQ(
+      ErrorOf(with("\"calibrate_options\": {\"x\": " + std::string(1000000, '[') + std::string(1000000, ']') + "}")),
+      refused);
+  EXPECT_EQ(ErrorOf(with("\"future\": " + std::string(32, '[') + std::string(32, ']'))), refused);
+  EXPECT_EQ(ErrorOf(with("\"future\": " + std::string(31, '[') + std::string(31, ']'))), "(no error)");
+}
+
 TEST(RigIo, AMissingFileIsNamed) {
   const fs::path dir = MakeTempDir();
   try {

@@ -107,6 +107,14 @@ TEST(FrameSource, ClipThatCannotBeOpenedIsRejectedWithItsName) {
   } catch (const std::runtime_error& e) {
     EXPECT_NE(std::string(e.what()).find("missing.avi: no such file or folder"), std::string::npos);
   }
+  std::ofstream(dir / "empty.avi").close();  // a zero-length file is named as such (issue 9)
+  try {
+    FrameSource::Open(dir / "empty.avi");
+    FAIL() << "no exception";
+  } catch (const std::runtime_error& e) {
+    EXPECT_NE(std::string(e.what()).find("empty.avi: is empty (0 bytes)"), std::string::npos) << e.what();
+  }
+  fs::remove(dir / "empty.avi");
   std::ofstream(dir / "readme.txt") << "x";
   try {
     FrameSource::Open(dir);

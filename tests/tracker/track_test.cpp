@@ -259,8 +259,10 @@ TEST(Track, ClipFromAnImageFolderIsReadOnASecondThreadWithProgressAndGaps) {
   EXPECT_EQ(t.frames, 40);
   EXPECT_EQ(t.tracked_frames, 39);
   EXPECT_FALSE(t.samples[17].found);
-  ASSERT_EQ(t.errors.size(), 1u);
-  EXPECT_NE(t.errors[0].find("no file for frame 17 (number 1217 is missing"), std::string::npos) << t.errors[0];
+  EXPECT_TRUE(t.errors.empty());  // a missing frame is left empty: a warning, not a failure
+  int named = 0;
+  for (const std::string& w : t.warnings) named += w.find("no file for frame 17 (number 1217 is missing") != w.npos;
+  EXPECT_EQ(named, 1);
   EXPECT_LT(RmsError(t, c), kRmsTargetPx);
   fs::remove_all(dir);
 }
