@@ -51,21 +51,8 @@ std::vector<double> Truth(LawId law) {
   return {};
 }
 
-int DampingIndex(LawId law) {
-  switch (law) {
-    case LawId::kKelvinVoigt:
-      return 1;
-    case LawId::kHuntCrossley:
-      return 2;
-    case LawId::kHertz:
-      return 2;
-    case LawId::kBilinear:
-      return 3;
-    case LawId::kVolumetric:
-      return 1;
-  }
-  return 0;
-}
+// The damping parameter (c, alpha or a) is the last of every law's ParameterNames.
+int DampingIndex(LawId law) { return ParameterCount(law) - 1; }
 
 FitClip Clip(LawId law, double drop_m, std::uint64_t seed, bool geometry_known, double* max_deflection_m = nullptr,
              double* duration_s = nullptr, double* peak_n = nullptr) {

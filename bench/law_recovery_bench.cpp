@@ -127,20 +127,8 @@ std::vector<double> ParamValues(const std::vector<std::string>& pairs) {
   return v;
 }
 
-int DampingIndex(LawId law) {
-  switch (law) {
-    case LawId::kKelvinVoigt:
-      return 1;
-    case LawId::kHuntCrossley:
-    case LawId::kHertz:
-      return 2;
-    case LawId::kBilinear:
-      return 3;
-    case LawId::kVolumetric:
-      return 1;
-  }
-  return 0;
-}
+// The damping parameter (c, alpha or a) is the last of every law's ParameterNames.
+int DampingIndex(LawId law) { return analysis::ParameterCount(law) - 1; }
 
 analysis::TreadGeometry Tread() { return analysis::MakeTreadGeometry(kFreeRadiusM, 0.0, kSectionRadiusM); }
 
