@@ -24,6 +24,24 @@ std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptio
   return m.str();
 }
 
+std::vector<double> TyreLikeLawParams(LawId law) {
+  switch (law) {
+    case LawId::kKelvinVoigt:
+      return {2e5, 300.0};
+    case LawId::kHuntCrossley:
+      return {2.5e7, 1.7, 0.2};
+    case LawId::kHertz:
+      return {1e7, 1.5, 0.15};
+    case LawId::kBilinear:
+      return {1e5, 4e5, 0.006, 200.0};
+    case LawId::kVolumetric:
+      return {2.5e7, 0.2};
+  }
+  return {};
+}
+
+TreadGeometry TyreLikeTread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
+
 DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,
                               double mass_kg, double onset_height_m, double drop_m, double end_time_s,
                               double gravity_mps2) {

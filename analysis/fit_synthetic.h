@@ -46,6 +46,12 @@ struct SyntheticClip {
   Trajectory truth;  // the simulated drop
 };
 
+// Tyre-like truths shared by the fit tests and bench/fit_bench, so both judge the same cases:
+// per law, parameters in ParameterNames order giving contacts of 10-20 ms and 5-15 mm at 1-3 m/s
+// for a 10 kg drop, on a cylinder tread of width 0.2 m at free radius 0.3 m.
+std::vector<double> TyreLikeLawParams(LawId law);
+TreadGeometry TyreLikeTread();
+
 // A drop from rest: the hub released at start time 0 from drop_m above the onset height (the
 // hub height at first contact), simulated until end_time_s.
 DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,

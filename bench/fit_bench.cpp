@@ -33,30 +33,12 @@ constexpr double kMassKg = 10.0;
 constexpr double kOnsetM = 0.3;
 constexpr double kNoiseM = 5e-5;
 
-TreadGeometry Tread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
-
-std::vector<double> Truth(LawId law) {
-  switch (law) {
-    case LawId::kKelvinVoigt:
-      return {2e5, 300.0};
-    case LawId::kHuntCrossley:
-      return {2.5e7, 1.7, 0.2};
-    case LawId::kHertz:
-      return {1e7, 1.5, 0.15};
-    case LawId::kBilinear:
-      return {1e5, 4e5, 0.006, 200.0};
-    case LawId::kVolumetric:
-      return {2.5e7, 0.2};
-  }
-  return {};
-}
-
 // The damping parameter (c, alpha or a) is the last of every law's ParameterNames.
 int DampingIndex(LawId law) { return ParameterCount(law) - 1; }
 
 FitClip Clip(LawId law, double drop_m, std::uint64_t seed, bool geometry_known, double* max_deflection_m = nullptr,
              double* duration_s = nullptr, double* peak_n = nullptr) {
-  const DropScenario s = MakeDropScenario(law, Truth(law), Tread(), kMassKg, kOnsetM, drop_m, 1.0);
+  const DropScenario s = MakeDropScenario(law, TyreLikeLawParams(law), TyreLikeTread(), kMassKg, kOnsetM, drop_m, 1.0);
   SyntheticClipOptions so;
   so.noise_sd_m = kNoiseM;
   so.seed = seed;
@@ -73,7 +55,7 @@ FitClip Clip(LawId law, double drop_m, std::uint64_t seed, bool geometry_known, 
 
 LawFitOptions Options() {
   LawFitOptions o;
-  o.tread = Tread();
+  o.tread = TyreLikeTread();
   return o;
 }
 
@@ -142,8 +124,8 @@ void Recovery(int clips_per_law) {
       const FitClip clip = Clip(truth, heights[r % heights.size()], 500 + r, true, &dmax, &tc, &peak);
       const LawComparison all = FitAllLaws({clip}, Options());
       const LawFitResult& fit = all.fits[static_cast<int>(truth)];
-      const std::vector<double> t = Truth(truth);
-      const TreadGeometry tread = Tread();
+      const std::vector<double> t = TyreLikeLawParams(truth);
+      const TreadGeometry tread = TyreLikeTread();
       const double f_fit = ElasticContactForce(truth, fit.params.data(), tread, dmax);
       const double f_true = ElasticContactForce(truth, t.data(), tread, dmax);
       worst_stiff = std::max(worst_stiff, std::abs(f_fit / f_true - 1.0));
@@ -195,9 +177,9 @@ void Recovery(int clips_per_law) {
       std::printf("%-14s failed: %s\n", ToString(truth).c_str(), fit.failure->c_str());
       continue;
     }
-    const std::vector<double> t = Truth(truth);
-    const double stiff = std::abs(ElasticContactForce(truth, fit.params.data(), Tread(), dmax) /
-                                      ElasticContactForce(truth, t.data(), Tread(), dmax) -
+    const std::vector<double> t = TyreLikeLawParams(truth);
+    const double stiff = std::abs(ElasticContactForce(truth, fit.params.data(), TyreLikeTread(), dmax) /
+                                      ElasticContactForce(truth, t.data(), TyreLikeTread(), dmax) -
                                   1.0);
     const int d = DampingIndex(truth);
     double holdout = 0.0;

@@ -29,33 +29,14 @@ const bool kQuietCeres = [] {
 constexpr double kMassKg = 10.0;
 constexpr double kOnsetM = 0.3;
 
-TreadGeometry Tread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
-
-// Representative truths: tyre-like contacts of 10-20 ms and 5-15 mm at 1-3 m/s.
-std::vector<double> TruthParams(LawId law) {
-  switch (law) {
-    case LawId::kKelvinVoigt:
-      return {2e5, 300.0};
-    case LawId::kHuntCrossley:
-      return {2.5e7, 1.7, 0.2};
-    case LawId::kHertz:
-      return {1e7, 1.5, 0.15};
-    case LawId::kBilinear:
-      return {1e5, 4e5, 0.006, 200.0};
-    case LawId::kVolumetric:
-      return {2.5e7, 0.2};
-  }
-  return {};
-}
-
 DropScenario Scenario(LawId law, const std::vector<double>& params, double drop_above_onset_m, double gravity_mps2,
                       double end_time_s) {
-  return MakeDropScenario(law, params, Tread(), kMassKg, kOnsetM, drop_above_onset_m, end_time_s, gravity_mps2);
+  return MakeDropScenario(law, params, TyreLikeTread(), kMassKg, kOnsetM, drop_above_onset_m, end_time_s, gravity_mps2);
 }
 
 LawFitOptions Options() {
   LawFitOptions o;
-  o.tread = Tread();
+  o.tread = TyreLikeTread();
   return o;
 }
 
@@ -68,7 +49,7 @@ SyntheticClip Clip(LawId law, double noise_sd_m, std::uint64_t seed, bool geomet
   so.max_bounces = bounces;
   so.capture_fps = fps;
   so.drop_height_m = drop_m;
-  return MakeSyntheticClip("synthetic", Scenario(law, TruthParams(law), drop_m, kStandardGravityMps2, 1.0), so);
+  return MakeSyntheticClip("synthetic", Scenario(law, TyreLikeLawParams(law), drop_m, kStandardGravityMps2, 1.0), so);
 }
 
 // Noise-free data from the same forward model: the fit must return the model's own
@@ -82,7 +63,7 @@ TEST(LawFit, NoiseFreeClipsGiveBackTheForwardModelsParametersForEveryLaw) {
     const LawFitResult fit = FitLaw(law, {clip.clip}, Options());
     ASSERT_FALSE(fit.failure) << *fit.failure;
     EXPECT_TRUE(fit.converged) << fit.termination;
-    const std::vector<double> truth = TruthParams(law);
+    const std::vector<double> truth = TyreLikeLawParams(law);
     for (size_t i = 0; i < truth.size(); ++i) {
       EXPECT_NEAR(fit.params[i] / truth[i], 1.0, kNoiseFreeRelTol) << fit.param_names[i];
     }
@@ -98,7 +79,7 @@ TEST(LawFit, NoiseFreeClipWithUnknownGeometryGivesBackParametersAndOnsetHeight) 
     ASSERT_FALSE(fit.failure) << *fit.failure;
     EXPECT_TRUE(fit.onset_height_fitted);
     EXPECT_NEAR(fit.onset_height_m, kOnsetM, kNoiseFreeRelTol * kOnsetM);
-    const std::vector<double> truth = TruthParams(law);
+    const std::vector<double> truth = TyreLikeLawParams(law);
     for (size_t i = 0; i < truth.size(); ++i) EXPECT_NEAR(fit.params[i] / truth[i], 1.0, kNoiseFreeRelTol);
   }
 }
@@ -118,7 +99,7 @@ TEST(LawFit, ResidualJacobiansAgreeWithNumericDifferentiation) {
     const FitWindow& window = clip.clip.windows.front();
     const double delta_ref = window.figures.max_deflection_m;
     // Off the truth so that residuals are not zero: parameters +3 %, onset +0.2 mm.
-    std::vector<double> p = TruthParams(law);
+    std::vector<double> p = TyreLikeLawParams(law);
     for (double& v : p) v *= 1.03;
     if (law == LawId::kHertz) p[1] = 1.5;
     std::vector<double> x = InternalFromLawParameters(law, p, delta_ref);
@@ -174,7 +155,7 @@ TEST(LawFit, TruthLiesWithinTwoStandardDeviationsInAtLeastNinetyPercentOfNoisyFi
   for (LawId law : {LawId::kKelvinVoigt, LawId::kHuntCrossley}) {
     SCOPED_TRACE(ToString(law));
     int inside = 0, total = 0;
-    const std::vector<double> truth = TruthParams(law);
+    const std::vector<double> truth = TyreLikeLawParams(law);
     for (int r = 0; r < kRealisations; ++r) {
       const SyntheticClip clip = Clip(law, kNoiseM, 100 + r, true);
       LawFitOptions o = Options();
@@ -199,7 +180,7 @@ constexpr double kClosedFormTol = 1e-7;  // the tables have 9-10 significant dig
 TEST(LawFit, ZeroDampingGivesACorOfOne) {
   for (LawId law : AllLaws()) {
     SCOPED_TRACE(ToString(law));
-    std::vector<double> p = TruthParams(law);
+    std::vector<double> p = TyreLikeLawParams(law);
     if (law == LawId::kKelvinVoigt) p[1] = 0.0;
     if (law == LawId::kHuntCrossley || law == LawId::kHertz) p[2] = 0.0;
     if (law == LawId::kBilinear) p[3] = 0.0;
@@ -280,7 +261,7 @@ TEST(LawFit, HuntCrossleyTruthShowsOneMinusCorRisingWithSpeedAndKelvinVoigtTruth
 // 10 %, exponent 0.05, onset height 0.2 mm).
 TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   const LawId law = LawId::kHuntCrossley;
-  const DropScenario s = Scenario(law, TruthParams(law), 0.25, kStandardGravityMps2, 1.0);
+  const DropScenario s = Scenario(law, TyreLikeLawParams(law), 0.25, kStandardGravityMps2, 1.0);
   const Trajectory truth = SimulateDrop(s);
   constexpr double kFps = 2000.0;
   const TimeSeries series = MakeSyntheticTrack(truth, static_cast<int>(s.end_time_s * kFps), kFps, 5e-5, 5);
@@ -304,7 +285,7 @@ TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   const LawFitResult fit = FitLaw(law, {clip}, Options());
   ASSERT_FALSE(fit.failure) << *fit.failure;
   EXPECT_TRUE(fit.converged);
-  const std::vector<double> t = TruthParams(law);
+  const std::vector<double> t = TyreLikeLawParams(law);
   const double delta = truth.impacts().front().max_deflection_m;
   EXPECT_NEAR(fit.params[0] * std::pow(delta, fit.params[1]) / (t[0] * std::pow(delta, t[1])), 1.0, 0.02);
   EXPECT_NEAR(fit.params[1], t[1], 0.05);
@@ -340,7 +321,7 @@ TEST(LawFit, SingleBounceWithFittedOnsetWarnsAndWidensTheExponent) {
   std::printf("single bounce: n = %.3f +- %.3f, onset %.5f +- %.5f m\n", fit.params[1], fit.param_sd[1],
               fit.onset_height_m, fit.onset_height_sd_m);
   EXPECT_GT(fit.param_sd[1], 0.02);  // the exponent is not pinned to hundredths
-  ExpectHonest(fit, TruthParams(LawId::kHuntCrossley));
+  ExpectHonest(fit, TyreLikeLawParams(LawId::kHuntCrossley));
 }
 
 TEST(LawFit, BilinearFitToALinearSpringFlagsTheKneeAsUndetermined) {
@@ -364,7 +345,7 @@ TEST(LawFit, FewContactFramesWarnAndStayHonest) {
   const LawFitResult fit = FitLaw(LawId::kHertz, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure);
   EXPECT_TRUE(HasWarning(fit, "samples in contact"));
-  ExpectHonest(fit, TruthParams(LawId::kHertz));
+  ExpectHonest(fit, TyreLikeLawParams(LawId::kHertz));
 }
 
 TEST(LawFit, NoiseLargerThanTheDeflectionWarnsAndGivesWideUncertainties) {
@@ -374,7 +355,7 @@ TEST(LawFit, NoiseLargerThanTheDeflectionWarnsAndGivesWideUncertainties) {
   std::printf("k = %.4g +- %.4g N/m, c = %.4g +- %.4g N s/m (truth 2e5, 300)\n", fit.params[0], fit.param_sd[0],
               fit.params[1], fit.param_sd[1]);
   EXPECT_TRUE(HasWarning(fit, "comparable with the deflection"));
-  ExpectHonest(fit, TruthParams(LawId::kKelvinVoigt));
+  ExpectHonest(fit, TyreLikeLawParams(LawId::kKelvinVoigt));
 }
 
 }  // namespace
