@@ -143,22 +143,11 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   // Everything the command cannot start from is checked before anything is written.
   if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(*message);
   tracker::TrackOptions track_options;
-  try {
-    track_options.marker = tracker::MarkerKindFromString(options.marker);
-    if (!options.seed.empty()) track_options.seed_px = ParseSeed(options.seed);
-  } catch (const std::invalid_argument& e) {
-    return BadUsage(e.what());
-  }
-  if (auto message = tracker::ValidateTrackOptions(track_options)) return BadUsage(*message);
   calib::Rig rig;
-  try {
-    rig = ReadRigFile(options.rig_path);
-  } catch (const std::exception& e) {
-    return BadUsage(std::string(e.what()) + "; nothing was written");
-  }
+  if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
+    return BadUsage(*message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
-  if (!fs::exists(clip_path, ec)) return BadUsage(options.clip + ": no such file or folder; check the path");
 
   // Track, measure and fit (cli/clip_pipeline.h: the same code as `dropfit run`).
   ClipRequest request;

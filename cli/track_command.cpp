@@ -125,30 +125,38 @@ void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
   if (track.marker_chosen) result.extra.push_back({"marker_radius_px", track.marker_radius_px});
 }
 
+std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
+                                           const std::string& rig_path, const std::string& clip,
+                                           tracker::TrackOptions& track_options, calib::Rig& rig) {
+  try {
+    track_options.marker = tracker::MarkerKindFromString(marker);
+    if (!seed.empty()) track_options.seed_px = ParseSeed(seed);
+  } catch (const std::invalid_argument& e) {
+    return e.what();
+  }
+  if (auto message = tracker::ValidateTrackOptions(track_options)) return message;
+  try {
+    rig = ReadRigFile(rig_path);
+  } catch (const std::exception& e) {
+    return std::string(e.what()) + "; nothing was written";
+  }
+  std::error_code ec;
+  if (!fs::exists(fs::path(clip), ec)) return clip + ": no such file or folder; check the path";
+  return std::nullopt;
+}
+
 int RunTrack(const TrackCommandOptions& options) {
   // Everything the command cannot start from is checked before anything is written.
-  tracker::TrackOptions track_options;
-  try {
-    track_options.marker = tracker::MarkerKindFromString(options.marker);
-    if (!options.seed.empty()) track_options.seed_px = ParseSeed(options.seed);
-  } catch (const std::invalid_argument& e) {
-    return BadUsage(e.what());
-  }
   if (options.fps && !Usable(options.fps)) {
     return BadUsage("--fps " + Num(*options.fps) + " is not a positive number of frames per second");
   }
-  if (auto msg = tracker::ValidateTrackOptions(track_options)) return BadUsage(*msg);
   if (options.out_dir.empty()) return BadUsage("-o DIR is required: the folder for track.csv and result.json");
-
+  tracker::TrackOptions track_options;
   calib::Rig rig;
-  try {
-    rig = ReadRigFile(options.rig_path);
-  } catch (const std::exception& e) {
-    return BadUsage(std::string(e.what()) + "; nothing was written");
-  }
+  if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
+    return BadUsage(*message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
-  if (!fs::exists(clip_path, ec)) return BadUsage(options.clip + ": no such file or folder; check the path");
 
   ClipResult result;
   result.clip = ClipIdOf(clip_path);

@@ -59,6 +59,13 @@ std::optional<CaptureRate> ResolveCaptureRate(std::optional<double> option_fps, 
 // Parses "U,V" (pixels, two finite numbers). Throws std::invalid_argument naming the text.
 cv::Point2d ParseSeed(const std::string& text);
 
+// The start `track` and `analyze` share: the marker kind and seed into `track_options` (then
+// validated), the rig file into `rig`, and the clip's existence. Returns the message when the
+// command cannot start (exit status 2, nothing written), else nothing.
+std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
+                                           const std::string& rig_path, const std::string& clip,
+                                           tracker::TrackOptions& track_options, calib::Rig& rig);
+
 // track.csv rows of a track: t_s = frame / fps; metres through the rig (calib::PlaneFromImage:
 // undistort, then the plane mapping) where the marker was found; empty otherwise.
 std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
