@@ -10,6 +10,8 @@
 #include <random>
 #include <vector>
 
+#include "analysis/fit_synthetic.h"
+
 namespace dropfit::analysis {
 namespace {
 
@@ -292,14 +294,8 @@ TEST(ForwardModel, ZeroDampingGivesACorOfOneForEveryLaw) {
                         {LawId::kBilinear, {1e5, 3e5, 0.004, 0.0}},
                         {LawId::kVolumetric, {2e7, 0.0}}};
   for (const Case& test_case : cases) {
-    DropScenario scenario;
-    scenario.setup.law = test_case.law;
-    scenario.setup.mass_kg = 10.0;
-    scenario.setup.tread = MakeTreadGeometry(0.3, 0.0, 0.05);
-    scenario.law_params = test_case.params;
-    scenario.onset_height_m = 0.3;
-    scenario.start_height_m = 0.6;
-    scenario.end_time_s = 1.5;
+    const DropScenario scenario =
+        MakeDropScenario(test_case.law, test_case.params, MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.3, 1.5);
     const Trajectory trajectory = SimulateDrop(scenario);
     ASSERT_GE(trajectory.impacts().size(), 2u) << ToString(test_case.law);
     for (const ImpactTruth& impact : trajectory.impacts()) {
@@ -438,15 +434,8 @@ TEST(ForwardModel, TemplatedHeightsEqualTheTrajectory) {
                            {LawId::kBilinear, {1e5, 3e5, 0.004, 200}},
                            {LawId::kVolumetric, {2e7, 0.3}}};
   for (const FitCase& test_case : cases) {
-    DropScenario scenario;
-    scenario.setup.law = test_case.law;
-    scenario.setup.mass_kg = 10.0;
-    scenario.setup.tread = MakeTreadGeometry(0.3, 0.0, 0.05);
-    scenario.law_params = test_case.params;
-    scenario.onset_height_m = 0.3;
-    scenario.start_height_m = 0.5;
-    scenario.start_time_s = 0.0;
-    scenario.end_time_s = 0.6;
+    const DropScenario scenario =
+        MakeDropScenario(test_case.law, test_case.params, MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.2, 0.6);
     const Trajectory trajectory = SimulateDrop(scenario);
     const std::vector<double> times = SampleTimes(0.0, 0.6, 2000.0);
     std::vector<double> heights(times.size()), velocities(times.size());
