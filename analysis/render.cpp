@@ -217,6 +217,16 @@ std::optional<std::string> ValidateWheelLook(const WheelLook& look) {
   return std::nullopt;
 }
 
+ExposureSettings WithoutImperfections(ExposureSettings e) {
+  e.subframes = 1;
+  e.read_noise_grey = 0;
+  e.electrons_per_grey = 0;
+  e.vignetting_fraction = 0;
+  e.flicker_fraction = 0;
+  e.psf_sigma_px = 0;
+  return e;
+}
+
 std::optional<std::string> ValidateExposure(const ExposureSettings& e, double capture_fps) {
   std::ostringstream msg;
   if (!(capture_fps > 0 && std::isfinite(capture_fps))) {

@@ -100,6 +100,9 @@ struct ExposureSettings {
   double psf_sigma_px = 0.5;         // lens blur: s.d. of a Gaussian point-spread function [px];
                                      // [0, 5], 0 = none. Symmetric, so it moves no centre.
 };
+// `e` with every imperfection switched off: one sub-frame (no motion blur), no read or shot noise,
+// no vignetting, flicker or lens blur; the exposure time is kept. The "clean" variant.
+ExposureSettings WithoutImperfections(ExposureSettings e);
 // `capture_fps` bounds the exposure time. A message naming the bad field, or nothing.
 std::optional<std::string> ValidateExposure(const ExposureSettings& exposure, double capture_fps);
 

@@ -149,12 +149,7 @@ RenderPlan MakePlan(const RenderCommandOptions& o) {
   e.flicker_fraction = o.flicker;
   e.psf_sigma_px = o.psf_sigma_px;
   if (o.clean) {
-    e.subframes = 1;
-    e.read_noise_grey = 0;
-    e.electrons_per_grey = 0;
-    e.vignetting_fraction = 0;
-    e.flicker_fraction = 0;
-    e.psf_sigma_px = 0;
+    e = analysis::WithoutImperfections(e);
     plan.add_noise = false;
   }
   plan.format = o.format == "auto" ? (o.clean ? analysis::VideoFormat::kPngFrames : analysis::VideoFormat::kMjpgAvi)

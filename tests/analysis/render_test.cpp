@@ -21,16 +21,7 @@ namespace {
 // error of a few 1e-3 px (partly covered edge pixels), inside this bound.
 constexpr double kCentreTolerancePx = 0.01;
 
-ExposureSettings CleanExposure() {
-  ExposureSettings e;
-  e.subframes = 1;
-  e.read_noise_grey = 0;
-  e.electrons_per_grey = 0;
-  e.vignetting_fraction = 0;
-  e.flicker_fraction = 0;
-  e.psf_sigma_px = 0;
-  return e;
-}
+ExposureSettings CleanExposure() { return WithoutImperfections(ExposureSettings{}); }
 
 // Background-subtracted first moments over the pixels whose centres lie within `window_px`
 // of `guess`; the background is the median of the ring of radii [r0, r1] px (inside the cap).
