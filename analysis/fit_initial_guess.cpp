@@ -177,13 +177,13 @@ InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figur
       for (double n : {1.5, 1.1, 2.2}) {
         if (std::abs(n - n0) > 0.25) guess.starts.push_back({power_k(n), n, alpha});
       }
-      note << "alpha from the exact COR relation (references §5), k from the exact compression work, "
+      note << "alpha from the exact COR relation (docs/methods.md §5), k from the exact compression work, "
            << "starting exponent " << n0;
       break;
     }
     case LawId::kHertz:
       guess.starts.push_back({power_k(1.5), 1.5, alpha});
-      note << "alpha from the exact COR relation (references §5), k from the exact compression work";
+      note << "alpha from the exact COR relation (docs/methods.md §5), k from the exact compression work";
       break;
     case LawId::kBilinear:
       for (double omega : omegas) {
@@ -203,7 +203,7 @@ InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figur
         return out;
       }
       guess.starts.push_back({work_j / integral, alpha});
-      note << "a from the exact COR relation (references §5), kv from the exact compression work";
+      note << "a from the exact COR relation (docs/methods.md §5), kv from the exact compression work";
       break;
     }
   }

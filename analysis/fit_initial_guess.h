@@ -6,29 +6,29 @@
 // track's late separation make the measured figures differ from that idealisation by a few
 // per cent, which the fit then removes. The published approximate damping-COR relations
 // (Hunt & Crossley 1975, Lankarani & Nikravesh 1990, ...) are deliberately NOT used: they
-// miss the target COR by up to 0.16 (../shared/references.md §5, table).
+// miss the target COR by up to 0.16 (docs/methods.md §5, table).
 //
 // Relations (all in SI units):
 //  * Kelvin-Voigt, separation where the force returns to zero (Schwager & Poeschel 2007,
-//    Granular Matter 9:465-469, eq. 21; references.md §3b): with zeta = c / (2 sqrt(k m)),
+//    Granular Matter 9:465-469, eq. 21; docs/methods.md §3b): with zeta = c / (2 sqrt(k m)),
 //      underdamped  omega0 t_c = (pi - atan2(2 zeta sqrt(1 - zeta^2), 1 - 2 zeta^2)) / sqrt(1 - zeta^2)
 //      critical     omega0 t_c = 2
 //      overdamped   omega0 t_c = 2 ln(zeta + Omega) / Omega,  Omega = sqrt(zeta^2 - 1)
 //    and e = exp(-zeta omega0 t_c) in every branch; e depends on zeta only, so zeta follows
 //    from e (KelvinVoigtZetaFromCor), then omega0 from t_c or from delta_max.
 //    Maximum deflection (DERIVED from x(t) = (v/omega_d) exp(-beta t) sin(omega_d t), the
-//    no-gravity solution of references.md §3b; common textbook result):
+//    no-gravity solution of docs/methods.md §3b; common textbook result):
 //      underdamped  delta_max = (v/omega0) exp(-zeta/sqrt(1-zeta^2) atan(sqrt(1-zeta^2)/zeta))
 //      critical     delta_max = (v/omega0) / e_Euler
 //      overdamped   delta_max = (v/omega0) exp(-zeta/Omega atanh(Omega/zeta))
 //  * Multiplicative damping F = K(delta) (1 + alpha delta_dot) (Hunt-Crossley, Hertz,
 //    volumetric): the exact COR solves  w - ln(1 + w) = -e w - ln(1 - e w),  w = alpha v,
-//    for any K(delta) (references.md §5, DERIVED there; checked by ODE for n = 1, 1.5, 2).
+//    for any K(delta) (docs/methods.md §5, DERIVED there; checked by ODE for n = 1, 1.5, 2).
 //    The compression phase gives, also exactly,
 //      Int_0^delta_max K(d) dd = m (w - ln(1 + w)) / alpha^2   (-> m v^2 / 2 as alpha -> 0),
 //    so for K = k delta^n:  k = (n + 1) m (w - ln(1 + w)) / (alpha^2 delta_max^(n+1)).
 //  * Power-law elastic impact: t_c = C_n delta_max / v with C_n = (2/(n+1)) B(1/(n+1), 1/2)
-//    (references.md §4, DERIVED there: C_1 = pi, C_1.5 = 2.943275184, C_2 = 2.804364211);
+//    (docs/methods.md §4, DERIVED there: C_1 = pi, C_1.5 = 2.943275184, C_2 = 2.804364211);
 //    inverting it gives a starting exponent from the measured figures.
 
 #include <optional>

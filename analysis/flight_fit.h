@@ -5,7 +5,7 @@
 //
 // A falling (or rising) body in free flight, without drag, moves on
 //   y(t) = y0 + v0 (t - t0) - (g/2) (t - t0)^2,
-// a parabola in time (textbook kinematics; ../shared/references.md §2: v = sqrt(2 g h)).
+// a parabola in time (textbook kinematics; docs/methods.md §2: v = sqrt(2 g h)).
 // The fits here leave the acceleration free (3 coefficients): the measured acceleration is
 // the self-check of the capture rate and scale (analysis/self_checks.h), and the speed at a
 // height is read from the same fit, never from one differentiated frame.

@@ -11,7 +11,7 @@
 // Default g is standard gravity 9.80665 m/s^2 exactly (3rd CGPM 1901; ISO 80000-3); set
 // gravity_mps2 to the local value, or to 0 for the no-gravity textbook cases.
 //
-// Contact and separation (../shared/references.md §3b-§3c). Contact begins when the hub
+// Contact and separation (docs/methods.md §3b-§3c). Contact begins when the hub
 // falls through the onset height (time from the flight parabola in closed form). The hub is
 // pressed while delta > 0 and F_raw(delta, delta_dot) > 0. Separation is where the force
 // returns to zero, not where delta does: with damping the hub leaves the floor below the
@@ -138,7 +138,7 @@ std::string Validate(const DropScenario& scenario);
 //   impact_speed_mps     downward speed at t_contact_s.
 //   rebound_speed_mps    upward speed when the hub passes the onset height again, from the
 //                        post-separation flight parabola: sqrt(v_sep^2 - 2 g x_sep)
-//                        (e_level of references §3c); NaN if it does not get there.
+//                        (e_level of docs/methods.md §3c); NaN if it does not get there.
 //   cor                  rebound / impact speed (NaN when rebound is NaN).
 //   contact_duration_s   t_separation_s - t_contact_s.
 //   max_deflection_m     onset height minus the lowest hub height of the impact.

@@ -13,7 +13,7 @@
 //   torus     a tyre whose cross-section is a circle of radius a = section_radius_m; the
 //             tube's centre circle has radius R = free_radius_m - a around the axle, so the
 //             outer radius is R + a = free_radius_m.
-//             V(delta) by Gauss-Legendre quadrature of slice areas (../shared/references.md
+//             V(delta) by Gauss-Legendre quadrature of slice areas (docs/methods.md
 //             §7b, DERIVED there): slices perpendicular to the axle at lateral offset y are
 //             annuli with radii R +- sqrt(a^2 - y^2); the part of each annulus below the
 //             floor line is A(r+, r+ - h) - A(r-, r- - h), h = R + a - delta the axle-to-floor
@@ -87,7 +87,7 @@ TreadGeometry MakeTreadGeometry(double free_radius_m, double tread_width_m, doub
 // Area of a circular segment of a circle of radius r cut off by a chord at depth d below
 // the top of the circle (d measured inward from the circle, 0 <= d <= 2r):
 //   A(d) = r^2 acos((r - d)/r) - (r - d) sqrt(2 r d - d^2)      (handbook formula,
-//   ../shared/references.md §7a; which handbook FROM MEMORY).
+//   docs/methods.md §7a; which handbook FROM MEMORY).
 // Evaluated as 2 r^2 asin(sqrt(d/(2r))) - (r - d) sqrt(d (2r - d)), and by its series
 // (4/3) sqrt(2r) d^{3/2} (1 - 3d/(20r) - ...) for d < 1e-3 r, which avoids cancellation.
 // Returns 0 for d <= 0 and pi r^2 for d >= 2r. dA/dd = 2 sqrt(d (2r - d)).

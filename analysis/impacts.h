@@ -1,6 +1,6 @@
 #pragma once
 // Segmentation of a drop track into flight and contact phases, and the per-impact figures of
-// ../shared/contract.md ("Impact figures"), each with a standard uncertainty.
+// docs/formats.md ("Impact figures"), each with a standard uncertainty.
 //
 // Segmentation (SegmentBounces), with no threshold the user has to tune:
 //  1. Position noise: first from the third differences of the track (zero for a parabola;
@@ -45,7 +45,7 @@
 //                      rising flight parabola at the onset height
 //   cor                rebound / impact speed
 //   cor_from_apex      sqrt(rebound apex height / drop apex height), heights above the onset
-//                      height from the parabolas' vertices (../shared/references.md §8,
+//                      height from the parabolas' vertices (docs/methods.md §8,
 //                      e = sqrt(h_r / h_d)); equals cor when both flights have the same
 //                      acceleration; a difference beyond 3 combined sd (and 0.002) is reported
 //                      in `cor_disagreement`

@@ -155,7 +155,7 @@ struct BounceFitFigures {
   double peak_force_n = 0.0, peak_force_sd_n = 0.0;
   double max_deflection_m = 0.0, max_deflection_sd_m = 0.0;
   double impact_speed_mps = 0.0;
-  double rebound_speed_mps = 0.0;  // at the onset height (e_level of references §3c)
+  double rebound_speed_mps = 0.0;  // at the onset height (e_level of docs/methods.md §3c)
   double cor = 0.0, cor_sd = 0.0;
   double separation_speed_mps = 0.0;
   double start_height_m = 0.0;  // fitted state at the window start

@@ -5,7 +5,7 @@
 // to the `window` samples centred on it and reads the value or a derivative of that
 // polynomial at the centre (A. Savitzky, M. J. E. Golay, "Smoothing and differentiation of
 // data by simplified least squares procedures", Anal. Chem. 36 (1964) 1627-1639; the
-// convolution tables there; ../shared/references.md §6). On a full window this is a fixed
+// convolution tables there; docs/methods.md §6). On a full window this is a fixed
 // convolution; e.g. the 5-point quadratic smoother is (-3, 12, 17, 12, -3)/35 and the 5-point
 // quadratic first derivative (-2, -1, 0, 1, 2)/10 per sample spacing.
 //

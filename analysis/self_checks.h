@@ -21,7 +21,7 @@
 //    gravity's direction against the rig's vertical expressed in degrees in the plane.
 //    Positive: gravity points towards +x_m. Flagged beyond `tilt_tolerance_deg` and 3 sd.
 // 3. Drop height. The first impact's measured speed against sqrt(2 g h) for the nominal drop
-//    height h (../shared/references.md §2; the nominal height is from the tread to the floor,
+//    height h (docs/methods.md §2; the nominal height is from the tread to the floor,
 //    the fall to first contact). Faster: a higher drop or a push at release; slower: a lower
 //    drop or a release that drags. Flagged beyond `impact_speed_tolerance` (fraction) and 3
 //    sd. Only when the first contact in the clip has a falling flight (the clip is assumed to

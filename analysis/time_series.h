@@ -1,7 +1,7 @@
 #pragma once
 // The analysis library's input: one clip's hub track as a time series in the drop plane.
 //
-// Conventions (stated once, here; the same as ../shared/contract.md):
+// Conventions (stated once, here; the same as docs/formats.md, "Coordinates" and "Time"):
 // - One sample per frame of the clip, in frame order, consecutive frames (no frame skipped:
 //   a frame where the marker was not found is a sample with valid = false, never removed).
 // - t_s[i] is the frame's mid-exposure time on the clip's clock (frame / capture rate), so

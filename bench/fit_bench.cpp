@@ -21,13 +21,14 @@
 #include <string>
 #include <vector>
 
-#include "analysis/fit_synthetic.h"
 #include "analysis/joint_fit.h"
 #include "analysis/law_fit.h"
+#include "synth/fit_synthetic.h"
 
 namespace {
 
 using namespace dropfit::analysis;
+using namespace dropfit::synth;
 
 constexpr double kMassKg = 10.0;
 constexpr double kOnsetM = 0.3;

@@ -21,7 +21,6 @@
 
 #include <unistd.h>
 
-#include "analysis/camera.h"
 #include "analysis/forward_model.h"
 #include "analysis/geometry.h"
 #include "analysis/kinematics.h"
@@ -30,6 +29,7 @@
 #include "cli/results.h"
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
+#include "synth/camera.h"
 
 namespace {
 
@@ -153,7 +153,7 @@ void RenderedClips(const fs::path& work) {
         continue;
       }
       const cli::RenderTruth truth = cli::ReadTruthFile(dir / "clips" / "truth.json");
-      cli::WriteRigFile(dir / "rig.json", analysis::RigFromCamera(truth.camera, 0.0, std::nullopt));
+      cli::WriteRigFile(dir / "rig.json", synth::RigFromCamera(truth.camera, 0.0, std::nullopt));
       for (const cli::ClipTruth& clip : truth.clips) {
         cli::AnalyzeCommandOptions ao;
         ao.clip = (dir / "clips" / clip.clip).string();

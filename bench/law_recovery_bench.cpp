@@ -76,7 +76,7 @@
 #include "cli/rig_io.h"
 #include "cli/track_command.h"
 #include "cli/truth_io.h"
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
 #include "tracker/track.h"
 
 namespace {
@@ -350,7 +350,7 @@ void TrackError(const cli::ClipTruth& truth, std::vector<cli::TrackRow>& track, 
   double bin_sum[8] = {}, bin_n[8] = {};
   for (cli::TrackRow& r : track) {
     if (!r.y_m || !r.v_px || r.frame < 0 || r.frame >= static_cast<int>(truth.frames.size())) continue;
-    const analysis::FrameTruth& f = truth.frames[static_cast<size_t>(r.frame)];
+    const synth::FrameTruth& f = truth.frames[static_cast<size_t>(r.frame)];
     const double e = *r.y_m - f.y_m;
     sum2 += e * e;
     ++n;
@@ -419,7 +419,7 @@ void RunClipJob(ClipJob& job, int bounces, bool retrack, bool white_control) {
     job.track = cli::ReadTrackCsv(track_file);
   } else if (g_presmooth_px) {
     const auto t0 = std::chrono::steady_clock::now();
-    auto source = tracker::FrameSource::Open(job.request.clip_path);
+    auto source = media::FrameSource::Open(job.request.clip_path);
     tracker::TrackOptions to;
     to.presmooth_sigma_px = *g_presmooth_px;
     const tracker::Track track = tracker::TrackClip(*source, to);

@@ -4,7 +4,7 @@
 //   track_bench [--frames N] [--noise 2,4] [--kinds quadrant,dot] [--quality 90] [--keep DIR]
 //
 // Per marker kind and read-noise level, one clip is rendered by dropfit's renderer
-// (analysis/render.h: a wheel dropped in front of a textured wall at 2,000 frames/s, 800x640,
+// (synth/render.h: a wheel dropped in front of a textured wall at 2,000 frames/s, 800x640,
 // exposure 0.2 ms, shot + read noise, vignetting, flicker) and written as MJPG .avi (JPEG q90),
 // with the exact mid-exposure marker centre of every frame. Then, on the same clip:
 //   decode only     cv::VideoCapture::read + cvtColor to grey, whole clip [frames/s]
@@ -37,11 +37,11 @@
 #include <string>
 #include <vector>
 
-#include "analysis/camera.h"
 #include "analysis/forward_model.h"
-#include "analysis/render.h"
-#include "analysis/video_out.h"
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
+#include "media/video_out.h"
+#include "synth/camera.h"
+#include "synth/render.h"
 #include "tracker/track.h"
 
 namespace {
@@ -140,11 +140,11 @@ Row RunOne(const std::string& kind, double noise, const Args& args, const fs::pa
   row.kind = kind;
   row.noise = noise;
   // The scene: the renderer's defaults (about 1 px per mm at 800x640).
-  const analysis::PinholeCamera camera = analysis::MakeCamera(analysis::CameraSetup{});
-  analysis::WheelLook wheel;
-  wheel.marker = analysis::MarkerShapeFromString(kind);
+  const synth::PinholeCamera camera = synth::MakeCamera(synth::CameraSetup{});
+  synth::WheelLook wheel;
+  wheel.marker = synth::MarkerShapeFromString(kind);
   wheel.marker_diameter_m = kind == "dot" ? 0.018 : 0.030;
-  const analysis::SceneRenderer renderer(camera, wheel, analysis::SceneLook{});
+  const synth::SceneRenderer renderer(camera, wheel, synth::SceneLook{});
   analysis::DropScenario drop;
   drop.setup.mass_kg = 12.0;
   drop.law_params = {3.0e5, 400.0};  // Kelvin-Voigt k [N/m], c [N s/m]
@@ -157,18 +157,17 @@ Row RunOne(const std::string& kind, double noise, const Args& args, const fs::pa
   drop.start_time_s = -0.14;  // the clip starts shortly before the first impact
   drop.end_time_s = args.frames / fps + 0.01;
   const analysis::Trajectory trajectory = analysis::SimulateDrop(drop);
-  analysis::ExposureSettings exposure;
+  synth::ExposureSettings exposure;
   exposure.read_noise_grey = noise;
   const fs::path clip = dir / (kind + "_noise" + std::to_string(static_cast<int>(noise)) + ".avi");
-  std::vector<analysis::FrameTruth> truth;
+  std::vector<synth::FrameTruth> truth;
   {
-    auto sink =
-        analysis::OpenFrameSink(clip, analysis::VideoFormat::kMjpgAvi, renderer.image_size(), 1000.0, args.quality);
-    truth = analysis::RenderClip(renderer, trajectory, args.frames, fps, exposure, true,
-                                 0x5eed0000u + static_cast<uint64_t>(noise * 10), *sink);
+    auto sink = media::OpenFrameSink(clip, media::VideoFormat::kMjpgAvi, renderer.image_size(), 1000.0, args.quality);
+    truth = synth::RenderClip(renderer, trajectory, args.frames, fps, exposure, true,
+                              0x5eed0000u + static_cast<uint64_t>(noise * 10), *sink);
     sink->Close();
   }
-  const double diameter_px = wheel.marker_diameter_m / analysis::MetresPerPixelAtCentre(camera);
+  const double diameter_px = wheel.marker_diameter_m / synth::MetresPerPixelAtCentre(camera);
 
   // Decode only (and keep the frames for the in-memory runs).
   std::vector<cv::Mat> frames;
@@ -194,14 +193,14 @@ Row RunOne(const std::string& kind, double noise, const Args& args, const fs::pa
 
   // Whole clip: decode thread + tracker.
   {
-    auto source = tracker::FrameSource::Open(clip);
+    auto source = media::FrameSource::Open(clip);
     const auto t0 = Clock::now();
     const tracker::Track t = tracker::TrackClip(*source, tracker::TrackOptions{});
     const auto t1 = Clock::now();
     row.whole_fps = t.frames / Seconds(t0, t1);
     row.choice = t.choice;
     for (const tracker::TrackSample& s : t.samples) {
-      const analysis::FrameTruth& tr = truth[static_cast<size_t>(s.frame)];
+      const synth::FrameTruth& tr = truth[static_cast<size_t>(s.frame)];
       row.ours.Add(tr.marker_in_view, s.found, s.centre_px, {tr.u_px, tr.v_px});
     }
   }

@@ -6,7 +6,7 @@
 // Method.
 // 1. Corners: cv::findChessboardCornersSB finds the board, cv::cornerSubPix refines each corner
 //    (11 x 11 window, shrunk on small squares so it never spans a neighbour; the refinement is
-//    what made the classic detector the more accurate one in ../shared/deps.md). The classic
+//    what made the classic detector the more accurate one in docs/platform.md, "Checkerboard detection"). The classic
 //    cv::findChessboardCorners is NOT used to find the board: measured here (OpenCV 4.6, 1024x768)
 //    it takes 13-45 s per image, with or without FAST_CHECK, when the board in view has another
 //    corner count than the one asked for (a wrong --board, a board partly out of view), while
@@ -38,7 +38,7 @@
 //
 // RMS reprojection error is the root mean square over all corners of the distance between
 // measured and reprojected corner [px] (what cv::calibrateCamera returns). It is NOT the "total
-// error" of OpenCV's Python tutorial, which is RMS / sqrt(corners per view) (../shared/references.md §9).
+// error" of OpenCV's Python tutorial, which is RMS / sqrt(corners per view) (docs/methods.md §9).
 
 #include <opencv2/core.hpp>
 

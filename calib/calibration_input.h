@@ -1,6 +1,7 @@
 #pragma once
 // The files `dropfit calibrate` reads: image files, folders of images, videos of the board
-// being moved, and the plane view; and a hash of each, so a rig names exactly what made it.
+// being moved, and the plane view; and a hash of each (media/files.h), so a rig names exactly
+// what made it. Which files are images or videos, and how they are decoded: media/files.h.
 
 #include <filesystem>
 #include <string>
@@ -18,11 +19,6 @@ struct CalibrationInputs {
   std::vector<std::string> notes;                           // e.g. how many video frames showed the board
 };
 
-// Image file extensions taken from a folder (case-insensitive): .png .jpg .jpeg .bmp .tif
-// .tiff .pgm .ppm; video extensions: .mp4 .mov .avi .mkv .m4v .webm.
-bool IsImageFile(const std::filesystem::path& path);
-bool IsVideoFile(const std::filesystem::path& path);
-
 // Loads everything. A folder contributes its image files (sorted by name, not recursive); a
 // video contributes frames picked by PickVideoViews; the plane view, if also listed among the
 // inputs, is used once. Throws std::runtime_error naming the path and saying what to do when
@@ -36,11 +32,5 @@ CalibrationInputs LoadCalibrationInputs(const std::vector<std::string>& inputs, 
 // Throws std::runtime_error naming the file when it cannot be opened or holds no frames.
 std::vector<CalibrationImage> PickVideoViews(const std::string& video_path, const CalibrateOptions& options,
                                              std::vector<std::string>& notes);
-
-// FNV-1a 64-bit hash of a file's bytes, 16 lower-case hex digits (Fowler, Noll & Vo; offset
-// basis 0xcbf29ce484222325, prime 0x100000001b3; from memory, checked in the test against the
-// published test vector FNV-1a("a") = af63dc4c8601ec8c).
-std::string Fnv1a64HexOfFile(const std::filesystem::path& path);
-std::string Fnv1a64Hex(const std::string& bytes);
 
 }  // namespace dropfit::calib

@@ -1,6 +1,6 @@
 #pragma once
 // `dropfit analyze`: one clip -> hub track, impacts with COR and their uncertainties, set-up
-// self-checks (result.json, track.csv per ../shared/contract.md).
+// self-checks (result.json, track.csv per docs/formats.md).
 //
 // Steps: read the rig (cli/rig_io.h); track the hub marker (tracker/track.h); pixels to
 // drop-plane metres (calib::PlaneFromImage); the track-only analysis

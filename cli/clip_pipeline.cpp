@@ -11,7 +11,7 @@
 #include "cli/analyze_command.h"
 #include "cli/fit_records.h"
 #include "cli/track_command.h"
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
 #include "tracker/track.h"
 
 namespace dropfit::cli {
@@ -85,12 +85,12 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
   OpenedClip out;
   const std::string name = request.clip_path.filename().string();
   try {
-    out.source = tracker::FrameSource::Open(request.clip_path);
+    out.source = media::FrameSource::Open(request.clip_path);
   } catch (const std::exception& e) {
-    out.problem = e.what();  // names the clip and says what to do (tracker/frame_source.h)
+    out.problem = e.what();  // names the clip and says what to do (media/frame_source.h)
     return out;
   }
-  const tracker::FrameSourceInfo& info = out.source->info();
+  const media::FrameSourceInfo& info = out.source->info();
   out.rate = ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, info.container_fps);
   if (!out.rate) {
     out.setup_problem = true;
@@ -132,7 +132,7 @@ ClipAnalysis AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, Open
     result.errors.push_back(opened.problem);
     return out;
   }
-  tracker::FrameSource* source = opened.source.get();
+  media::FrameSource* source = opened.source.get();
   const std::optional<CaptureRate>& rate = opened.rate;
   result.capture_fps = rate->fps;
   result.capture_fps_source = rate->source;

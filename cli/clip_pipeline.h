@@ -16,7 +16,7 @@
 #include "cli/manifest.h"
 #include "cli/results.h"
 #include "cli/track_command.h"
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
 
 namespace dropfit::cli {
 
@@ -55,12 +55,12 @@ analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, con
 analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
 
 // The start-up checks of a clip, the one place `track`, `analyze` and `run` make them: open the
-// clip (tracker::FrameSource), find its capture rate (ResolveCaptureRate: option, manifest, rig,
+// clip (media::FrameSource), find its capture rate (ResolveCaptureRate: option, manifest, rig,
 // container) and compare its frame size with the rig's. The clip is opened once; the caller
 // passes the result on to AnalyzeClip (or tracks it itself).
 struct OpenedClip {
-  std::unique_ptr<tracker::FrameSource> source;  // null when nothing can be read from the clip
-  std::optional<CaptureRate> rate;               // set when the clip can be tracked
+  std::unique_ptr<media::FrameSource> source;  // null when nothing can be read from the clip
+  std::optional<CaptureRate> rate;             // set when the clip can be tracked
   // Why the clip cannot be tracked, naming the clip and saying what to do; empty when it can.
   std::string problem;
   // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a

@@ -1,5 +1,5 @@
 #pragma once
-// Exit status of every command (../shared/contract.md, "Exit status").
+// Exit status of every command (docs/formats.md, "Exit status").
 
 namespace dropfit::cli {
 

@@ -1,5 +1,5 @@
 #pragma once
-// The clip folder's manifest.csv (../shared/contract.md, "What a user prepares").
+// The clip folder's manifest.csv (docs/formats.md, "manifest.csv").
 //
 // Format: UTF-8 (a byte-order mark is skipped), comma-separated, one header row, LF or CRLF
 // line ends, fields optionally in double quotes ("" inside quotes is one quote; quoted fields

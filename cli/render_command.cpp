@@ -15,19 +15,19 @@
 #include <random>
 #include <sstream>
 
-#include "analysis/camera.h"
 #include "analysis/contact_law.h"
 #include "analysis/forward_model.h"
 #include "analysis/geometry.h"
-#include "analysis/render.h"
-#include "analysis/render_calibration.h"
-#include "analysis/video_out.h"
 #include "cli/atomic_write.h"
 #include "cli/exit_status.h"
 #include "cli/parallel_for.h"
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
 #include "dropfit/version.h"
+#include "media/video_out.h"
+#include "synth/camera.h"
+#include "synth/render.h"
+#include "synth/render_calibration.h"
 
 namespace dropfit::cli {
 
@@ -98,11 +98,11 @@ struct RenderPlan {
   analysis::LawId law;
   std::vector<double> law_params;
   analysis::TreadGeometry tread;
-  analysis::CameraSetup camera_setup;
-  analysis::WheelLook wheel;
-  analysis::ExposureSettings exposure;
-  analysis::CheckerboardSpec board;
-  analysis::VideoFormat format;
+  synth::CameraSetup camera_setup;
+  synth::WheelLook wheel;
+  synth::ExposureSettings exposure;
+  synth::CheckerboardSpec board;
+  media::VideoFormat format;
   bool add_noise = true;
 };
 
@@ -113,7 +113,7 @@ RenderPlan MakePlan(const RenderCommandOptions& o) {
   plan.tread = analysis::MakeTreadGeometry(o.free_radius_m, o.tread_width_m, o.section_radius_m);
   const auto size = ParsePair(o.image_size);
   const auto board = ParsePair(o.board);
-  analysis::CameraSetup& c = plan.camera_setup;
+  synth::CameraSetup& c = plan.camera_setup;
   c.intrinsics.image_size = {size->first, size->second};
   c.intrinsics.fx_px = c.intrinsics.fy_px = o.focal_px;
   c.intrinsics.cx_px = o.cx_px.value_or(size->first / 2.0 - 0.5 + 3.2);
@@ -136,11 +136,11 @@ RenderPlan MakePlan(const RenderCommandOptions& o) {
   plan.wheel.rim_radius_m = o.rim_radius_m > 0       ? o.rim_radius_m
                             : o.section_radius_m > 0 ? o.free_radius_m - 2 * o.section_radius_m
                                                      : 0.55 * o.free_radius_m;
-  plan.wheel.marker = analysis::MarkerShapeFromString(o.marker);
-  plan.wheel.marker_diameter_m = o.marker_diameter_m > 0                            ? o.marker_diameter_m
-                                 : plan.wheel.marker == analysis::MarkerShape::kDot ? 0.018
-                                                                                    : 0.030;
-  analysis::ExposureSettings& e = plan.exposure;
+  plan.wheel.marker = synth::MarkerShapeFromString(o.marker);
+  plan.wheel.marker_diameter_m = o.marker_diameter_m > 0                         ? o.marker_diameter_m
+                                 : plan.wheel.marker == synth::MarkerShape::kDot ? 0.018
+                                                                                 : 0.030;
+  synth::ExposureSettings& e = plan.exposure;
   e.exposure_s = o.exposure_s;
   e.subframes = o.subframes;
   e.read_noise_grey = o.read_noise_grey;
@@ -149,11 +149,11 @@ RenderPlan MakePlan(const RenderCommandOptions& o) {
   e.flicker_fraction = o.flicker;
   e.psf_sigma_px = o.psf_sigma_px;
   if (o.clean) {
-    e = analysis::WithoutImperfections(e);
+    e = synth::WithoutImperfections(e);
     plan.add_noise = false;
   }
-  plan.format = o.format == "auto" ? (o.clean ? analysis::VideoFormat::kPngFrames : analysis::VideoFormat::kMjpgAvi)
-                                   : analysis::VideoFormatFromString(o.format);
+  plan.format = o.format == "auto" ? (o.clean ? media::VideoFormat::kPngFrames : media::VideoFormat::kMjpgAvi)
+                                   : media::VideoFormatFromString(o.format);
   return plan;
 }
 
@@ -208,7 +208,7 @@ std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderCo
   add("flicker", Fmt(plan.exposure.flicker_fraction));
   add("psf_sigma_px", Fmt(plan.exposure.psf_sigma_px));
   add("clean", o.clean ? "true" : "false");
-  add("format", analysis::ToString(plan.format));
+  add("format", media::ToString(plan.format));
   add("jpeg_quality", std::to_string(o.jpeg_quality));
   add("container_fps", Fmt(o.container_fps > 0 ? o.container_fps : o.fps));
   add("duration_s", Fmt(o.duration_s));
@@ -235,7 +235,7 @@ struct ClipPlan {
   uint64_t noise_seed = 0;
 };
 
-ClipPlan PlanClip(const RenderCommandOptions& o, const RenderPlan& plan, const analysis::SceneRenderer& renderer,
+ClipPlan PlanClip(const RenderCommandOptions& o, const RenderPlan& plan, const synth::SceneRenderer& renderer,
                   double height_m, int clip_index) {
   std::seed_seq seq{static_cast<uint32_t>(o.seed), static_cast<uint32_t>(o.seed >> 32),
                     static_cast<uint32_t>(clip_index), 0x5EEDu};
@@ -262,9 +262,9 @@ ClipPlan PlanClip(const RenderCommandOptions& o, const RenderPlan& plan, const a
   const double fall_s = std::sqrt(2 * s.start_height_m / o.gravity_mps2);
   double in_view_s = -1;
   for (double tau = 0; tau < fall_s; tau += 5e-4) {
-    const analysis::WheelPose pose{s.start_x_m + s.drift_speed_mps * tau,
-                                   s.start_height_m - 0.5 * o.gravity_mps2 * tau * tau,
-                                   s.start_spin_angle_rad + s.spin_rate_radps * tau};
+    const synth::WheelPose pose{s.start_x_m + s.drift_speed_mps * tau,
+                                s.start_height_m - 0.5 * o.gravity_mps2 * tau * tau,
+                                s.start_spin_angle_rad + s.spin_rate_radps * tau};
     if (renderer.MarkerInView(pose)) {
       in_view_s = tau;
       break;
@@ -372,8 +372,8 @@ std::optional<std::string> ValidateRenderOptions(const RenderCommandOptions& o) 
     return OutOfRange("section-radius", o.section_radius_m, "[0, free radius / 2)", "m");
   }
   try {
-    analysis::MarkerShapeFromString(o.marker);
-    if (o.format != "auto") analysis::VideoFormatFromString(o.format);
+    synth::MarkerShapeFromString(o.marker);
+    if (o.format != "auto") media::VideoFormatFromString(o.format);
   } catch (const std::invalid_argument& e) {
     return std::string(e.what()) + (o.format != "auto" ? ", auto" : "");
   }
@@ -402,10 +402,10 @@ std::optional<std::string> ValidateRenderOptions(const RenderCommandOptions& o) 
   } catch (const std::invalid_argument& e) {
     return std::string(e.what());
   }
-  if (auto msg = analysis::ValidateCameraSetup(plan.camera_setup)) return "camera: " + *msg;
-  if (auto msg = analysis::ValidateWheelLook(plan.wheel)) return "wheel: " + *msg;
-  if (auto msg = analysis::ValidateExposure(plan.exposure, o.fps)) return "sensor: " + *msg;
-  if (auto msg = analysis::ValidateCheckerboard(plan.board)) return "--board/--square: " + *msg;
+  if (auto msg = synth::ValidateCameraSetup(plan.camera_setup)) return "camera: " + *msg;
+  if (auto msg = synth::ValidateWheelLook(plan.wheel)) return "wheel: " + *msg;
+  if (auto msg = synth::ValidateExposure(plan.exposure, o.fps)) return "sensor: " + *msg;
+  if (auto msg = synth::ValidateCheckerboard(plan.board)) return "--board/--square: " + *msg;
   const std::string tread = analysis::Validate(plan.tread);
   if (!tread.empty()) return "tread: " + tread;
   return std::nullopt;
@@ -503,10 +503,10 @@ int RunRender(const RenderCommandOptions& options) {
   }
   const auto started = std::chrono::steady_clock::now();
   const RenderPlan plan = MakePlan(options);
-  const analysis::PinholeCamera camera = analysis::MakeCamera(plan.camera_setup);
-  analysis::SceneLook scene;
+  const synth::PinholeCamera camera = synth::MakeCamera(plan.camera_setup);
+  synth::SceneLook scene;
   scene.texture_seed = options.seed * 0x9E3779B97F4A7C15ull + 17;
-  const analysis::SceneRenderer renderer(camera, plan.wheel, scene);
+  const synth::SceneRenderer renderer(camera, plan.wheel, scene);
 
   // Plan every clip before writing anything, so that a clip that cannot be made writes nothing.
   struct Job {
@@ -521,7 +521,7 @@ int RunRender(const RenderCommandOptions& options) {
         Job job;
         job.plan = PlanClip(options, plan, renderer, height, index);
         job.truth.clip_id = ClipName(height, r);
-        job.truth.clip = job.truth.clip_id + analysis::FileExtension(plan.format);
+        job.truth.clip = job.truth.clip_id + media::FileExtension(plan.format);
         job.truth.drop_height_m = height;
         jobs.push_back(std::move(job));
       }
@@ -555,8 +555,8 @@ int RunRender(const RenderCommandOptions& options) {
     CalibrationTruth ct;
     ct.board = options.board;
     ct.square_m = options.square_m;
-    ct.corner_height_m = analysis::PlaneBoardCornerHeight(plan.board);
-    for (const analysis::CalibrationImage& image : analysis::RenderCalibrationImages(
+    ct.corner_height_m = synth::PlaneBoardCornerHeight(plan.board);
+    for (const synth::CalibrationImage& image : synth::RenderCalibrationImages(
              renderer, plan.board, options.lens_views, plan.exposure, plan.add_noise, options.seed ^ 0xCA11B8ull)) {
       const std::string file = "calib/" + image.name + ".png";
       if (!cv::imwrite((out / file).string(), image.image)) {
@@ -574,21 +574,21 @@ int RunRender(const RenderCommandOptions& options) {
     const auto clip_started = std::chrono::steady_clock::now();
     const analysis::Trajectory trajectory = analysis::SimulateDrop(job.plan.scenario);
     const fs::path clip_path = out / job.truth.clip;
-    if (plan.format == analysis::VideoFormat::kPngFrames) fs::remove_all(clip_path);
-    auto sink = analysis::OpenFrameSink(clip_path, plan.format, camera.intrinsics.image_size, container_fps,
-                                        options.jpeg_quality);
-    analysis::ExposureSettings exposure = plan.exposure;
+    if (plan.format == media::VideoFormat::kPngFrames) fs::remove_all(clip_path);
+    auto sink =
+        media::OpenFrameSink(clip_path, plan.format, camera.intrinsics.image_size, container_fps, options.jpeg_quality);
+    synth::ExposureSettings exposure = plan.exposure;
     std::mt19937_64 phase_rng(job.plan.noise_seed ^ 0xF11C4E5ull);
     exposure.flicker_phase_rad = std::uniform_real_distribution<double>(0, 2 * std::numbers::pi)(phase_rng);
     const int frames = options.first_frames > 0 ? std::min(options.first_frames, job.plan.frames) : job.plan.frames;
-    job.truth.frames = analysis::RenderClip(renderer, trajectory, frames, options.fps, exposure, plan.add_noise,
-                                            job.plan.noise_seed, *sink);
+    job.truth.frames = synth::RenderClip(renderer, trajectory, frames, options.fps, exposure, plan.add_noise,
+                                         job.plan.noise_seed, *sink);
     sink->Close();
     const analysis::DropScenario& s = job.plan.scenario;
     job.truth.release_drop_height_m = job.plan.release_drop_height_m;
     job.truth.release_time_s = s.start_time_s;
     job.truth.capture_fps = options.fps;
-    job.truth.container_fps = plan.format == analysis::VideoFormat::kPngFrames ? 0.0 : container_fps;
+    job.truth.container_fps = plan.format == media::VideoFormat::kPngFrames ? 0.0 : container_fps;
     job.truth.noise_seed = job.plan.noise_seed;
     job.truth.onset_height_m = s.onset_height_m;
     job.truth.start_x_m = s.start_x_m;
@@ -616,7 +616,7 @@ int RunRender(const RenderCommandOptions& options) {
   WriteManifest(out / "manifest.csv", options, truth.clips);
   WriteTruthFile(out / "truth.json", truth);
   WriteRigFile(out / "rig_exact.json",
-               analysis::RigFromCamera(camera, analysis::PlaneBoardCornerHeight(plan.board), options.fps));
+               synth::RigFromCamera(camera, synth::PlaneBoardCornerHeight(plan.board), options.fps));
   std::ostringstream text;
   for (const auto& [name, value] : truth.options) text << name << " = " << value << "\n";
   WriteFileAtomically(out / "render_options.txt", text.str());

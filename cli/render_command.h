@@ -8,7 +8,7 @@
 //   truth.json        what was drawn: camera, scene, law, per clip the per-frame marker centre
 //                     (pixels, mid-exposure) and hub position (metres), per impact the
 //                     contract's figures (cli/truth_io.h)
-//   rig_exact.json    the rig a perfect calibration gives (analysis::RigFromCamera)
+//   rig_exact.json    the rig a perfect calibration gives (synth::RigFromCamera)
 //   calib/lens_NN.png, calib/plane.png   checkerboard views (unless calibration is off)
 //   render_options.txt  the effective options, one "name = value" per line
 //

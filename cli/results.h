@@ -1,5 +1,5 @@
 #pragma once
-// The result files of ../shared/contract.md ("What one run writes"), as plain data, with their
+// The result files of docs/formats.md ("What one run writes"), as plain data, with their
 // writers and readers. Field names here are the contract's names; `extra` lists hold the
 // additional figures a result carries beside them (the contract allows adding fields), written
 // in the order given.

@@ -24,42 +24,11 @@
 #include "cli/rig_io.h"
 #include "cli/summary_build.h"
 #include "dropfit/version.h"
+#include "media/files.h"
 
 namespace dropfit::cli {
 
 namespace {
-
-// FNV-1a 64 over a file's bytes (fingerprints for the re-run cache; not cryptographic).
-std::string HashFile(const std::filesystem::path& path) {
-  std::uint64_t h = 1469598103934665603ull;
-  auto add = [&](const char* data, std::streamsize n) {
-    for (std::streamsize i = 0; i < n; ++i) {
-      h ^= static_cast<unsigned char>(data[i]);
-      h *= 1099511628211ull;
-    }
-  };
-  std::vector<std::filesystem::path> files;
-  if (std::filesystem::is_directory(path)) {
-    for (const auto& e : std::filesystem::directory_iterator(path)) {
-      if (e.is_regular_file()) files.push_back(e.path());
-    }
-    std::sort(files.begin(), files.end());
-  } else {
-    files.push_back(path);
-  }
-  std::vector<char> buf(1 << 16);
-  for (const auto& f : files) {
-    add(f.filename().string().data(), static_cast<std::streamsize>(f.filename().string().size()));
-    std::ifstream in(f, std::ios::binary);
-    while (in) {
-      in.read(buf.data(), static_cast<std::streamsize>(buf.size()));
-      add(buf.data(), in.gcount());
-    }
-  }
-  char text[17];
-  std::snprintf(text, sizeof(text), "%016llx", static_cast<unsigned long long>(h));
-  return text;
-}
 
 std::string OptionalText(const std::optional<double>& v) { return v ? FormatNumber(*v) : "-"; }
 
@@ -152,7 +121,7 @@ int RunRun(const RunCommandOptions& options) {
     std::cerr << "dropfit run: cannot create " << (out / "clips").string() << ": " << ec.message() << "\n";
     return kExitBadUsage;
   }
-  const std::string rig_hash = HashFile(options.rig_path);
+  const std::string rig_hash = media::InputFingerprint(options.rig_path);
   const unsigned cores = std::max(1u, std::thread::hardware_concurrency());
   const int jobs = options.jobs > 0 ? options.jobs : static_cast<int>(cores);
 
@@ -176,8 +145,9 @@ int RunRun(const RunCommandOptions& options) {
     const ManifestRow& row = *slot.row;
     const auto t0 = std::chrono::steady_clock::now();
     const std::filesystem::path clip_out = out / "clips" / row.clip_id;
-    const std::string fingerprint = HashFile(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) +
-                                    "/" + rig_hash + "/" + SettingsText(row);
+    const std::string fingerprint =
+        media::InputFingerprint(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) + "/" + rig_hash +
+        "/" + SettingsText(row);
     // Re-run: reuse a result made from the same clip, rig and settings.
     if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
       try {

@@ -1,5 +1,5 @@
 #pragma once
-// The per-height summary of a folder run (../shared/contract.md, summary.csv): one group per
+// The per-height summary of a folder run (docs/formats.md, "summary.csv"): one group per
 // (specimen, nominal drop height), from the first complete impact of each clip; mean and
 // sample standard deviation (n - 1), the sd left empty for a single clip.
 

@@ -177,7 +177,7 @@ int RunTrack(const TrackCommandOptions& options) {
   request.fps_option = options.fps;
   OpenedClip opened = OpenClip(request, rig);
   if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
-  tracker::FrameSource* source = opened.source.get();
+  media::FrameSource* source = opened.source.get();
   const std::optional<CaptureRate>& rate = opened.rate;
 
   fs::create_directories(out, ec);

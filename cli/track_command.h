@@ -4,7 +4,7 @@
 //   dropfit track CLIP --rig rig.json [--fps N] [--marker auto|quadrant|dot|template]
 //                 [--seed U,V] [--overlay FILE] -o DIR
 //
-// Writes DIR/track.csv (../shared/contract.md: frame,t_s,u_px,v_px,x_m,y_m,quality; coordinates
+// Writes DIR/track.csv (docs/formats.md, "track.csv": frame,t_s,u_px,v_px,x_m,y_m,quality; coordinates
 // empty where the marker was not found) and DIR/result.json with the tracking fields (clip,
 // capture_fps and its source, frames, tracked_frames, y_origin, warnings, errors; the marker
 // chosen and why, the lost frame ranges and the options used under "info").

@@ -115,7 +115,7 @@ json ClipJson(const ClipTruth& c) {
   json frame = json::array(), t = json::array(), u = json::array(), v = json::array(), x = json::array(),
        y = json::array(), spin = json::array(), vy = json::array(), force = json::array(), contact = json::array(),
        in_view = json::array();
-  for (const analysis::FrameTruth& f : c.frames) {
+  for (const synth::FrameTruth& f : c.frames) {
     frame.push_back(f.frame);
     t.push_back(f.t_s);
     u.push_back(Rounded(f.u_px, 1e-9));
@@ -180,7 +180,7 @@ ClipTruth ClipFromJson(const json& j, const std::string& file) {
     throw std::runtime_error(where + ": frame_count does not match the per-frame columns");
   }
   for (size_t i = 0; i < n; ++i) {
-    analysis::FrameTruth f;
+    synth::FrameTruth f;
     f.frame = frame[i];
     f.t_s = t[i];
     f.u_px = u[i];
@@ -214,7 +214,7 @@ std::string TruthToJson(const RenderTruth& truth) {
                 {"free_radius_m", truth.tread.free_radius_m},
                 {"tread_width_m", truth.tread.tread_width_m},
                 {"section_radius_m", truth.tread.section_radius_m}};
-  const analysis::CameraIntrinsics& k = truth.camera.intrinsics;
+  const synth::CameraIntrinsics& k = truth.camera.intrinsics;
   j["camera"] = {{"image_width_px", k.image_size.width},
                  {"image_height_px", k.image_size.height},
                  {"fx_px", k.fx_px},
@@ -224,14 +224,14 @@ std::string TruthToJson(const RenderTruth& truth) {
                  {"distortion", {{"k1", k.k1}, {"k2", k.k2}, {"p1", k.p1}, {"p2", k.p2}, {"k3", k.k3}}},
                  {"rvec_rad", Vec3(truth.camera.rvec_rad)},
                  {"tvec_m", Vec3(truth.camera.tvec_m)},
-                 {"centre_in_world_m", Vec3(analysis::CameraCentreInWorld(truth.camera))},
-                 {"metres_per_px_centre", analysis::MetresPerPixelAtCentre(truth.camera)}};
+                 {"centre_in_world_m", Vec3(synth::CameraCentreInWorld(truth.camera))},
+                 {"metres_per_px_centre", synth::MetresPerPixelAtCentre(truth.camera)}};
   j["wheel"] = {{"free_radius_m", truth.wheel.free_radius_m},
                 {"rim_radius_m", truth.wheel.rim_radius_m},
-                {"marker", analysis::ToString(truth.wheel.marker)},
+                {"marker", synth::ToString(truth.wheel.marker)},
                 {"marker_diameter_m", truth.wheel.marker_diameter_m},
-                {"cap_radius_m", analysis::CapRadius(truth.wheel)}};
-  const analysis::ExposureSettings& e = truth.exposure;
+                {"cap_radius_m", synth::CapRadius(truth.wheel)}};
+  const synth::ExposureSettings& e = truth.exposure;
   j["exposure"] = {{"exposure_s", e.exposure_s},
                    {"subframes", e.subframes},
                    {"read_noise_grey", e.read_noise_grey},
@@ -300,7 +300,7 @@ RenderTruth ParseTruthJson(const std::string& text, const std::string& file) {
   t.tread.section_radius_m = GetNumber(tread, "section_radius_m", file + ": tread");
   const json& cam = Field(j, "camera", file);
   const std::string cw = file + ": camera";
-  analysis::CameraIntrinsics& k = t.camera.intrinsics;
+  synth::CameraIntrinsics& k = t.camera.intrinsics;
   k.image_size = {Get<int>(cam, "image_width_px", cw), Get<int>(cam, "image_height_px", cw)};
   k.fx_px = GetNumber(cam, "fx_px", cw);
   k.fy_px = GetNumber(cam, "fy_px", cw);
@@ -319,7 +319,7 @@ RenderTruth ParseTruthJson(const std::string& text, const std::string& file) {
   t.wheel.free_radius_m = GetNumber(wheel, "free_radius_m", ww);
   t.wheel.rim_radius_m = GetNumber(wheel, "rim_radius_m", ww);
   try {
-    t.wheel.marker = analysis::MarkerShapeFromString(Get<std::string>(wheel, "marker", ww));
+    t.wheel.marker = synth::MarkerShapeFromString(Get<std::string>(wheel, "marker", ww));
   } catch (const std::invalid_argument& e) {
     throw std::runtime_error(ww + ": " + e.what());
   }

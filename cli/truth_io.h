@@ -36,9 +36,9 @@
 #include <utility>
 #include <vector>
 
-#include "analysis/camera.h"
 #include "analysis/forward_model.h"
-#include "analysis/render.h"
+#include "synth/camera.h"
+#include "synth/render.h"
 
 namespace dropfit::cli {
 
@@ -54,7 +54,7 @@ struct ClipTruth {
   double onset_height_m = 0.0;  // hub height at first contact (= free radius)
   double start_x_m = 0.0, start_spin_rad = 0.0, drift_mps = 0.0, spin_radps = 0.0;
   std::vector<analysis::ImpactTruth> impacts;
-  std::vector<analysis::FrameTruth> frames;
+  std::vector<synth::FrameTruth> frames;
 };
 
 struct CalibrationViewTruth {
@@ -80,9 +80,9 @@ struct RenderTruth {
   double mass_kg = 0.0;
   double gravity_mps2 = 0.0;
   analysis::TreadGeometry tread;
-  analysis::PinholeCamera camera;
-  analysis::WheelLook wheel;
-  analysis::ExposureSettings exposure;
+  synth::PinholeCamera camera;
+  synth::WheelLook wheel;
+  synth::ExposureSettings exposure;
   std::optional<CalibrationTruth> calibration;
   std::vector<ClipTruth> clips;
   std::vector<std::pair<std::string, std::string>> options;

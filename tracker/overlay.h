@@ -6,7 +6,7 @@
 //
 // Container and codec follow the file's extension: .avi -> MJPG, .mp4 and .mov -> MPEG-4 part 2
 // ("mp4v"), .mkv -> FFV1 (lossless). The stored rate is a playback rate (default 30 frames/s):
-// ../shared/deps.md warns that .avi drops frames when written above 1,000 frames/s.
+// docs/platform.md ("Video writing") warns that .avi drops frames when written above 1,000 frames/s.
 
 #include <opencv2/core.hpp>
 #include <opencv2/videoio.hpp>

@@ -13,7 +13,7 @@
 // track.csv asks for, with no model of the blur or of the marker's edge profile. (Common practice
 // in the trade of sub-pixel target location, no source; the saddle-point Taylor fit of Chen &
 // Zhang, WSCG 2005, and the localized Radon transform of Duda & Frese, BMVC 2018, cited in
-// ../shared/references.md §9, exploit the same structure in other ways.)
+// docs/methods.md §9, exploit the same structure in other ways.)
 //
 // Uneven light. A gain G(x) = G0 (1 + g·(x - c)) and an offset B(x) = B0 + h·(x - c), both
 // varying linearly across the window, make the half-turn difference linear in d:

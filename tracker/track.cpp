@@ -465,7 +465,7 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
 namespace {
 
 struct QueuedFrame {
-  FrameRead read;
+  media::FrameRead read;
   cv::Mat grey;
 };
 
@@ -517,10 +517,10 @@ class FrameQueue {
 
 }  // namespace
 
-Track TrackClip(FrameSource& source, const TrackOptions& options, const ProgressCallback& progress,
+Track TrackClip(media::FrameSource& source, const TrackOptions& options, const ProgressCallback& progress,
                 const OverlayOptions& overlay_options) {
   MarkerTracker tracker(options);
-  const FrameSourceInfo& info = source.info();
+  const media::FrameSourceInfo& info = source.info();
   const int announced = info.announced_frames.value_or(0);
   std::unique_ptr<OverlayWriter> overlay;
   if (!overlay_options.path.empty()) overlay = std::make_unique<OverlayWriter>(overlay_options, info.size, 0.0);
@@ -535,13 +535,13 @@ Track TrackClip(FrameSource& source, const TrackOptions& options, const Progress
         QueuedFrame f;
         f.grey = queue.TakeBuffer();
         f.read = source.Read(f.grey);
-        const bool end = f.read.status == ReadStatus::kEnd;
+        const bool end = f.read.status == media::ReadStatus::kEnd;
         if (!queue.Push(std::move(f)) || end) break;
       }
     } catch (...) {
       reader_error = std::current_exception();
       QueuedFrame f;
-      f.read.status = ReadStatus::kEnd;
+      f.read.status = media::ReadStatus::kEnd;
       queue.Push(std::move(f));
     }
     read_seconds = Seconds(Clock::now() - start);
@@ -553,12 +553,12 @@ Track TrackClip(FrameSource& source, const TrackOptions& options, const Progress
   try {
     for (;;) {
       QueuedFrame f = queue.Pop();
-      if (f.read.status == ReadStatus::kEnd) {
+      if (f.read.status == media::ReadStatus::kEnd) {
         frames = std::max(frames, f.read.frame);
         break;
       }
       if (f.read.is_frame) frames = std::max(frames, f.read.frame + 1);
-      if (f.read.status == ReadStatus::kError) {
+      if (f.read.status == media::ReadStatus::kError) {
         read_problems.push_back(f.read.message);
       } else {
         const auto t0 = Clock::now();

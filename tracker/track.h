@@ -41,7 +41,7 @@
 #include <string>
 #include <vector>
 
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
 #include "tracker/marker_detect.h"
 #include "tracker/marker_kind.h"
 
@@ -141,7 +141,7 @@ struct OverlayOptions {
 // the file and frame; the frames read are tracked. `progress` (may be empty) is called every
 // 64 frames and at the end. Throws std::invalid_argument on bad options or seed, and
 // std::runtime_error when the overlay cannot be written.
-Track TrackClip(FrameSource& source, const TrackOptions& options, const ProgressCallback& progress = {},
+Track TrackClip(media::FrameSource& source, const TrackOptions& options, const ProgressCallback& progress = {},
                 const OverlayOptions& overlay = {});
 
 }  // namespace dropfit::tracker

@@ -1,4 +1,4 @@
-// Law ids and parameter names are fixed by ../shared/contract.md ("law ids").
+// Law ids and parameter names are fixed by docs/formats.md ("Law ids").
 #include "analysis/contact_law.h"
 
 #include <ceres/jet.h>
@@ -30,7 +30,7 @@ TEST(ContactLaw, UnknownLawIdIsRejectedWithTheValidList) {
   }
 }
 
-// The force laws as written in contract.md ("law ids") and contact_law.h.
+// The force laws as written in docs/formats.md ("Law ids") and contact_law.h.
 TEST(ContactLaw, ForcesFollowTheirDefiningEquations) {
   const TreadGeometry none;
   const double kv[] = {2e5, 300};
@@ -53,7 +53,7 @@ TEST(ContactLaw, ForcesFollowTheirDefiningEquations) {
               ElasticContactForce(LawId::kBilinear, bl, none, 0.01 + 1e-12), 1e-5);
 }
 
-// references §7c: volumetric law with the torus of §7b (R = 0.25, a = 0.05) and
+// docs/methods.md §7c: volumetric law with the torus of §7b (R = 0.25, a = 0.05) and
 // kv = 1e8 N/m^3 (Gonthier et al. 2004 form, VERIFIED secondary there).
 TEST(ContactLaw, VolumetricElasticForceMatchesTheTorusTable) {
   TreadGeometry torus = MakeTreadGeometry(0.30, 0.0, 0.05);

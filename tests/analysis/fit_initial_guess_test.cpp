@@ -1,5 +1,5 @@
 // Exact impact relations used for the fits' starting values (analysis/fit_initial_guess.h),
-// against the check values of ../shared/references.md:
+// against the check values of docs/methods.md:
 //   §3b Schwager & Poeschel (2007), Granular Matter 9:465-469, eq. 21 (zero-force separation);
 //   §4  power-law impact constants C_n = (2/(n+1)) B(1/(n+1), 1/2) (DERIVED there; Johnson
 //       1985 §11.4 quotes 2.94, FROM MEMORY);
@@ -18,7 +18,7 @@ namespace {
 constexpr double kTableTol = 2e-9;  // the tables give 9-10 significant digits
 
 TEST(FitInitialGuess, KelvinVoigtRelationsMatchSchwagerAndPoeschelTable) {
-  // references.md §3b dimensionless sweep (zero-force columns).
+  // docs/methods.md §3b dimensionless sweep (zero-force columns).
   EXPECT_NEAR(KelvinVoigtCor(0.1), 0.744079398, kTableTol);
   EXPECT_NEAR(KelvinVoigtOmegaContactTime(0.1), 2.956075325, kTableTol);
   EXPECT_NEAR(KelvinVoigtCor(0.7), 0.210284564, kTableTol);
@@ -29,14 +29,14 @@ TEST(FitInitialGuess, KelvinVoigtRelationsMatchSchwagerAndPoeschelTable) {
 }
 
 TEST(FitInitialGuess, KelvinVoigtDeflectionMatchesTheReferenceCase) {
-  // references.md §3b: m = 10, k = 2e5, c = 300, v = 2 -> max penetration 0.0120967952 m.
+  // docs/methods.md §3b: m = 10, k = 2e5, c = 300, v = 2 -> max penetration 0.0120967952 m.
   const double omega0 = std::sqrt(2e5 / 10.0);
   const double zeta = 300.0 / (2.0 * std::sqrt(2e5 * 10.0));
   EXPECT_NEAR(2.0 / omega0 * KelvinVoigtDeflectionFactor(zeta), 0.0120967952, 1e-10);
 }
 
 TEST(FitInitialGuess, ExactMultiplicativeDampingRelationMatchesTheTable) {
-  // references.md §5, column "exact alpha v", and w = 0.5 -> e = 0.7484349316.
+  // docs/methods.md §5, column "exact alpha v", and w = 0.5 -> e = 0.7484349316.
   EXPECT_NEAR(MultiplicativeDampingFromCor(0.9), 0.16648195, 1e-8);
   EXPECT_NEAR(MultiplicativeDampingFromCor(0.7), 0.63482828, 1e-8);
   EXPECT_NEAR(MultiplicativeDampingFromCor(0.3), 3.08708198, 1e-8);

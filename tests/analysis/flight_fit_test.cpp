@@ -10,7 +10,7 @@
 namespace dropfit::analysis {
 namespace {
 
-// Standard gravity, exact (3rd CGPM 1901; ../shared/references.md §1).
+// Standard gravity, exact (3rd CGPM 1901; docs/methods.md §1).
 constexpr double kG = 9.80665;
 
 struct Samples {
@@ -33,7 +33,7 @@ Samples FreeFall(double y0, double fall_m, double fps, double noise_sd, std::mt1
 }
 
 TEST(FlightFit, FreeFallFromHeightGivesTheTextbookImpactSpeed) {
-  // v = sqrt(2 g h) (references.md §2 table, g = 9.80665): a parabola fit to the fall, read at
+  // v = sqrt(2 g h) (docs/methods.md §2 table, g = 9.80665): a parabola fit to the fall, read at
   // the height h below release, within 0.1 %. Noise 10 um at 1000 frames/s (0.02 px at 0.5 mm/px).
   constexpr double kSpeedTolerance = 1e-3;  // acceptance: 0.1 %
   const std::vector<std::pair<double, double>> table = {

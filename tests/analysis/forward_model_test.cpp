@@ -1,5 +1,5 @@
 // Forward model of a drop: checks against published closed forms and the numbers of
-// ../shared/references.md (each check names its source).
+// docs/methods.md (each check names its source).
 #include "analysis/forward_model.h"
 
 #include <ceres/jet.h>
@@ -10,7 +10,7 @@
 #include <random>
 #include <vector>
 
-#include "analysis/fit_synthetic.h"
+#include "synth/fit_synthetic.h"
 
 namespace dropfit::analysis {
 namespace {
@@ -35,13 +35,13 @@ Trajectory SimulateSingleImpact(LawId law, std::vector<double> params, double ma
   return SimulateDrop(scenario);
 }
 
-// Schwager & Poeschel 2007, Granular Matter 9:465-469, eq. 21 (references §3b): the
+// Schwager & Poeschel 2007, Granular Matter 9:465-469, eq. 21 (docs/methods.md §3b): the
 // linear spring-dashpot with separation where the force k x + c x' returns to zero.
 TEST(ForwardModel, KelvinVoigtWithoutGravityMatchesSchwagerPoeschelEquation21) {
   const Trajectory trajectory = SimulateSingleImpact(LawId::kKelvinVoigt, {2e5, 300}, 10.0, 2.0, 0.0);
   ASSERT_GE(trajectory.impacts().size(), 1u);
   const ImpactTruth& impact = trajectory.impacts()[0];
-  // references §3b table, column "separation at F = 0".
+  // docs/methods.md §3b table, column "separation at F = 0".
   EXPECT_NEAR(impact.contact_duration_s, 0.0208290828, 0.0208290828 * kTightRelative);
   EXPECT_NEAR(impact.separation_speed_mps / impact.impact_speed_mps, 0.7316622764, kTightRelative);
   EXPECT_NEAR(impact.separation_speed_mps, 1.4633245528, 1.4633245528 * kTightRelative);
@@ -58,7 +58,7 @@ TEST(ForwardModel, KelvinVoigtWithoutGravityMatchesSchwagerPoeschelEquation21) {
 }
 
 TEST(ForwardModel, KelvinVoigtDampingSweepMatchesEquation21InEveryBranch) {
-  // Dimensionless sweep of references §3b: omega0 t_c and e for zeta from 0.05 to 2
+  // Dimensionless sweep of docs/methods.md §3b: omega0 t_c and e for zeta from 0.05 to 2
   // (underdamped atan2 branch, and the overdamped branch 2 ln(zeta + Omega)/Omega).
   struct Row {
     double zeta, e, omega_tc;
@@ -91,7 +91,7 @@ TEST(ForwardModel, KelvinVoigtDampingSweepMatchesEquation21InEveryBranch) {
   }
 }
 
-// references §3c: gravity acting during contact, m = 10, k = 2e5, c = 300, v_in = 2,
+// docs/methods.md §3c: gravity acting during contact, m = 10, k = 2e5, c = 300, v_in = 2,
 // g = 9.80665 (DERIVED closed form there, checked against an ODE solver).
 TEST(ForwardModel, KelvinVoigtWithGravityMatchesTheGravityTable) {
   const Trajectory trajectory =
@@ -111,7 +111,7 @@ TEST(ForwardModel, KelvinVoigtWithGravityMatchesTheGravityTable) {
 }
 
 TEST(ForwardModel, KelvinVoigtCorDependsOnImpactSpeedUnderGravityAsTabulated) {
-  // references §3c speed-dependence table (printed to 6-7 significant digits).
+  // docs/methods.md §3c speed-dependence table (printed to 6-7 significant digits).
   struct Row {
     double v, tc, e_sep, e_level;
   };
@@ -130,7 +130,7 @@ TEST(ForwardModel, KelvinVoigtCorDependsOnImpactSpeedUnderGravityAsTabulated) {
   }
 }
 
-// Closed-form check of the whole position history (references §3c, DERIVED):
+// Closed-form check of the whole position history (docs/methods.md §3c, DERIVED):
 // x(t) = x_eq + exp(-beta t)[-x_eq cos(wd t) + ((v - beta x_eq)/wd) sin(wd t)], x_eq = m g/k.
 TEST(ForwardModel, ContactPositionHistoryMatchesTheClosedFormToANanometre) {
   constexpr double kPositionTolerance = 1e-9;  // the brief's accuracy target, in metres
@@ -158,7 +158,7 @@ TEST(ForwardModel, ContactPositionHistoryMatchesTheClosedFormToANanometre) {
               trajectory.steps());
 }
 
-// references §2: v = sqrt(2 g h), textbook (energy conservation), table to 9 digits.
+// docs/methods.md §2: v = sqrt(2 g h), textbook (energy conservation), table to 9 digits.
 TEST(ForwardModel, FreeFallImpactSpeedIsSqrtTwoGH) {
   const double heights[] = {0.05, 0.10, 0.20, 0.30, 0.50, 1.00};
   const double speeds[] = {0.990285312, 1.400474919, 1.980570625, 2.425693715, 3.131557121, 4.428690551};
@@ -183,7 +183,7 @@ TEST(ForwardModel, FreeFallImpactSpeedIsSqrtTwoGH) {
   }
 }
 
-// references §4 (DERIVED; the Hertz constant 2.943 as in Johnson 1985 section 11.4, FROM
+// docs/methods.md §4 (DERIVED; the Hertz constant 2.943 as in Johnson 1985 section 11.4, FROM
 // MEMORY): elastic power law F = k delta^1.5, delta_max = (5 m v^2/(4k))^(2/5),
 // t_c = 2.943275184 delta_max / v, e = 1.
 TEST(ForwardModel, HertzImpactMatchesDeflectionDurationAndPeakForce) {
@@ -211,7 +211,7 @@ TEST(ForwardModel, HertzImpactMatchesDeflectionDurationAndPeakForce) {
   }
 }
 
-// references §5 (DERIVED exact relation for F = k delta^n (1 + alpha delta_dot), no gravity):
+// docs/methods.md §5 (DERIVED exact relation for F = k delta^n (1 + alpha delta_dot), no gravity):
 // with w = alpha v_in, w - ln(1 + w) = -e w - ln(1 - e w), independent of n, k, m.
 double ExactHuntCrossleyCor(double w) {
   double lo = 0.0, hi = 1.0;  // f(e) = -e w - ln(1 - e w) - (w - ln(1 + w)) rises with e
@@ -225,7 +225,7 @@ double ExactHuntCrossleyCor(double w) {
 
 TEST(ForwardModel, HuntCrossleyCorSolvesTheExactImplicitRelationForEveryExponent) {
   for (double n : {1.0, 1.5, 2.0}) {
-    // w = alpha v = 0.5 -> e = 0.7484349316 (references §5, for n = 1, 1.5, 2).
+    // w = alpha v = 0.5 -> e = 0.7484349316 (docs/methods.md §5, for n = 1, 1.5, 2).
     const Trajectory trajectory = SimulateSingleImpact(LawId::kHuntCrossley, {1e7, n, 0.25}, 10.0, 2.0, 0.0, 0.2);
     const ImpactTruth& impact = trajectory.impacts().at(0);
     EXPECT_NEAR(impact.cor, 0.7484349316, 0.5e-10 + 1e-11) << "n " << n;
@@ -234,7 +234,7 @@ TEST(ForwardModel, HuntCrossleyCorSolvesTheExactImplicitRelationForEveryExponent
     EXPECT_EQ(impact.separation_deflection_m, 0.0);
     EXPECT_NEAR(impact.separation_speed_mps, impact.rebound_speed_mps, 1e-15);
   }
-  // The "exact alpha v" column of references §5 gives back its target e.
+  // The "exact alpha v" column of docs/methods.md §5 gives back its target e.
   const double exact_w[] = {0.07892661, 0.16648195, 0.37314620, 0.63482828, 0.97487171, 1.43275053, 3.08708198};
   const double target_e[] = {0.95, 0.9, 0.8, 0.7, 0.6, 0.5, 0.3};
   for (int i = 0; i < 7; ++i) {
@@ -246,7 +246,7 @@ TEST(ForwardModel, HuntCrossleyCorSolvesTheExactImplicitRelationForEveryExponent
 }
 
 TEST(ForwardModel, HuntCrossleySpeedTableForAlphaPointTwo) {
-  // references §5 speed table: alpha = 0.2 s/m, n = 1.5, m = 10, k = 1e7, no gravity.
+  // docs/methods.md §5 speed table: alpha = 0.2 s/m, n = 1.5, m = 10, k = 1e7, no gravity.
   const double speeds[] = {0.5, 1.0, 1.4005, 2.0, 2.4257, 3.1316, 4.0};
   const double cors[] = {0.937476, 0.882190, 0.842259, 0.788539, 0.754152, 0.702885, 0.647967};
   const double tcs[] = {1.4817e-2, 1.2992e-2, 1.2217e-2, 1.1480e-2, 1.1119e-2, 1.0683e-2, 1.0316e-2};
@@ -258,13 +258,13 @@ TEST(ForwardModel, HuntCrossleySpeedTableForAlphaPointTwo) {
     EXPECT_NEAR(impact.cor, ExactHuntCrossleyCor(0.2 * speeds[i]), 1e-10) << "v " << speeds[i];
     EXPECT_NEAR(impact.contact_duration_s, tcs[i], 0.5e-6) << "v " << speeds[i];
   }
-  // With gravity in contact, v = 2: e = 0.779462 (references §5, last paragraph).
+  // With gravity in contact, v = 2: e = 0.779462 (docs/methods.md §5, last paragraph).
   const Trajectory with_gravity =
       SimulateSingleImpact(LawId::kHuntCrossley, {1e7, 1.5, 0.2}, 10.0, 2.0, kStandardGravityMps2, 0.2);
   EXPECT_NEAR(with_gravity.impacts().at(0).cor, 0.779462, 0.5e-6);
 }
 
-// references §7d (DERIVED, no publication claimed): piecewise-linear spring.
+// docs/methods.md §7d (DERIVED, no publication claimed): piecewise-linear spring.
 TEST(ForwardModel, BilinearSpringMatchesThePiecewiseClosedForm) {
   struct Row {
     double k1, k2, knee, tc, delta_max;
@@ -294,8 +294,8 @@ TEST(ForwardModel, ZeroDampingGivesACorOfOneForEveryLaw) {
                         {LawId::kBilinear, {1e5, 3e5, 0.004, 0.0}},
                         {LawId::kVolumetric, {2e7, 0.0}}};
   for (const Case& test_case : cases) {
-    const DropScenario scenario =
-        MakeDropScenario(test_case.law, test_case.params, MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.3, 1.5);
+    const DropScenario scenario = synth::MakeDropScenario(test_case.law, test_case.params,
+                                                          MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.3, 1.5);
     const Trajectory trajectory = SimulateDrop(scenario);
     ASSERT_GE(trajectory.impacts().size(), 2u) << ToString(test_case.law);
     for (const ImpactTruth& impact : trajectory.impacts()) {
@@ -335,7 +335,7 @@ TEST(ForwardModel, BouncesChainThroughFlightsAndComeToRest) {
   std::printf("KV bounce sequence: %zu impacts to rest, %d steps\n", impacts.size(), trajectory.steps());
 }
 
-// references §3c with the contract's rule: a Kelvin-Voigt hub that separates with
+// docs/methods.md §3c with the contract's rule: a Kelvin-Voigt hub that separates with
 // c g / k < v_sep < 2 c g / k cannot climb back to the onset height (v_level^2 =
 // v_sep (v_sep - 2 c g/k) < 0, DERIVED from the flight parabola), so the force returns while
 // it is still below the onset height: that hop belongs to the same impact.
@@ -434,8 +434,8 @@ TEST(ForwardModel, TemplatedHeightsEqualTheTrajectory) {
                            {LawId::kBilinear, {1e5, 3e5, 0.004, 200}},
                            {LawId::kVolumetric, {2e7, 0.3}}};
   for (const FitCase& test_case : cases) {
-    const DropScenario scenario =
-        MakeDropScenario(test_case.law, test_case.params, MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.2, 0.6);
+    const DropScenario scenario = synth::MakeDropScenario(test_case.law, test_case.params,
+                                                          MakeTreadGeometry(0.3, 0.0, 0.05), 10.0, 0.3, 0.2, 0.6);
     const Trajectory trajectory = SimulateDrop(scenario);
     const std::vector<double> times = SampleTimes(0.0, 0.6, 2000.0);
     std::vector<double> heights(times.size()), velocities(times.size());

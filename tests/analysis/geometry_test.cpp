@@ -1,4 +1,4 @@
-// Tread geometry for the volumetric law, checked against ../shared/references.md §7a-§7b.
+// Tread geometry for the volumetric law, checked against docs/methods.md §7a-§7b.
 #include "analysis/geometry.h"
 
 #include <ceres/jet.h>
@@ -14,7 +14,7 @@ namespace {
 // Table values are printed to 10 significant digits (rounded in the last one).
 constexpr double kTableRelative = 1e-9;
 
-// references §7a: circular-segment area, handbook formula (which handbook FROM MEMORY),
+// docs/methods.md §7a: circular-segment area, handbook formula (which handbook FROM MEMORY),
 // verified there against quadrature to 1e-15.
 TEST(Geometry, CircularSegmentAreaMatchesTheHandbookTable) {
   struct Row {
@@ -40,7 +40,7 @@ TEST(Geometry, CircularSegmentAreaMatchesTheHandbookTable) {
 
 TEST(Geometry, SmallDepthSeriesJoinsTheClosedFormSmoothly) {
   // The series branch (d < 1e-3 r) and the closed form agree across the switch; both tend to
-  // (4/3) sqrt(2r) d^{3/2} (references §7a small-depth limit).
+  // (4/3) sqrt(2r) d^{3/2} (docs/methods.md §7a small-depth limit).
   const double r = 0.25;
   const double below = CircularSegmentArea(r, 0.999999e-3 * r);
   const double above = CircularSegmentArea(r, 1.000001e-3 * r);
@@ -60,7 +60,7 @@ TEST(Geometry, SegmentAreaJetDerivativeIsTheChordLength) {
   }
 }
 
-// references §7b (DERIVED there; 1-D and 2-D quadrature and Monte-Carlo agree):
+// docs/methods.md §7b (DERIVED there; 1-D and 2-D quadrature and Monte-Carlo agree):
 // torus R = 0.25 m, a = 0.05 m.
 TEST(Geometry, TorusCapVolumeMatchesTheQuadratureTable) {
   const double depths_mm[] = {1, 5, 10, 20, 50};
@@ -69,7 +69,7 @@ TEST(Geometry, TorusCapVolumeMatchesTheQuadratureTable) {
     const double v = TorusCapVolume(0.25, 0.05, depths_mm[i] * 1e-3);
     EXPECT_NEAR(v, volumes[i], kTableRelative * volumes[i]) << depths_mm[i] << " mm";
   }
-  // Pressed to the axle plane: exactly half the torus, pi^2 R a^2 (references §7b).
+  // Pressed to the axle plane: exactly half the torus, pi^2 R a^2 (docs/methods.md §7b).
   EXPECT_NEAR(TorusCapVolume(0.25, 0.05, 0.30), M_PI * M_PI * 0.25 * 0.05 * 0.05, 1e-9 * 0.0062);
   // Small-depth limit pi sqrt(a (R + a)) delta^2 (osculating paraboloid).
   const double tiny = 1e-6;
@@ -132,7 +132,7 @@ TEST(Geometry, ManifestGeometryFollowsTheContract) {
 
 TEST(Geometry, TabulatedTorusVolumeAgreesWithTheQuadrature) {
   // The fitter's fast path (quintic Hermite table) against the quadrature it was built from,
-  // and against references §7b's table.
+  // and against docs/methods.md §7b's table.
   constexpr double kTableAgreement = 1e-10;  // relative; the interpolation error is ~ (1/64)^6
   const TreadGeometry tabulated = MakeTreadGeometry(0.30, 0.0, 0.05);
   ASSERT_NE(tabulated.torus_table, nullptr);

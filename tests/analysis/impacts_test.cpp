@@ -1,5 +1,5 @@
 // Segmentation and impact figures (analysis/impacts.h) on tracks sampled from the forward
-// model (analysis/forward_model.h, pinned to ../shared/references.md §3-§5), whose truth
+// model (analysis/forward_model.h, pinned to docs/methods.md §3-§5), whose truth
 // figures use the contract's definitions.
 #include "analysis/impacts.h"
 

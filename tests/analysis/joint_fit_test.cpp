@@ -2,22 +2,22 @@
 // (analysis/joint_fit.h), on clips of the forward model (analysis/forward_model.h, pinned to
 // published closed forms in forward_model_test.cpp). External facts used:
 //   Hunt-Crossley damping makes 1 - COR grow with impact speed, Kelvin-Voigt does not
-//   (references.md §3c and §5: exact relation and tables), so a Kelvin-Voigt law fitted at
+//   (docs/methods.md §3c and §5: exact relation and tables), so a Kelvin-Voigt law fitted at
 //   some heights mispredicts the COR of a Hunt-Crossley specimen at another height.
 #include "analysis/joint_fit.h"
 
-#include <glog/logging.h>
 #include <gtest/gtest.h>
 
 #include <cmath>
 
-#include "analysis/fit_synthetic.h"
+#include "synth/fit_synthetic.h"
+#include "tests/support/quiet_logs.h"
 
 namespace dropfit::analysis {
 namespace {
 
 const bool kQuietCeres = [] {
-  FLAGS_minloglevel = 3;  // Ceres logs through glog; these tests report through gtest
+  test::SilenceCeresLogs();  // Ceres logs through glog; these tests report through gtest
   return true;
 }();
 
@@ -35,14 +35,14 @@ std::vector<FitClip> Specimen(LawId law, std::uint64_t seed) {
   std::vector<FitClip> clips;
   int i = 0;
   for (double h : {0.1, 0.2, 0.35}) {
-    const DropScenario s = MakeDropScenario(law, Truth(law), TreadGeometry{}, kMassKg, kOnsetM, h, 1.0);
-    SyntheticClipOptions so;
+    const DropScenario s = synth::MakeDropScenario(law, Truth(law), TreadGeometry{}, kMassKg, kOnsetM, h, 1.0);
+    synth::SyntheticClipOptions so;
     so.noise_sd_m = kNoiseM;
     so.seed = seed + i++;
     so.geometry_known = false;
     so.onset_guess_error_m = 1e-3;
     so.drop_height_m = h;
-    clips.push_back(MakeSyntheticClip(std::to_string(h), s, so).clip);
+    clips.push_back(synth::MakeSyntheticClip(std::to_string(h), s, so).clip);
   }
   return clips;
 }

@@ -2,27 +2,27 @@
 // (analysis/forward_model.h), which is itself pinned to published closed forms in
 // forward_model_test.cpp. External references used here:
 //   Schwager & Poeschel (2007), Granular Matter 9:465-469, eq. 21 (Kelvin-Voigt with
-//     separation at zero force), check values of ../shared/references.md §3b;
-//   the gravity-in-contact table of references.md §3c (closed form, DERIVED there; Bartz 2022);
-//   the exact Hunt-Crossley COR relation of references.md §5 (speed dependence table).
+//     separation at zero force), check values of docs/methods.md §3b;
+//   the gravity-in-contact table of docs/methods.md §3c (closed form, DERIVED there; Bartz 2022);
+//   the exact Hunt-Crossley COR relation of docs/methods.md §5 (speed dependence table).
 #include "analysis/law_fit.h"
 
 #include <ceres/ceres.h>
-#include <glog/logging.h>
 #include <gtest/gtest.h>
 
 #include <cmath>
 #include <cstdio>
 #include <map>
 
-#include "analysis/fit_synthetic.h"
 #include "analysis/kinematics.h"
+#include "synth/fit_synthetic.h"
+#include "tests/support/quiet_logs.h"
 
 namespace dropfit::analysis {
 namespace {
 
 const bool kQuietCeres = [] {
-  FLAGS_minloglevel = 3;  // Ceres logs through glog; these tests report through gtest
+  test::SilenceCeresLogs();  // Ceres logs through glog; these tests report through gtest
   return true;
 }();
 
@@ -31,25 +31,27 @@ constexpr double kOnsetM = 0.3;
 
 DropScenario Scenario(LawId law, const std::vector<double>& params, double drop_above_onset_m, double gravity_mps2,
                       double end_time_s) {
-  return MakeDropScenario(law, params, TyreLikeTread(), kMassKg, kOnsetM, drop_above_onset_m, end_time_s, gravity_mps2);
+  return synth::MakeDropScenario(law, params, synth::TyreLikeTread(), kMassKg, kOnsetM, drop_above_onset_m, end_time_s,
+                                 gravity_mps2);
 }
 
 LawFitOptions Options() {
   LawFitOptions o;
-  o.tread = TyreLikeTread();
+  o.tread = synth::TyreLikeTread();
   return o;
 }
 
-SyntheticClip Clip(LawId law, double noise_sd_m, std::uint64_t seed, bool geometry_known, int bounces = 3,
-                   double drop_m = 0.2, double fps = 2000.0) {
-  SyntheticClipOptions so;
+synth::SyntheticClip Clip(LawId law, double noise_sd_m, std::uint64_t seed, bool geometry_known, int bounces = 3,
+                          double drop_m = 0.2, double fps = 2000.0) {
+  synth::SyntheticClipOptions so;
   so.noise_sd_m = noise_sd_m;
   so.seed = seed;
   so.geometry_known = geometry_known;
   so.max_bounces = bounces;
   so.capture_fps = fps;
   so.drop_height_m = drop_m;
-  return MakeSyntheticClip("synthetic", Scenario(law, TyreLikeLawParams(law), drop_m, kStandardGravityMps2, 1.0), so);
+  return synth::MakeSyntheticClip("synthetic",
+                                  Scenario(law, synth::TyreLikeLawParams(law), drop_m, kStandardGravityMps2, 1.0), so);
 }
 
 // Noise-free data from the same forward model: the fit must return the model's own
@@ -59,11 +61,11 @@ constexpr double kNoiseFreeRelTol = 1e-6;
 TEST(LawFit, NoiseFreeClipsGiveBackTheForwardModelsParametersForEveryLaw) {
   for (LawId law : AllLaws()) {
     SCOPED_TRACE(ToString(law));
-    const SyntheticClip clip = Clip(law, 0.0, 1, /*geometry_known=*/true);
+    const synth::SyntheticClip clip = Clip(law, 0.0, 1, /*geometry_known=*/true);
     const LawFitResult fit = FitLaw(law, {clip.clip}, Options());
     ASSERT_FALSE(fit.failure) << *fit.failure;
     EXPECT_TRUE(fit.converged) << fit.termination;
-    const std::vector<double> truth = TyreLikeLawParams(law);
+    const std::vector<double> truth = synth::TyreLikeLawParams(law);
     for (size_t i = 0; i < truth.size(); ++i) {
       EXPECT_NEAR(fit.params[i] / truth[i], 1.0, kNoiseFreeRelTol) << fit.param_names[i];
     }
@@ -74,12 +76,12 @@ TEST(LawFit, NoiseFreeClipsGiveBackTheForwardModelsParametersForEveryLaw) {
 TEST(LawFit, NoiseFreeClipWithUnknownGeometryGivesBackParametersAndOnsetHeight) {
   for (LawId law : {LawId::kKelvinVoigt, LawId::kHuntCrossley}) {
     SCOPED_TRACE(ToString(law));
-    const SyntheticClip clip = Clip(law, 0.0, 1, /*geometry_known=*/false);
+    const synth::SyntheticClip clip = Clip(law, 0.0, 1, /*geometry_known=*/false);
     const LawFitResult fit = FitLaw(law, {clip.clip}, Options());
     ASSERT_FALSE(fit.failure) << *fit.failure;
     EXPECT_TRUE(fit.onset_height_fitted);
     EXPECT_NEAR(fit.onset_height_m, kOnsetM, kNoiseFreeRelTol * kOnsetM);
-    const std::vector<double> truth = TyreLikeLawParams(law);
+    const std::vector<double> truth = synth::TyreLikeLawParams(law);
     for (size_t i = 0; i < truth.size(); ++i) EXPECT_NEAR(fit.params[i] / truth[i], 1.0, kNoiseFreeRelTol);
   }
 }
@@ -95,11 +97,11 @@ constexpr double kJacobianColumnTolKnee = 1e-3;
 TEST(LawFit, ResidualJacobiansAgreeWithNumericDifferentiation) {
   for (LawId law : AllLaws()) {
     SCOPED_TRACE(ToString(law));
-    const SyntheticClip clip = Clip(law, 0.0, 1, true, 1);
+    const synth::SyntheticClip clip = Clip(law, 0.0, 1, true, 1);
     const FitWindow& window = clip.clip.windows.front();
     const double delta_ref = window.figures.max_deflection_m;
     // Off the truth so that residuals are not zero: parameters +3 %, onset +0.2 mm.
-    std::vector<double> p = TyreLikeLawParams(law);
+    std::vector<double> p = synth::TyreLikeLawParams(law);
     for (double& v : p) v *= 1.03;
     if (law == LawId::kHertz) p[1] = 1.5;
     std::vector<double> x = InternalFromLawParameters(law, p, delta_ref);
@@ -155,9 +157,9 @@ TEST(LawFit, TruthLiesWithinTwoStandardDeviationsInAtLeastNinetyPercentOfNoisyFi
   for (LawId law : {LawId::kKelvinVoigt, LawId::kHuntCrossley}) {
     SCOPED_TRACE(ToString(law));
     int inside = 0, total = 0;
-    const std::vector<double> truth = TyreLikeLawParams(law);
+    const std::vector<double> truth = synth::TyreLikeLawParams(law);
     for (int r = 0; r < kRealisations; ++r) {
-      const SyntheticClip clip = Clip(law, kNoiseM, 100 + r, true);
+      const synth::SyntheticClip clip = Clip(law, kNoiseM, 100 + r, true);
       LawFitOptions o = Options();
       o.figure_uncertainties = false;
       const LawFitResult fit = FitLaw(law, {clip.clip}, o);
@@ -174,13 +176,13 @@ TEST(LawFit, TruthLiesWithinTwoStandardDeviationsInAtLeastNinetyPercentOfNoisyFi
 
 // ---- Physical checks --------------------------------------------------------------------
 
-// references.md §3b/§3c check values (m = 10, k = 2e5, c = 300, v_in = 2 m/s).
+// docs/methods.md §3b/§3c check values (m = 10, k = 2e5, c = 300, v_in = 2 m/s).
 constexpr double kClosedFormTol = 1e-7;  // the tables have 9-10 significant digits
 
 TEST(LawFit, ZeroDampingGivesACorOfOne) {
   for (LawId law : AllLaws()) {
     SCOPED_TRACE(ToString(law));
-    std::vector<double> p = TyreLikeLawParams(law);
+    std::vector<double> p = synth::TyreLikeLawParams(law);
     if (law == LawId::kKelvinVoigt) p[1] = 0.0;
     if (law == LawId::kHuntCrossley || law == LawId::kHertz) p[2] = 0.0;
     if (law == LawId::kBilinear) p[3] = 0.0;
@@ -195,32 +197,32 @@ TEST(LawFit, KelvinVoigtFitWithoutGravityReproducesSchwagerAndPoeschel) {
   // Fit a no-gravity clip (straight flights) and read the fitted law's figures.
   DropScenario s = Scenario(LawId::kKelvinVoigt, {2e5, 300.0}, 0.05, 0.0, 0.12);
   s.start_velocity_mps = -2.0;  // v_in = 2 m/s without gravity
-  SyntheticClipOptions so;
+  synth::SyntheticClipOptions so;
   so.max_bounces = 1;
-  const SyntheticClip clip = MakeSyntheticClip("sp2007", s, so);
+  const synth::SyntheticClip clip = synth::MakeSyntheticClip("sp2007", s, so);
   LawFitOptions o = Options();
   o.gravity_mps2 = 0.0;
   const LawFitResult fit = FitLaw(LawId::kKelvinVoigt, {clip.clip}, o);
   ASSERT_FALSE(fit.failure);
   ASSERT_EQ(fit.figures.size(), 1u);
   const BounceFitFigures& f = fit.figures[0];
-  // Schwager & Poeschel 2007 eq. 21 via references.md §3b table.
+  // Schwager & Poeschel 2007 eq. 21 via docs/methods.md §3b table.
   EXPECT_NEAR(f.contact_duration_s, 0.0208290828, kClosedFormTol);
   EXPECT_NEAR(f.separation_speed_mps / f.impact_speed_mps, 0.7316622764, kClosedFormTol);
   EXPECT_NEAR(f.max_deflection_m, 0.0120967952, kClosedFormTol);
 }
 
 TEST(LawFit, KelvinVoigtFitWithGravityReproducesTheGravityTable) {
-  // Release from v^2/(2g) above the onset: v_in = 2 m/s exactly (references.md §2).
+  // Release from v^2/(2g) above the onset: v_in = 2 m/s exactly (docs/methods.md §2).
   const double drop = 4.0 / (2.0 * kStandardGravityMps2);
-  SyntheticClipOptions so;
+  synth::SyntheticClipOptions so;
   so.max_bounces = 1;
-  const SyntheticClip clip =
-      MakeSyntheticClip("bartz", Scenario(LawId::kKelvinVoigt, {2e5, 300.0}, drop, kStandardGravityMps2, 0.6), so);
+  const synth::SyntheticClip clip = synth::MakeSyntheticClip(
+      "bartz", Scenario(LawId::kKelvinVoigt, {2e5, 300.0}, drop, kStandardGravityMps2, 0.6), so);
   const LawFitResult fit = FitLaw(LawId::kKelvinVoigt, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure);
   const BounceFitFigures& f = fit.figures[0];
-  // references.md §3c: F = 0 rule with g: t_c = 0.0214142646, e_sep = 0.7258884392,
+  // docs/methods.md §3c: F = 0 rule with g: t_c = 0.0214142646, e_sep = 0.7258884392,
   // e_level = 0.7184958075.
   EXPECT_NEAR(f.impact_speed_mps, 2.0, 1e-9);
   EXPECT_NEAR(f.contact_duration_s, 0.0214142646, kClosedFormTol);
@@ -229,11 +231,11 @@ TEST(LawFit, KelvinVoigtFitWithGravityReproducesTheGravityTable) {
 }
 
 TEST(LawFit, HuntCrossleyTruthShowsOneMinusCorRisingWithSpeedAndKelvinVoigtTruthDoesNot) {
-  // Fitted law of each truth, then its COR over the impact speeds of references §3c/§5.
+  // Fitted law of each truth, then its COR over the impact speeds of docs/methods.md §3c/§5.
   const std::vector<double> speeds = {1.0, 2.0, 3.1316};
   std::map<LawId, std::vector<double>> one_minus_cor;
   for (LawId law : {LawId::kHuntCrossley, LawId::kKelvinVoigt}) {
-    const SyntheticClip clip = Clip(law, 5e-5, 7, true);
+    const synth::SyntheticClip clip = Clip(law, 5e-5, 7, true);
     const LawFitResult fit = FitLaw(law, {clip.clip}, Options());
     ASSERT_FALSE(fit.failure);
     for (double v : speeds) {
@@ -244,11 +246,11 @@ TEST(LawFit, HuntCrossleyTruthShowsOneMinusCorRisingWithSpeedAndKelvinVoigtTruth
   }
   const auto& hc = one_minus_cor[LawId::kHuntCrossley];
   const auto& kv = one_minus_cor[LawId::kKelvinVoigt];
-  // Hunt-Crossley: 1 - e grows roughly linearly with speed (references §5: 0.118 -> 0.297
+  // Hunt-Crossley: 1 - e grows roughly linearly with speed (docs/methods.md §5: 0.118 -> 0.297
   // for alpha = 0.2 from 1 to 3.13 m/s): well over a factor 1.5 here.
   EXPECT_GT(hc[1], 1.3 * hc[0]);
   EXPECT_GT(hc[2], 1.3 * hc[1]);
-  // Kelvin-Voigt: only the gravity effect of references §3c, e_level 0.704421 (1 m/s),
+  // Kelvin-Voigt: only the gravity effect of docs/methods.md §3c, e_level 0.704421 (1 m/s),
   // 0.718362 (1.98 m/s), 0.723354 (3.13 m/s): 1 - e FALLS slightly, by < 0.02.
   EXPECT_LT(kv[2], kv[0]);
   EXPECT_LT(kv[0] - kv[2], 0.025);
@@ -261,10 +263,10 @@ TEST(LawFit, HuntCrossleyTruthShowsOneMinusCorRisingWithSpeedAndKelvinVoigtTruth
 // 10 %, exponent 0.05, onset height 0.2 mm).
 TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   const LawId law = LawId::kHuntCrossley;
-  const DropScenario s = Scenario(law, TyreLikeLawParams(law), 0.25, kStandardGravityMps2, 1.0);
+  const DropScenario s = Scenario(law, synth::TyreLikeLawParams(law), 0.25, kStandardGravityMps2, 1.0);
   const Trajectory truth = SimulateDrop(s);
   constexpr double kFps = 2000.0;
-  const TimeSeries series = MakeSyntheticTrack(truth, static_cast<int>(s.end_time_s * kFps), kFps, 5e-5, 5);
+  const TimeSeries series = synth::MakeSyntheticTrack(truth, static_cast<int>(s.end_time_s * kFps), kFps, 5e-5, 5);
   KinematicsOptions ko;
   ko.mass_kg = kMassKg;
   ko.onset_height_m = std::nullopt;
@@ -285,7 +287,7 @@ TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   const LawFitResult fit = FitLaw(law, {clip}, Options());
   ASSERT_FALSE(fit.failure) << *fit.failure;
   EXPECT_TRUE(fit.converged);
-  const std::vector<double> t = TyreLikeLawParams(law);
+  const std::vector<double> t = synth::TyreLikeLawParams(law);
   const double delta = truth.impacts().front().max_deflection_m;
   EXPECT_NEAR(fit.params[0] * std::pow(delta, fit.params[1]) / (t[0] * std::pow(delta, t[1])), 1.0, 0.02);
   EXPECT_NEAR(fit.params[1], t[1], 0.05);
@@ -314,19 +316,19 @@ void ExpectHonest(const LawFitResult& fit, const std::vector<double>& truth) {
 }
 
 TEST(LawFit, SingleBounceWithFittedOnsetWarnsAndWidensTheExponent) {
-  const SyntheticClip clip = Clip(LawId::kHuntCrossley, 1e-4, 11, /*geometry_known=*/false, 1);
+  const synth::SyntheticClip clip = Clip(LawId::kHuntCrossley, 1e-4, 11, /*geometry_known=*/false, 1);
   const LawFitResult fit = FitLaw(LawId::kHuntCrossley, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure);
   EXPECT_TRUE(HasWarning(fit, "single bounce"));
   std::printf("single bounce: n = %.3f +- %.3f, onset %.5f +- %.5f m\n", fit.params[1], fit.param_sd[1],
               fit.onset_height_m, fit.onset_height_sd_m);
   EXPECT_GT(fit.param_sd[1], 0.02);  // the exponent is not pinned to hundredths
-  ExpectHonest(fit, TyreLikeLawParams(LawId::kHuntCrossley));
+  ExpectHonest(fit, synth::TyreLikeLawParams(LawId::kHuntCrossley));
 }
 
 TEST(LawFit, BilinearFitToALinearSpringFlagsTheKneeAsUndetermined) {
   // k1 = k2 makes the knee free: its SD must be huge or infinite, with a warning.
-  const SyntheticClip clip = Clip(LawId::kKelvinVoigt, 5e-5, 14, true);
+  const synth::SyntheticClip clip = Clip(LawId::kKelvinVoigt, 5e-5, 14, true);
   const LawFitResult fit = FitLaw(LawId::kBilinear, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure) << *fit.failure;
   std::printf("bilinear on linear data: k1 %.4g k2 %.4g knee %.4g +- %.4g m\n", fit.params[0], fit.params[1],
@@ -341,21 +343,21 @@ TEST(LawFit, BilinearFitToALinearSpringFlagsTheKneeAsUndetermined) {
 
 TEST(LawFit, FewContactFramesWarnAndStayHonest) {
   // 300 frames/s: ~4 samples in a 13 ms contact.
-  const SyntheticClip clip = Clip(LawId::kHertz, 1e-4, 12, true, 3, 0.2, 300.0);
+  const synth::SyntheticClip clip = Clip(LawId::kHertz, 1e-4, 12, true, 3, 0.2, 300.0);
   const LawFitResult fit = FitLaw(LawId::kHertz, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure);
   EXPECT_TRUE(HasWarning(fit, "samples in contact"));
-  ExpectHonest(fit, TyreLikeLawParams(LawId::kHertz));
+  ExpectHonest(fit, synth::TyreLikeLawParams(LawId::kHertz));
 }
 
 TEST(LawFit, NoiseLargerThanTheDeflectionWarnsAndGivesWideUncertainties) {
-  const SyntheticClip clip = Clip(LawId::kKelvinVoigt, 0.02, 13, true);  // 20 mm noise, ~12 mm deflection
+  const synth::SyntheticClip clip = Clip(LawId::kKelvinVoigt, 0.02, 13, true);  // 20 mm noise, ~12 mm deflection
   const LawFitResult fit = FitLaw(LawId::kKelvinVoigt, {clip.clip}, Options());
   ASSERT_FALSE(fit.failure) << *fit.failure;
   std::printf("k = %.4g +- %.4g N/m, c = %.4g +- %.4g N s/m (truth 2e5, 300)\n", fit.params[0], fit.param_sd[0],
               fit.params[1], fit.param_sd[1]);
   EXPECT_TRUE(HasWarning(fit, "comparable with the deflection"));
-  ExpectHonest(fit, TyreLikeLawParams(LawId::kKelvinVoigt));
+  ExpectHonest(fit, synth::TyreLikeLawParams(LawId::kKelvinVoigt));
 }
 
 }  // namespace

@@ -20,7 +20,7 @@ void ExpectTable(const std::vector<double>& actual, const std::vector<double>& n
 }
 
 // Savitzky & Golay 1964 (Anal. Chem. 36:1627), convolution tables, as quoted in
-// ../shared/references.md §6 (values reproduced there with scipy.signal.savgol_coeffs).
+// docs/methods.md §6 (values reproduced there with scipy.signal.savgol_coeffs).
 TEST(SavgolCoefficients, FivePointQuadraticSmoothingEqualsThePublishedTable) {
   ExpectTable(SavgolCoefficients({5, 2}, 0), {-3, 12, 17, 12, -3}, 35.0);
 }
@@ -34,7 +34,7 @@ TEST(SavgolCoefficients, FivePointQuadraticFirstDerivativeEqualsThePublishedTabl
 }
 
 TEST(SavgolCoefficients, FurtherPublishedTablesAreReproduced) {
-  // Same source (references.md §6): 9-point smoothing, 5-point cubic derivative, second derivatives.
+  // Same source (docs/methods.md §6): 9-point smoothing, 5-point cubic derivative, second derivatives.
   ExpectTable(SavgolCoefficients({9, 2}, 0), {-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231.0);
   ExpectTable(SavgolCoefficients({5, 3}, 1), {1, -8, 0, 8, -1}, 12.0);
   ExpectTable(SavgolCoefficients({5, 2}, 2), {2, -1, -2, -1, 2}, 7.0);
@@ -42,13 +42,13 @@ TEST(SavgolCoefficients, FurtherPublishedTablesAreReproduced) {
 }
 
 TEST(SavgolNoiseGain, MatchesThePublishedVarianceGains) {
-  // references.md §6: sum c^2 = 0.485714 (5-point smoothing), 0.1 (5-point first derivative).
+  // docs/methods.md §6: sum c^2 = 0.485714 (5-point smoothing), 0.1 (5-point first derivative).
   EXPECT_NEAR(std::pow(SavgolNoiseGain({5, 2}, 0), 2), 17.0 / 35.0, 1e-12);
   EXPECT_NEAR(std::pow(SavgolNoiseGain({5, 2}, 1), 2), 0.1, 1e-12);
 }
 
 TEST(SavgolFilter, ReproducesAFreeFallParabolaExactly) {
-  // references.md §6 exactness check: y = 1 + 2 t - 4.903325 t^2, dt = 1 ms.
+  // docs/methods.md §6 exactness check: y = 1 + 2 t - 4.903325 t^2, dt = 1 ms.
   const double dt = 1e-3;
   std::vector<double> y(50);
   std::vector<bool> valid(50, true);

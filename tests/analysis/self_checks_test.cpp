@@ -79,7 +79,7 @@ TEST(SelfChecks, ACorrectSetUpRaisesNoWarning) {
   EXPECT_NEAR(r.checks.tilt->tilt_deg.value, 0.0, 0.1);
   ASSERT_TRUE(r.checks.drop_height.has_value());
   EXPECT_FALSE(r.checks.drop_height->flagged);
-  // v = sqrt(2 g h) for the nominal 0.4 m (references.md §2).
+  // v = sqrt(2 g h) for the nominal 0.4 m (docs/methods.md §2).
   EXPECT_NEAR(r.checks.drop_height->expected_speed_mps, std::sqrt(2.0 * 9.80665 * 0.4), 1e-12);
 }
 

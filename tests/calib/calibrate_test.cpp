@@ -1,7 +1,7 @@
 // Tests of the checkerboard calibration (calib/calibrate.h) on synthetic views.
 //
 // Reference: OpenCV 4.6 as the general-purpose reference library. The views are rendered
-// through the exact inverse of cv::projectPoints' camera model (tests/calib/synthetic_board.h);
+// through the exact inverse of cv::projectPoints' camera model (tests/support/synthetic_board.h);
 // truth points are projected with cv::projectPoints and the rig must map them back. The
 // acceptance figures (focal length within 0.5 %, distances in the drop plane within 0.05 mm
 // over 200 mm on points that took no part in the fit) are the issue's.
@@ -17,16 +17,16 @@
 #include <random>
 #include <regex>
 
-#include "tests/calib/synthetic_board.h"
+#include "tests/support/synthetic_board.h"
 
 namespace dropfit::calib {
 namespace {
 
-using testing::BoardInView;
-using testing::PoseLookingAt;
-using testing::RenderBoard;
-using testing::RenderSettings;
-using testing::SyntheticCamera;
+using test::BoardInView;
+using test::PoseLookingAt;
+using test::RenderBoard;
+using test::RenderSettings;
+using test::SyntheticCamera;
 
 // Issue acceptance: focal length within 0.5 %.
 constexpr double kFocalTolFraction = 0.005;

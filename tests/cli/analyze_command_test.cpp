@@ -1,5 +1,5 @@
 // `dropfit analyze` end to end (cli/analyze_command.h) on clips rendered by the project's
-// renderer (analysis/render.h through cli/render_command.h) from the forward model, whose
+// renderer (synth/render.h through cli/render_command.h) from the forward model, whose
 // truth (truth.json) uses the contract's definitions.
 #include "cli/analyze_command.h"
 
@@ -11,12 +11,12 @@
 #include <random>
 #include <string>
 
-#include "analysis/camera.h"
 #include "cli/exit_status.h"
 #include "cli/render_command.h"
 #include "cli/results.h"
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
+#include "synth/camera.h"
 
 namespace dropfit::cli {
 namespace {
@@ -62,7 +62,7 @@ class AnalyzeCommandTest : public ::testing::Test {
     EXPECT_EQ(RunRender(o), kExitDone);
     const RenderTruth truth = ReadTruthFile(dir_ / "clips" / "truth.json");
     // The rig a perfect calibration gives (the floor at y = 0), written by the rig writer.
-    WriteRigFile(dir_ / "rig.json", analysis::RigFromCamera(truth.camera, 0.0, std::nullopt));
+    WriteRigFile(dir_ / "rig.json", synth::RigFromCamera(truth.camera, 0.0, std::nullopt));
     return truth;
   }
 

@@ -1,6 +1,6 @@
 // Tests of `dropfit calibrate` as a library call (cli/calibrate_command.h): files in, rig file
 // out, exit status and messages of the contract. Views are rendered through OpenCV's camera
-// model (tests/calib/synthetic_board.h; OpenCV 4.6 as the reference library).
+// model (tests/support/synthetic_board.h; OpenCV 4.6 as the reference library).
 #include "cli/calibrate_command.h"
 
 #include <gtest/gtest.h>
@@ -13,20 +13,21 @@
 #include <random>
 #include <sstream>
 
-#include "analysis/render_calibration.h"
 #include "calib/calibration_input.h"
 #include "cli/exit_status.h"
 #include "cli/rig_io.h"
-#include "tests/calib/synthetic_board.h"
+#include "media/files.h"
+#include "synth/render_calibration.h"
+#include "tests/support/synthetic_board.h"
 
 namespace dropfit::cli {
 namespace {
 
 namespace fs = std::filesystem;
-using calib::testing::BoardInView;
-using calib::testing::PoseLookingAt;
-using calib::testing::RenderBoard;
-using calib::testing::SyntheticCamera;
+using test::BoardInView;
+using test::PoseLookingAt;
+using test::RenderBoard;
+using test::SyntheticCamera;
 
 // The rig's mapping of a truth point: 0.2 mm covers the corner noise of a 5-view calibration
 // at ~0.65 mm/px (the accuracy itself is tested in tests/calib/calibrate_test.cpp).
@@ -112,7 +113,7 @@ TEST(CalibrateCommand, AFolderAndAPlaneViewGiveARigFileThatMapsTruthPoints) {
   EXPECT_EQ(rig.capture_fps, 2000.0);
   EXPECT_EQ(rig.y_origin, calib::YOrigin::kFloor);
   EXPECT_EQ(rig.input_hashes.size(), 6u);  // plane view + 5 views
-  EXPECT_EQ(rig.input_hashes[0].second, calib::Fnv1a64HexOfFile(o.plane_image));
+  EXPECT_EQ(rig.input_hashes[0].second, media::Fnv1a64HexOfFile(o.plane_image));
   bool has_board_option = false;
   for (const auto& [name, value] : rig.settings) has_board_option |= (name == "board" && value == "9x6");
   EXPECT_TRUE(has_board_option);
@@ -184,7 +185,7 @@ TEST(CalibrateCommand, OnlyAPlaneViewGivesARigWithoutLensAndAWarning) {
   ASSERT_EQ(rig.warnings.size(), 1u);
 }
 
-// Issue acceptance on the renderer's calibration images (analysis/render_calibration.h, whose
+// Issue acceptance on the renderer's calibration images (synth/render_calibration.h, whose
 // camera is pinned to OpenCV's model): focal length within 0.5 %, 200 mm in the drop plane
 // within 0.05 mm at points off the board's corners.
 constexpr double kFocalTolFraction = 0.005;
@@ -194,10 +195,10 @@ constexpr double kPlaneDistanceTolM = 0.05e-3;
 constexpr double kRenderedPositionTolM = 0.1e-3;
 
 TEST(CalibrateCommand, TheRenderersCalibrationImagesGiveBackItsCameraAndDropPlane) {
-  const analysis::PinholeCamera camera = analysis::MakeCamera(analysis::CameraSetup{});
-  const analysis::SceneRenderer scene(camera, analysis::WheelLook{}, analysis::SceneLook{});
-  const analysis::CheckerboardSpec board{9, 6, 0.05};
-  const auto images = analysis::RenderCalibrationImages(scene, board, 12, analysis::ExposureSettings{}, true, 11);
+  const synth::PinholeCamera camera = synth::MakeCamera(synth::CameraSetup{});
+  const synth::SceneRenderer scene(camera, synth::WheelLook{}, synth::SceneLook{});
+  const synth::CheckerboardSpec board{9, 6, 0.05};
+  const auto images = synth::RenderCalibrationImages(scene, board, 12, synth::ExposureSettings{}, true, 11);
   const fs::path dir = TheFixture().dir / "rendered";
   fs::create_directories(dir / "views");
   CalibrateCommandOptions o;
@@ -208,7 +209,7 @@ TEST(CalibrateCommand, TheRenderersCalibrationImagesGiveBackItsCameraAndDropPlan
   }
   o.inputs = {(dir / "views").string()};
   o.square_m = board.square_m;
-  o.corner_height_m = analysis::PlaneBoardCornerHeight(board);
+  o.corner_height_m = synth::PlaneBoardCornerHeight(board);
   o.out_path = (dir / "rig.json").string();
   const CommandRun r = RunIt(o);
   ASSERT_EQ(r.status, kExitDone) << r.err;
@@ -221,8 +222,8 @@ TEST(CalibrateCommand, TheRenderersCalibrationImagesGiveBackItsCameraAndDropPlan
   for (double y : {0.13, 0.21, 0.33}) {
     for (double x : {0.01, 0.07, 0.19}) {
       const cv::Point2d a(x, y), b(x + 0.2, y);
-      const cv::Point2d pa = calib::PlaneFromImage(rig, analysis::ImageFromDropPlane(camera, a));
-      const cv::Point2d pb = calib::PlaneFromImage(rig, analysis::ImageFromDropPlane(camera, b));
+      const cv::Point2d pa = calib::PlaneFromImage(rig, synth::ImageFromDropPlane(camera, a));
+      const cv::Point2d pb = calib::PlaneFromImage(rig, synth::ImageFromDropPlane(camera, b));
       worst = std::max(worst, std::abs(cv::norm(pa - pb) - 0.2));
       EXPECT_NEAR(cv::norm(pa - pb), 0.2, kPlaneDistanceTolM) << "at " << a;
       EXPECT_NEAR(pa.x, a.x, kRenderedPositionTolM);
@@ -231,12 +232,6 @@ TEST(CalibrateCommand, TheRenderersCalibrationImagesGiveBackItsCameraAndDropPlan
   }
   std::cout << "rendered: fx " << rig.lens->camera_matrix(0, 0) << " (truth " << camera.intrinsics.fx_px
             << "), worst 200 mm error " << worst * 1e3 << " mm\n";
-}
-
-TEST(CalibrateCommand, FnvHashMatchesThePublishedTestVector) {
-  // FNV-1a 64 of "a" is af63dc4c8601ec8c (Fowler, Noll & Vo test vectors; from memory).
-  EXPECT_EQ(calib::Fnv1a64Hex("a"), "af63dc4c8601ec8c");
-  EXPECT_EQ(calib::Fnv1a64Hex(""), "cbf29ce484222325");
 }
 
 }  // namespace

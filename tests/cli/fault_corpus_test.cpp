@@ -7,11 +7,11 @@
 //
 // For each case: the message names the file (and row, column or frame) and says what to do, in
 // summary.json's errors or warnings and on stderr; the other clips are still analysed and
-// written; the exit status follows ../shared/contract.md ("Exit status"); no file is left
+// written; the exit status follows docs/formats.md ("Exit status"); no file is left
 // half-written and an earlier good output is not replaced by a refused run.
 //
 // The corpus is made at test time from one clip rendered by the project's renderer
-// (cli/render_command.h, analysis/render.h) with known truth (truth.json). The unit-level cases
+// (cli/render_command.h, synth/render.h) with known truth (truth.json). The unit-level cases
 // are tested beside their units: manifest rows in manifest_test.cpp, rig files in
 // rig_io_test.cpp, single-clip commands in track_command_test.cpp and analyze_command_test.cpp.
 #include <gtest/gtest.h>
@@ -30,7 +30,6 @@
 #include <string>
 #include <vector>
 
-#include "analysis/camera.h"
 #include "cli/calibrate_command.h"
 #include "cli/exit_status.h"
 #include "cli/render_command.h"
@@ -38,6 +37,7 @@
 #include "cli/rig_io.h"
 #include "cli/run_command.h"
 #include "cli/truth_io.h"
+#include "synth/camera.h"
 
 namespace dropfit::cli {
 namespace {
@@ -83,7 +83,8 @@ std::map<std::string, std::string> Snapshot(const fs::path& dir) {
   return files;
 }
 
-// Lossless FFV1 in .avi at a playback rate (../shared/deps.md); the manifest gives the true rate.
+// Lossless FFV1 in .avi at a playback rate (docs/platform.md, "Codecs" and "Video writing"); the manifest gives the
+// true rate.
 void WriteVideo(const fs::path& file, const std::vector<cv::Mat>& frames) {
   cv::VideoWriter w(file.string(), cv::CAP_FFMPEG, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), 30.0,
                     frames.front().size(), true);
@@ -164,7 +165,7 @@ const Corpus& TheCorpus() {
     c.truth = ReadTruthFile(c.dir / "render" / "truth.json");
     const ClipTruth& clip = c.truth.clips.at(0);
     // The rig a perfect calibration gives (the floor at y = 0), written by the rig writer.
-    WriteRigFile(c.rig, analysis::RigFromCamera(c.truth.camera, 0.0, std::nullopt));
+    WriteRigFile(c.rig, synth::RigFromCamera(c.truth.camera, 0.0, std::nullopt));
 
     const fs::path rendered = c.dir / "render" / clip.clip;
     std::vector<cv::Mat> frames;
@@ -206,7 +207,7 @@ const Corpus& TheCorpus() {
       for (int f = 0; f < c.frames; ++f) {
         cv::Mat img = frames[static_cast<size_t>(f)].clone();
         if (f >= first && f <= last) {
-          const analysis::FrameTruth& t = clip.frames.at(static_cast<size_t>(f));
+          const synth::FrameTruth& t = clip.frames.at(static_cast<size_t>(f));
           cv::circle(img, cv::Point(static_cast<int>(t.u_px), static_cast<int>(t.v_px)),
                      static_cast<int>(2.0 * marker_r_px) + 2, cv::Scalar(128), cv::FILLED);
         }

@@ -1,4 +1,4 @@
-// The manifest reader against ../shared/contract.md ("What a user prepares", "Exit status"):
+// The manifest reader against docs/formats.md ("manifest.csv", "Manifest faults", "Exit status"):
 // required columns, comment lines, UTF-8 BOM, CRLF, quoted fields (RFC 4180, Shafranovich
 // 2005: "" inside quotes is one quote), structure errors that stop the command, row errors
 // that fail one clip only.

@@ -1,5 +1,5 @@
 // `dropfit render` end to end (cli/render_command.h): the files it writes follow the output
-// contract (../shared/contract.md, "What a user prepares": manifest.csv, read back with our
+// contract (docs/formats.md, "manifest.csv", read back with our
 // contract reader), its MJPG clips read back through OpenCV's cv::VideoCapture (the reference
 // reader) with every frame, it is deterministic for a seed, and the committed demo set in
 // demo_clips/ is what its recorded command renders.
@@ -93,7 +93,7 @@ TEST(RenderCommand, WritesAContractManifestAndMjpgClipsThatReadBackFrameByFrame)
   }
   // The exact rig maps the truth's pixels to the truth's metres.
   const calib::Rig rig = ReadRigFile(dir / "rig_exact.json");
-  const analysis::FrameTruth& f = truth.clips[0].frames[3];
+  const synth::FrameTruth& f = truth.clips[0].frames[3];
   const cv::Point2d p = calib::PlaneFromImage(rig, {f.u_px, f.v_px});
   EXPECT_NEAR(p.x, f.x_m, 1e-8);
   EXPECT_NEAR(p.y, f.y_m, 1e-8);

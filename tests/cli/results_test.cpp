@@ -1,4 +1,4 @@
-// Round trips of the contract's result files (../shared/contract.md, "What one run writes"):
+// Round trips of the contract's result files (docs/formats.md, "What one run writes"):
 // what is written is read back unchanged, with the contract's column order and field names.
 #include "cli/results.h"
 

@@ -1,4 +1,4 @@
-// Per-height summary (../shared/contract.md, summary.csv): first complete impact of each
+// Per-height summary (docs/formats.md, "summary.csv"): first complete impact of each
 // clip; mean and sample standard deviation with Bessel's correction (n - 1; common practice,
 // no source); sd empty for one clip.
 #include "cli/summary_build.h"

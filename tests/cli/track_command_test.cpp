@@ -15,14 +15,14 @@
 #include "cli/exit_status.h"
 #include "cli/results.h"
 #include "cli/rig_io.h"
-#include "tracker/synthetic_marker.h"
+#include "tests/support/synthetic_marker.h"
 
 namespace dropfit::cli {
 namespace {
 
 namespace fs = std::filesystem;
 
-// ../shared/references.md §9: 0.05 px RMS at 2 grey levels of noise (lossless frames here).
+// docs/methods.md §9: 0.05 px RMS at 2 grey levels of noise (lossless frames here).
 constexpr double kRmsTargetPx = 0.05;
 // Metres are the rig's mapping of the pixel position: checked to round-off.
 constexpr double kMetresTolerance = 1e-9;
@@ -55,16 +55,16 @@ cv::Point2d PathAt(int f) { return {40.0 + 1.3 * f, 40.0 + 0.5 * f + 0.02 * f * 
 
 std::vector<cv::Mat> Frames(int n, uint64_t seed, const std::function<cv::Point2d(int)>& path = PathAt) {
   cv::RNG rng(seed);
-  tracker::SyntheticMarkerOptions m;
+  test::SyntheticMarkerOptions m;
   m.kind = tracker::MarkerKind::kDot;
   m.radius_px = 8;
   m.background = 50;
   std::vector<cv::Mat> frames;
-  for (int f = 0; f < n; ++f) frames.push_back(tracker::RenderSyntheticMarker(kSize, path(f), m, rng));
+  for (int f = 0; f < n; ++f) frames.push_back(test::RenderSyntheticMarker(kSize, path(f), m, rng));
   return frames;
 }
 
-// Lossless FFV1 in .avi at a playback rate (../shared/deps.md: .avi is safe at <= 1,000 fps).
+// Lossless FFV1 in .avi at a playback rate (docs/platform.md, "Video writing": .avi is safe at <= 1,000 fps).
 void WriteVideo(const fs::path& file, const std::vector<cv::Mat>& frames, double fps = 30.0) {
   cv::VideoWriter w(file.string(), cv::CAP_FFMPEG, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), fps, kSize, true);
   ASSERT_TRUE(w.isOpened());

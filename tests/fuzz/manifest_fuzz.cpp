@@ -1,6 +1,6 @@
 // libFuzzer target: the manifest reader (cli/manifest.h, ParseManifest) on arbitrary bytes.
 //
-// The contract (../shared/contract.md, "Exit status") allows two outcomes for any input: a
+// The contract (docs/formats.md, "Manifest faults" and "Exit status") allows two outcomes for any input: a
 // ManifestStructureError naming the file, or a Manifest whose rows are each usable or carry a
 // message naming the file and line. Anything else is a finding: a crash, a sanitizer report
 // (ASan, UBSan, LeakSanitizer), another exception escaping, a hang (-timeout), or a broken

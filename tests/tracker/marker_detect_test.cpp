@@ -3,10 +3,13 @@
 #include <gtest/gtest.h>
 #include <opencv2/imgproc.hpp>
 
-#include "tracker/synthetic_marker.h"
+#include "tests/support/synthetic_marker.h"
 
 namespace dropfit::tracker {
 namespace {
+
+using test::RenderSyntheticMarker;
+using test::SyntheticMarkerOptions;
 
 // Detection hands the tracker a start within its fit's reach; the fit does the rest. A tenth
 // of a pixel is ample (common practice, no source).

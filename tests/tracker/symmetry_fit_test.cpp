@@ -4,13 +4,16 @@
 
 #include <cmath>
 
-#include "tracker/synthetic_marker.h"
+#include "tests/support/synthetic_marker.h"
 
 namespace dropfit::tracker {
 namespace {
 
-// ../shared/references.md §9: "Treat 0.05 px RMS as a sensible pass threshold at σ_n ≈ 2 grey
-// levels" for a well-contrasted synthetic marker (own simulations there; cornerSubPix gets
+using test::RenderSyntheticMarker;
+using test::SyntheticMarkerOptions;
+
+// docs/methods.md §9: 0.05 px RMS as the pass threshold at σ_n ≈ 2 grey levels for a
+// well-contrasted synthetic marker (own simulations there; cornerSubPix gets
 // 0.037 px on an X-corner at σ_n = 2). The issue's target for the hub marker is the same 0.05 px.
 constexpr double kRmsTargetPx = 0.05;
 // Noise-free, 8-bit quantised frames with sharp edges (0.5 px optical blur): only quantisation and

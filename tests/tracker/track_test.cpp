@@ -10,15 +10,18 @@
 #include <functional>
 #include <random>
 
-#include "tracker/frame_source.h"
-#include "tracker/synthetic_marker.h"
+#include "media/frame_source.h"
+#include "tests/support/synthetic_marker.h"
 
 namespace dropfit::tracker {
 namespace {
 
+using test::RenderSyntheticMarker;
+using test::SyntheticMarkerOptions;
+
 namespace fs = std::filesystem;
 
-// ../shared/references.md §9: 0.05 px RMS is the pass threshold at σ_n ≈ 2 grey levels, and the
+// docs/methods.md §9: 0.05 px RMS is the pass threshold at σ_n ≈ 2 grey levels, and the
 // issue's target for the quadrant disc and the dot under reference conditions.
 constexpr double kRmsTargetPx = 0.05;
 // Template matching with a parabola peak is coarser (pixel locking of the correlation peak,
@@ -249,7 +252,7 @@ TEST(Track, ClipFromAnImageFolderIsReadOnASecondThreadWithProgressAndGaps) {
     std::snprintf(name, sizeof name, "shot_%06d.png", 1200 + f);
     cv::imwrite((dir / name).string(), c.frames[static_cast<size_t>(f)]);
   }
-  auto source = FrameSource::Open(dir);
+  auto source = media::FrameSource::Open(dir);
   std::atomic<int> last_done{0};
   const Track t = TrackClip(*source, TrackOptions{}, [&](int done, int total) {
     last_done = done;

@@ -2,7 +2,7 @@
 // Writing rendered 8-bit grey frames as a clip: an MJPG .avi (our own RIFF writer), lossless
 // FFV1 in .mov, H.264 in .mp4, or a folder of numbered PNG files.
 //
-// Why our own AVI writer: OpenCV 4.6's MJPG writers are unreliable here (../shared/deps.md:
+// Why our own AVI writer: OpenCV 4.6's MJPG writers are unreliable here (docs/platform.md, "MJPG writers":
 // the built-in one gives garbage for grey frames, the FFmpeg one corrupts a few colour frames
 // and refuses a quality setting). Each frame is encoded with cv::imencode(".jpg", quality) and
 // stored as one '00dc' chunk of a plain AVI 1.0 file (RIFF 'AVI ', one video stream, an idx1
@@ -12,7 +12,7 @@
 //
 // Frame rates. The container (playback) rate is written into the file; the true capture rate
 // belongs in manifest.csv (`capture_fps`), which wins over the container. Measured pitfalls
-// (deps.md): OpenCV's FFmpeg .avi muxer drops frames above 1,000 frames/s and .mkv reports a
+// (docs/platform.md, "Video writing"): OpenCV's FFmpeg .avi muxer drops frames above 1,000 frames/s and .mkv reports a
 // wrong rate and count, so FFV1 goes into .mov, which is exact at any rate. Our own AVI writer
 // stores any rate exactly; readers are safest with a rate of at most 1,000 frames/s.
 
@@ -24,7 +24,7 @@
 #include <string>
 #include <vector>
 
-namespace dropfit::analysis {
+namespace dropfit::media {
 
 enum class VideoFormat {
   kMjpgAvi,    // "mjpg": JPEG frames (quality settable) in an .avi written by MjpgAviWriter
@@ -88,4 +88,4 @@ class MjpgAviWriter final : public FrameSink {
   bool closed_ = false;
 };
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::media

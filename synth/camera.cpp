@@ -1,4 +1,4 @@
-#include "analysis/camera.h"
+#include "synth/camera.h"
 
 #include <opencv2/calib3d.hpp>
 
@@ -8,7 +8,7 @@
 #include <sstream>
 #include <stdexcept>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 namespace {
 
@@ -202,4 +202,4 @@ calib::Rig RigFromCamera(const PinholeCamera& camera, std::optional<double> corn
   return rig;
 }
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

@@ -1,19 +1,19 @@
-// Calibration images (analysis/render_calibration.h), checked with OpenCV's own checkerboard
+// Calibration images (synth/render_calibration.h), checked with OpenCV's own checkerboard
 // detector and calibration (cv::findChessboardCorners, cv::cornerSubPix, cv::calibrateCamera:
 // Zhang 2000, "A flexible new technique for camera calibration", IEEE TPAMI 22(11)) as the
 // outside reference.
-#include "analysis/render_calibration.h"
+#include "synth/render_calibration.h"
 
 #include <opencv2/calib3d.hpp>
 #include <opencv2/imgproc.hpp>
 
 #include <gtest/gtest.h>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 namespace {
 
 // cornerSubPix on a synthetic X-corner: ~0.020 px RMS noise-free and 0.081 px with 5 grey
-// levels of noise (../shared/references.md §9, own simulation table). Our images carry read
+// levels of noise (docs/methods.md §9, own simulation table). Our images carry read
 // noise 2 plus shot noise (~3.6 on white): s.d. ~4, so 0.1 px.
 constexpr double kCornerRmsPx = 0.1;
 // With ~0.04 px corner noise over 9 views, the focal length comes back to ~0.1 %; 0.5 % is safe.
@@ -163,4 +163,4 @@ TEST(RenderCalibration, SquareBoardIsRejectedAsAmbiguous) {
 }
 
 }  // namespace
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

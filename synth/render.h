@@ -1,11 +1,11 @@
 #pragma once
 // The clip renderer: draws a wheel (tyre, rim, hub marker) moving in the drop plane in front
-// of a textured wall and floor, as the camera of analysis/camera.h sees it, and exposes it like
+// of a textured wall and floor, as the camera of synth/camera.h sees it, and exposes it like
 // a high-speed camera: motion blur, vignetting, lighting flicker, shot and read noise, 8 bits.
 // It animates a simulated drop (analysis/forward_model.h) and reports, per frame, where the
 // marker centre was drawn: known-answer clips for the tracker and the analysis.
 //
-// Frames and conventions: those of analysis/camera.h (world x_m right, y_m up, z_m towards the
+// Frames and conventions: those of synth/camera.h (world x_m right, y_m up, z_m towards the
 // camera; drop plane z_m = 0, floor y_m = 0; OpenCV pixel convention).
 //
 // Radiance unit: the grey level a pixel at the image centre would record, noise-free, with the
@@ -54,11 +54,11 @@
 #include <string>
 #include <vector>
 
-#include "analysis/camera.h"
 #include "analysis/forward_model.h"
-#include "analysis/video_out.h"
+#include "media/video_out.h"
+#include "synth/camera.h"
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 enum class MarkerShape { kQuadrant, kDot };
 // "quadrant", "dot".
@@ -184,17 +184,18 @@ struct FrameTruth {
 };
 
 // The frame truth for frame `frame` of a clip at `capture_fps`.
-FrameTruth TruthOfFrame(const SceneRenderer& renderer, const Trajectory& trajectory, int frame, double capture_fps);
+FrameTruth TruthOfFrame(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frame,
+                        double capture_fps);
 
 // The sub-frame poses of frame `frame` (see "Motion blur" above).
-std::vector<WheelPose> SubframePoses(const Trajectory& trajectory, int frame, double capture_fps,
+std::vector<WheelPose> SubframePoses(const analysis::Trajectory& trajectory, int frame, double capture_fps,
                                      const ExposureSettings& exposure);
 
 // Renders frames 0..frames-1 of a clip of `trajectory` (clip clock: frame i at i / capture_fps)
 // into `sink` and returns their truth. `noise_seed` seeds the clip's own std::mt19937_64;
 // `add_noise` false renders noise-free frames. Deterministic for a given seed.
-std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const Trajectory& trajectory, int frames,
+std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frames,
                                    double capture_fps, const ExposureSettings& exposure, bool add_noise,
-                                   uint64_t noise_seed, FrameSink& sink);
+                                   uint64_t noise_seed, media::FrameSink& sink);
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

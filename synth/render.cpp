@@ -1,4 +1,4 @@
-#include "analysis/render.h"
+#include "synth/render.h"
 
 #include <opencv2/imgproc.hpp>
 
@@ -11,7 +11,7 @@
 #include <sstream>
 #include <stdexcept>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 namespace {
 
@@ -517,11 +517,12 @@ const std::vector<float>& StandardNormalTable() {
   return table;
 }
 
-FrameTruth TruthOfFrame(const SceneRenderer& renderer, const Trajectory& trajectory, int frame, double capture_fps) {
+FrameTruth TruthOfFrame(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frame,
+                        double capture_fps) {
   FrameTruth truth;
   truth.frame = frame;
   truth.t_s = frame / capture_fps;
-  const HubState s = trajectory.At(truth.t_s);
+  const analysis::HubState s = trajectory.At(truth.t_s);
   truth.x_m = s.x_m;
   truth.y_m = s.y_m;
   truth.spin_rad = s.spin_angle_rad;
@@ -535,22 +536,22 @@ FrameTruth TruthOfFrame(const SceneRenderer& renderer, const Trajectory& traject
   return truth;
 }
 
-std::vector<WheelPose> SubframePoses(const Trajectory& trajectory, int frame, double capture_fps,
+std::vector<WheelPose> SubframePoses(const analysis::Trajectory& trajectory, int frame, double capture_fps,
                                      const ExposureSettings& exposure) {
   const double t_mid = frame / capture_fps;
   std::vector<WheelPose> poses;
   for (int j = 0; j < exposure.subframes; ++j) {
     const double t =
         exposure.subframes == 1 ? t_mid : t_mid + ((j + 0.5) / exposure.subframes - 0.5) * exposure.exposure_s;
-    const HubState s = trajectory.At(t);
+    const analysis::HubState s = trajectory.At(t);
     poses.push_back({s.x_m, s.y_m, s.spin_angle_rad});
   }
   return poses;
 }
 
-std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const Trajectory& trajectory, int frames,
+std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frames,
                                    double capture_fps, const ExposureSettings& exposure, bool add_noise,
-                                   uint64_t noise_seed, FrameSink& sink) {
+                                   uint64_t noise_seed, media::FrameSink& sink) {
   if (auto msg = ValidateExposure(exposure, capture_fps)) throw std::invalid_argument("exposure: " + *msg);
   if (frames < 1) throw std::invalid_argument("a clip needs at least one frame (got " + std::to_string(frames) + ")");
   std::mt19937_64 rng(noise_seed);
@@ -565,4 +566,4 @@ std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const Trajecto
   return truth;
 }
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

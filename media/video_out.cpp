@@ -1,4 +1,4 @@
-#include "analysis/video_out.h"
+#include "media/video_out.h"
 
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/videoio.hpp>
@@ -13,7 +13,7 @@
 #include <sstream>
 #include <stdexcept>
 
-namespace dropfit::analysis {
+namespace dropfit::media {
 
 namespace {
 
@@ -323,4 +323,4 @@ void MjpgAviWriter::Close() {
   if (std::fclose(f) != 0) throw std::runtime_error("cannot finish '" + path_.string() + "'");
 }
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::media

@@ -1,4 +1,6 @@
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
+
+#include "media/files.h"
 
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
@@ -11,19 +13,9 @@
 #include <stdexcept>
 #include <system_error>
 
-namespace dropfit::tracker {
+namespace dropfit::media {
 
 namespace {
-
-std::string Lower(std::string s) {
-  std::transform(s.begin(), s.end(), s.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
-  return s;
-}
-
-bool IsImageExtension(const std::filesystem::path& p) {
-  const std::string ext = Lower(p.extension().string());
-  return ext == ".png" || ext == ".tif" || ext == ".tiff" || ext == ".bmp" || ext == ".jpg" || ext == ".jpeg";
-}
 
 // The last run of decimal digits in the file's stem, if any.
 std::optional<long long> LastNumber(const std::string& stem) {
@@ -141,9 +133,8 @@ class ImageFolderSource final : public FrameSource {
     info_.codec = "images";
     files_ = ListNumberedImages(folder);
     if (files_.empty()) {
-      throw std::runtime_error(folder.string() +
-                               ": holds no numbered image files (.png, .tif, .tiff, .bmp, .jpg, .jpeg with a number "
-                               "in the name, e.g. frame_000123.png)");
+      throw std::runtime_error(folder.string() + ": holds no numbered image files (" + ImageExtensionsText() +
+                               " with a number in the name, e.g. frame_000123.png)");
     }
     first_number_ = files_.front().number;
     const long long span = files_.back().number - first_number_ + 1;
@@ -224,7 +215,7 @@ std::vector<NumberedFile> ListNumberedImages(const std::filesystem::path& folder
   if (ec) throw std::runtime_error(folder.string() + ": cannot be listed (" + ec.message() + ")");
   std::map<long long, std::filesystem::path> by_number;
   for (const auto& entry : it) {
-    if (!entry.is_regular_file() || !IsImageExtension(entry.path())) continue;
+    if (!entry.is_regular_file() || !IsImageFile(entry.path())) continue;
     const auto number = LastNumber(entry.path().stem().string());
     if (!number) continue;
     auto [pos, inserted] = by_number.emplace(*number, entry.path());
@@ -254,4 +245,4 @@ std::unique_ptr<FrameSource> FrameSource::Open(const std::filesystem::path& clip
   return std::make_unique<VideoSource>(clip);
 }
 
-}  // namespace dropfit::tracker
+}  // namespace dropfit::media

@@ -1,4 +1,4 @@
-#include "analysis/fit_synthetic.h"
+#include "synth/fit_synthetic.h"
 
 #include <algorithm>
 #include <cmath>
@@ -6,7 +6,7 @@
 #include <sstream>
 #include <stdexcept>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptions& o) {
   std::ostringstream m;
@@ -24,28 +24,28 @@ std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptio
   return m.str();
 }
 
-std::vector<double> TyreLikeLawParams(LawId law) {
+std::vector<double> TyreLikeLawParams(analysis::LawId law) {
   switch (law) {
-    case LawId::kKelvinVoigt:
+    case analysis::LawId::kKelvinVoigt:
       return {2e5, 300.0};
-    case LawId::kHuntCrossley:
+    case analysis::LawId::kHuntCrossley:
       return {2.5e7, 1.7, 0.2};
-    case LawId::kHertz:
+    case analysis::LawId::kHertz:
       return {1e7, 1.5, 0.15};
-    case LawId::kBilinear:
+    case analysis::LawId::kBilinear:
       return {1e5, 4e5, 0.006, 200.0};
-    case LawId::kVolumetric:
+    case analysis::LawId::kVolumetric:
       return {2.5e7, 0.2};
   }
   return {};
 }
 
-TreadGeometry TyreLikeTread() { return MakeTreadGeometry(0.3, 0.2, 0.0); }
+analysis::TreadGeometry TyreLikeTread() { return analysis::MakeTreadGeometry(0.3, 0.2, 0.0); }
 
-DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,
-                              double mass_kg, double onset_height_m, double drop_m, double end_time_s,
-                              double gravity_mps2) {
-  DropScenario s;
+analysis::DropScenario MakeDropScenario(analysis::LawId law, const std::vector<double>& law_params,
+                                        const analysis::TreadGeometry& tread, double mass_kg, double onset_height_m,
+                                        double drop_m, double end_time_s, double gravity_mps2) {
+  analysis::DropScenario s;
   s.setup.law = law;
   s.setup.tread = tread;
   s.setup.mass_kg = mass_kg;
@@ -58,7 +58,7 @@ DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, 
   return s;
 }
 
-std::vector<double> SampleHeights(const Trajectory& truth, double t0_s, int frames, double capture_fps,
+std::vector<double> SampleHeights(const analysis::Trajectory& truth, double t0_s, int frames, double capture_fps,
                                   double noise_sd_m, std::uint64_t seed) {
   std::mt19937_64 rng(seed);
   std::normal_distribution<double> noise(0.0, 1.0);
@@ -70,9 +70,9 @@ std::vector<double> SampleHeights(const Trajectory& truth, double t0_s, int fram
   return y;
 }
 
-TimeSeries MakeSyntheticTrack(const Trajectory& truth, int frames, double capture_fps, double noise_sd_m,
-                              std::uint64_t seed) {
-  TimeSeries series = MakeTimeSeries(frames, capture_fps);
+analysis::TimeSeries MakeSyntheticTrack(const analysis::Trajectory& truth, int frames, double capture_fps,
+                                        double noise_sd_m, std::uint64_t seed) {
+  analysis::TimeSeries series = analysis::MakeTimeSeries(frames, capture_fps);
   const std::vector<double> y = SampleHeights(truth, 0.0, frames, capture_fps, noise_sd_m, seed);
   for (int i = 0; i < frames; ++i) {
     const size_t k = static_cast<size_t>(i);
@@ -83,18 +83,18 @@ TimeSeries MakeSyntheticTrack(const Trajectory& truth, int frames, double captur
   return series;
 }
 
-SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& scenario,
+SyntheticClip MakeSyntheticClip(const std::string& name, const analysis::DropScenario& scenario,
                                 const SyntheticClipOptions& options) {
   if (const auto e = ValidateSyntheticClipOptions(options)) throw std::invalid_argument("MakeSyntheticClip: " + *e);
   if (const std::string e = Validate(scenario); !e.empty()) throw std::invalid_argument("MakeSyntheticClip: " + e);
-  SyntheticClip out{FitClip{}, SimulateDrop(scenario)};
-  const Trajectory& truth = out.truth;
+  SyntheticClip out{analysis::FitClip{}, analysis::SimulateDrop(scenario)};
+  const analysis::Trajectory& truth = out.truth;
   const double g = scenario.setup.gravity_mps2;
   const double dt = 1.0 / options.capture_fps;
   const double onset = scenario.onset_height_m;
   const double flight_s = options.max_flight_samples * dt;
 
-  FitClip& clip = out.clip;
+  analysis::FitClip& clip = out.clip;
   clip.clip = name;
   clip.drop_height_m = options.drop_height_m;
   clip.mass_kg = scenario.setup.mass_kg;
@@ -112,16 +112,16 @@ SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& sce
   const auto& impacts = truth.impacts();
   std::vector<double> apex(impacts.size());
   for (size_t j = 0; j < impacts.size(); ++j) {
-    const ImpactTruth& i = impacts[j];
+    const analysis::ImpactTruth& i = impacts[j];
     apex[j] = g > 0.0 ? i.t_level_s + i.rebound_speed_mps / g : i.t_level_s + flight_s;
   }
   for (size_t j = 0; j < impacts.size() && static_cast<int>(clip.windows.size()) < options.max_bounces; ++j) {
-    const ImpactTruth& i = impacts[j];
+    const analysis::ImpactTruth& i = impacts[j];
     if (!i.complete || !std::isfinite(i.t_level_s) || !std::isfinite(i.t_separation_s)) continue;
     if (i.t_level_s + 10.0 * dt > scenario.end_time_s) continue;  // too little rising flight
     const double lo = std::max(j == 0 ? scenario.start_time_s : apex[j - 1], i.t_contact_s - flight_s);
     const double hi = std::min(apex[j], i.t_level_s + flight_s);
-    FitWindow w;
+    analysis::FitWindow w;
     w.bounce_index = static_cast<int>(j);
     double lowest = onset;
     for (int k = 0; k < frames; ++k) {
@@ -132,7 +132,7 @@ SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& sce
     }
     if (w.t_s.size() < 10) continue;
     w.start_time_s = w.t_s.front();
-    const HubState s0 = truth.At(w.start_time_s);
+    const analysis::HubState s0 = truth.At(w.start_time_s);
     // Imitate a flight-parabola estimate: close to, not at, the truth.
     w.start_height_m = s0.y_m + 1e-4;
     w.start_velocity_mps = s0.vy_mps * 1.001;
@@ -149,4 +149,4 @@ SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& sce
   return out;
 }
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

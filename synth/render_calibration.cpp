@@ -1,4 +1,4 @@
-#include "analysis/render_calibration.h"
+#include "synth/render_calibration.h"
 
 #include <opencv2/calib3d.hpp>
 
@@ -9,7 +9,7 @@
 #include <sstream>
 #include <stdexcept>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 namespace {
 
@@ -275,4 +275,4 @@ std::vector<CalibrationImage> RenderCalibrationImages(const SceneRenderer& scene
   return images;
 }
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

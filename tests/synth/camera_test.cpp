@@ -1,7 +1,7 @@
-// The renderer's camera (analysis/camera.h) against OpenCV's projectPoints, the reference
+// The renderer's camera (synth/camera.h) against OpenCV's projectPoints, the reference
 // implementation of the lens model it follows (OpenCV 4.6 calib3d documentation, the
 // projectPoints formula; Brown 1966 for the decentring terms).
-#include "analysis/camera.h"
+#include "synth/camera.h"
 
 #include <opencv2/calib3d.hpp>
 
@@ -9,7 +9,7 @@
 
 #include <random>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 namespace {
 
 // Both sides evaluate the same closed form in double precision; 1e-9 px leaves room for
@@ -118,4 +118,4 @@ TEST(Camera, BadSetUpIsRejectedWithTheFieldAndRange) {
 }
 
 }  // namespace
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

@@ -1,7 +1,7 @@
-// Clip writers (analysis/video_out.h). The reference reader is OpenCV's cv::VideoCapture
+// Clip writers (media/video_out.h). The reference reader is OpenCV's cv::VideoCapture
 // (FFmpeg backend), the library the tracker reads clips with; the JPEG reference is
 // cv::imdecode of the very bytes we stored.
-#include "analysis/video_out.h"
+#include "media/video_out.h"
 
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
@@ -12,7 +12,7 @@
 #include <filesystem>
 #include <random>
 
-namespace dropfit::analysis {
+namespace dropfit::media {
 namespace {
 
 namespace fs = std::filesystem;
@@ -40,7 +40,7 @@ cv::Mat TestFrame(int i, cv::Size size, std::mt19937_64& rng) {
 // FFmpeg's MJPEG decoder and libjpeg (cv::imdecode) use different inverse DCTs whose rounding
 // differs by one grey level; a corrupt or misplaced frame differs by tens of levels.
 constexpr double kIdctRoundingGrey = 1.0;
-// JPEG quality 90 changes a grey level by at most ~14 (deps.md, measured on noisy frames).
+// JPEG quality 90 changes a grey level by at most ~14 (docs/platform.md, "Codecs", measured on noisy frames).
 constexpr double kJpegMaxErrorGrey = 20.0;
 
 TEST(VideoOut, EveryMjpgFrameReadsBackThroughOpenCvAndDecodesCleanly) {
@@ -135,4 +135,4 @@ TEST(VideoOut, FrameOfTheWrongSizeIsRejected) {
 }
 
 }  // namespace
-}  // namespace dropfit::analysis
+}  // namespace dropfit::media

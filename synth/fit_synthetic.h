@@ -16,7 +16,7 @@
 #include "analysis/law_fit.h"
 #include "analysis/time_series.h"
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 // Fields (ranges in brackets):
 //   capture_fps            sampling rate of the hub track (0, 1e6] frames/s.
@@ -42,38 +42,39 @@ std::optional<std::string> ValidateSyntheticClipOptions(const SyntheticClipOptio
 
 // A synthetic clip and the truth behind it.
 struct SyntheticClip {
-  FitClip clip;
-  Trajectory truth;  // the simulated drop
+  analysis::FitClip clip;
+  analysis::Trajectory truth;  // the simulated drop
 };
 
 // Tyre-like truths shared by the fit tests and bench/fit_bench, so both judge the same cases:
 // per law, parameters in ParameterNames order giving contacts of 10-20 ms and 5-15 mm at 1-3 m/s
 // for a 10 kg drop, on a cylinder tread of width 0.2 m at free radius 0.3 m.
-std::vector<double> TyreLikeLawParams(LawId law);
-TreadGeometry TyreLikeTread();
+std::vector<double> TyreLikeLawParams(analysis::LawId law);
+analysis::TreadGeometry TyreLikeTread();
 
 // A drop from rest: the hub released at start time 0 from drop_m above the onset height (the
 // hub height at first contact), simulated until end_time_s.
-DropScenario MakeDropScenario(LawId law, const std::vector<double>& law_params, const TreadGeometry& tread,
-                              double mass_kg, double onset_height_m, double drop_m, double end_time_s,
-                              double gravity_mps2 = kStandardGravityMps2);
+analysis::DropScenario MakeDropScenario(analysis::LawId law, const std::vector<double>& law_params,
+                                        const analysis::TreadGeometry& tread, double mass_kg, double onset_height_m,
+                                        double drop_m, double end_time_s,
+                                        double gravity_mps2 = analysis::kStandardGravityMps2);
 
 // Heights of `truth` at t0_s + k / capture_fps, k = 0..frames-1, each plus noise_sd_m x N(0, 1)
 // drawn in frame order from std::mt19937_64(seed) (no noise drawn when noise_sd_m is 0).
-std::vector<double> SampleHeights(const Trajectory& truth, double t0_s, int frames, double capture_fps,
+std::vector<double> SampleHeights(const analysis::Trajectory& truth, double t0_s, int frames, double capture_fps,
                                   double noise_sd_m, std::uint64_t seed);
 
 // The measured track the kinematics (analysis/kinematics.h) would receive from a perfect
 // tracker with white position noise on the height: frames 0..frames-1 at t = frame /
 // capture_fps, all valid, x_m the truth's, y_m from SampleHeights. For tests of the real
 // input path (kinematics, MakeFitClip) without video.
-TimeSeries MakeSyntheticTrack(const Trajectory& truth, int frames, double capture_fps, double noise_sd_m,
-                              std::uint64_t seed);
+analysis::TimeSeries MakeSyntheticTrack(const analysis::Trajectory& truth, int frames, double capture_fps,
+                                        double noise_sd_m, std::uint64_t seed);
 
 // Simulates `scenario` and builds the fitter's input. Throws std::invalid_argument for an
 // invalid scenario or options (message from the validators), std::runtime_error when the
 // simulated drop has no complete bounce.
-SyntheticClip MakeSyntheticClip(const std::string& name, const DropScenario& scenario,
+SyntheticClip MakeSyntheticClip(const std::string& name, const analysis::DropScenario& scenario,
                                 const SyntheticClipOptions& options);
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

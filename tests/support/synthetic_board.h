@@ -7,7 +7,7 @@
 // axis is smoothed with a Gaussian whose width is the optical blur plus the pixel's box (variance
 // 1/12 px^2), carried into board units by the local derivative of the mapping; the checker is the
 // product of the two smoothed waves (the X-corner model erf(u/(sqrt2 s)) erf(v/(sqrt2 s)) of
-// ../shared/references.md §9). Gaussian noise is added, then the image is rounded to 8 bits.
+// docs/methods.md §9). Gaussian noise is added, then the image is rounded to 8 bits.
 
 #include <opencv2/calib3d.hpp>
 #include <opencv2/core.hpp>
@@ -18,7 +18,7 @@
 
 #include "calib/rig.h"
 
-namespace dropfit::calib::testing {
+namespace dropfit::test {
 
 struct SyntheticCamera {
   cv::Size size{1024, 768};
@@ -36,8 +36,8 @@ struct RenderSettings {
 
 // Board pose in the camera for a board whose centre sits on the ray through pixel (u, v) at
 // depth z_m, tilted by (tilt_x, tilt_y) and turned in its plane by roll (radians).
-inline void PoseLookingAt(const SyntheticCamera& cam, const BoardSpec& b, double u, double v, double z_m, double tilt_x,
-                          double tilt_y, double roll, cv::Vec3d& rvec, cv::Vec3d& tvec) {
+inline void PoseLookingAt(const SyntheticCamera& cam, const calib::BoardSpec& b, double u, double v, double z_m,
+                          double tilt_x, double tilt_y, double roll, cv::Vec3d& rvec, cv::Vec3d& tvec) {
   const cv::Matx33d rx(1, 0, 0, 0, std::cos(tilt_x), -std::sin(tilt_x), 0, std::sin(tilt_x), std::cos(tilt_x));
   const cv::Matx33d ry(std::cos(tilt_y), 0, std::sin(tilt_y), 0, 1, 0, -std::sin(tilt_y), 0, std::cos(tilt_y));
   const cv::Matx33d rz(std::cos(roll), -std::sin(roll), 0, std::sin(roll), std::cos(roll), 0, 0, 0, 1);
@@ -50,8 +50,8 @@ inline void PoseLookingAt(const SyntheticCamera& cam, const BoardSpec& b, double
 }
 
 // True when the whole board with its border projects inside the image with `border_px` to spare.
-inline bool BoardInView(const SyntheticCamera& cam, const BoardSpec& b, const cv::Vec3d& rvec, const cv::Vec3d& tvec,
-                        double margin_squares, double border_px) {
+inline bool BoardInView(const SyntheticCamera& cam, const calib::BoardSpec& b, const cv::Vec3d& rvec,
+                        const cv::Vec3d& tvec, double margin_squares, double border_px) {
   const double s = b.square_m, m = (1 + margin_squares) * s;
   std::vector<cv::Point3d> pts;
   for (int k = 0; k <= 20; ++k) {
@@ -73,8 +73,8 @@ inline bool BoardInView(const SyntheticCamera& cam, const BoardSpec& b, const cv
   return true;
 }
 
-inline cv::Mat RenderBoard(const SyntheticCamera& cam, const BoardSpec& b, const cv::Vec3d& rvec, const cv::Vec3d& tvec,
-                           const RenderSettings& rs, std::mt19937_64& rng) {
+inline cv::Mat RenderBoard(const SyntheticCamera& cam, const calib::BoardSpec& b, const cv::Vec3d& rvec,
+                           const cv::Vec3d& tvec, const RenderSettings& rs, std::mt19937_64& rng) {
   const int w = cam.size.width, h = cam.size.height;
   std::vector<cv::Point2d> px;
   px.reserve(static_cast<size_t>(w) * h);
@@ -136,4 +136,4 @@ inline cv::Mat RenderBoard(const SyntheticCamera& cam, const BoardSpec& b, const
   return out;
 }
 
-}  // namespace dropfit::calib::testing
+}  // namespace dropfit::test

@@ -2,18 +2,18 @@
 // Frames of one clip, as 8-bit grey images, from a video file or a folder of numbered images.
 //
 // Video files are read through OpenCV's FFmpeg backend (cv::VideoCapture with CAP_FFMPEG).
-// `read()` always returns 3-channel BGR there, even for grey files (../shared/deps.md), so every
+// `read()` always returns 3-channel BGR there, even for grey files (docs/platform.md, "Video reading"), so every
 // frame is converted with cv::cvtColor(BGR2GRAY); that conversion counts as part of decoding.
 //
-// Image folders: every file whose extension is .png, .tif, .tiff, .bmp, .jpg or .jpeg (any case)
-// and whose name holds a number is a frame. The frame index is the file's number minus the
+// Image folders: every image file (media/files.h: one list of extensions for every input) whose
+// name holds a number is a frame. The frame index is the file's number minus the
 // smallest number in the folder (the numbering may start anywhere); when names hold several
 // numbers, the LAST one counts ("cam2_take3_000123.png" is number 123). A number missing from the
 // sequence is a frame that cannot be read: Read() reports it as an error and the clip goes on.
 // Colour images are converted to grey; 16-bit images are scaled to 8 bits (value / 257) and
 // the source says so in its warnings.
 //
-// Faults, per ../shared/style.md:
+// Faults, per DEVELOPERS.md ("Conventions": three ways to fail):
 // - a clip that cannot be opened at all (missing path, an empty file, not a video, a folder
 //   without numbered images, no frame decodes) -> FrameSource::Open throws std::runtime_error
 //   naming the file and saying what to do;
@@ -32,7 +32,7 @@
 #include <string>
 #include <vector>
 
-namespace dropfit::tracker {
+namespace dropfit::media {
 
 struct FrameSourceInfo {
   std::string path;                     // the clip as given
@@ -82,4 +82,4 @@ struct NumberedFile {
 // when the folder cannot be listed or two files carry the same number.
 std::vector<NumberedFile> ListNumberedImages(const std::filesystem::path& folder);
 
-}  // namespace dropfit::tracker
+}  // namespace dropfit::media

@@ -1,4 +1,4 @@
-#include "tracker/synthetic_marker.h"
+#include "tests/support/synthetic_marker.h"
 
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
@@ -7,10 +7,10 @@
 #include <cmath>
 #include <stdexcept>
 
-namespace dropfit::tracker {
+namespace dropfit::test {
 
 cv::Mat RenderSyntheticMarker(cv::Size size, cv::Point2d centre_px, const SyntheticMarkerOptions& o, cv::RNG& rng) {
-  if (o.kind != MarkerKind::kQuadrant && o.kind != MarkerKind::kDot)
+  if (o.kind != tracker::MarkerKind::kQuadrant && o.kind != tracker::MarkerKind::kDot)
     throw std::invalid_argument("synthetic marker: kind must be quadrant or dot, not " + ToString(o.kind));
   if (!(o.radius_px > 0) || o.supersample < 1 || o.motion_steps < 1)
     throw std::invalid_argument("synthetic marker: radius, supersample and motion_steps must be positive");
@@ -20,7 +20,7 @@ cv::Mat RenderSyntheticMarker(cv::Size size, cv::Point2d centre_px, const Synthe
   auto ideal = [&](double x, double y) {
     const double dx = x - centre_px.x, dy = y - centre_px.y;
     if (dx * dx + dy * dy > o.radius_px * o.radius_px) return o.background;
-    if (o.kind == MarkerKind::kDot) return dot_level;
+    if (o.kind == tracker::MarkerKind::kDot) return dot_level;
     const double a = cos_r * dx + sin_r * dy, b = -sin_r * dx + cos_r * dy;
     return (a >= 0) == (b >= 0) ? o.dark : o.bright;
   };
@@ -69,4 +69,4 @@ cv::Mat RenderSyntheticMarker(cv::Size size, cv::Point2d centre_px, const Synthe
   return out;
 }
 
-}  // namespace dropfit::tracker
+}  // namespace dropfit::test

@@ -29,7 +29,7 @@
 
 #include "calib/rig.h"
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 struct CameraIntrinsics {
   cv::Size image_size{800, 640};  // [px]
@@ -106,4 +106,4 @@ double MetresPerPixelAtCentre(const PinholeCamera& camera);
 calib::Rig RigFromCamera(const PinholeCamera& camera, std::optional<double> corner_height_m,
                          std::optional<double> capture_fps);
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

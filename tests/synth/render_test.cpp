@@ -1,20 +1,20 @@
-// The clip renderer (analysis/render.h): where it draws the marker, measured independently of
+// The clip renderer (synth/render.h): where it draws the marker, measured independently of
 // the renderer by intensity moments on the rendered frame, its exposure model and determinism.
 //
 // Centre measurement (the independent check). The first moments of a background-subtracted
 // intensity image give the centroid of the drawn shape (centre of gravity; e.g. van Assen et
-// al. 2002, and ../shared/references.md §9). For a dot the centroid is the centre of the dot;
+// al. 2002, and docs/methods.md §9). For a dot the centroid is the centre of the dot;
 // for the quadrant marker the white quarters are two opposite quarters of a disc, a shape
 // symmetric under a half turn about the centre, so their centroid is the centre as well (the
 // black quarters merge with the black cap, which is subtracted as background). The moment
 // window stays inside the hub cap, whose level is measured on the frame itself.
-#include "analysis/render.h"
+#include "synth/render.h"
 
 #include <gtest/gtest.h>
 
 #include <cmath>
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 namespace {
 
 // Requirement: the drawn centre known to < 0.01 px. The moments themselves carry sampling
@@ -124,9 +124,9 @@ TEST(Render, DrawnMarkerCentreMatchesTheTruthByIntensityMoments) {
 }
 
 // A simple bouncing scenario for the clip-level tests.
-Trajectory TestDrop() {
-  DropScenario s;
-  s.setup.law = LawId::kKelvinVoigt;
+analysis::Trajectory TestDrop() {
+  analysis::DropScenario s;
+  s.setup.law = analysis::LawId::kKelvinVoigt;
   s.setup.mass_kg = 5.0;
   s.law_params = {4e4, 100.0};
   s.onset_height_m = 0.2;
@@ -136,10 +136,10 @@ Trajectory TestDrop() {
   s.start_x_m = 0.2;
   s.drift_speed_mps = 0.01;
   s.spin_rate_radps = 1.5;
-  return SimulateDrop(s);
+  return analysis::SimulateDrop(s);
 }
 
-class MemorySink : public FrameSink {
+class MemorySink : public media::FrameSink {
  public:
   void Write(const cv::Mat& grey8) override { frames.push_back(grey8.clone()); }
   void Close() override {}
@@ -156,7 +156,7 @@ TEST(Render, MotionBlurredMarkerIsCentredOnTheMidExposurePosition) {
   look.marker = MarkerShape::kDot;
   look.marker_diameter_m = 0.018;
   const SceneRenderer renderer(camera, look, SceneLook{});
-  const Trajectory drop = TestDrop();
+  const analysis::Trajectory drop = TestDrop();
   ExposureSettings e = CleanExposure();
   e.subframes = 8;
   e.exposure_s = 8e-4;
@@ -183,7 +183,7 @@ TEST(Render, SameSeedGivesIdenticalFramesAndAnotherSeedDoesNot) {
   setup.intrinsics.cx_px = 160.3;
   const PinholeCamera camera = MakeCamera(setup);
   const SceneRenderer renderer(camera, WheelLook{}, SceneLook{});
-  const Trajectory drop = TestDrop();
+  const analysis::Trajectory drop = TestDrop();
   MemorySink a, b, c;
   const auto truth_a = RenderClip(renderer, drop, 3, 2000, ExposureSettings{}, true, 7, a);
   const auto truth_b = RenderClip(renderer, drop, 3, 2000, ExposureSettings{}, true, 7, b);
@@ -257,4 +257,4 @@ TEST(Render, BadLooksAreRejectedWithTheFieldAndWhatToDo) {
 }
 
 }  // namespace
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

@@ -25,10 +25,10 @@
 #include <string>
 #include <vector>
 
-#include "analysis/camera.h"
-#include "analysis/render.h"
+#include "synth/camera.h"
+#include "synth/render.h"
 
-namespace dropfit::analysis {
+namespace dropfit::synth {
 
 struct CheckerboardSpec {
   int inner_cols = 9;      // inner corners along b_x; 3..40
@@ -58,4 +58,4 @@ std::vector<CalibrationImage> RenderCalibrationImages(const SceneRenderer& scene
                                                       int lens_views, const ExposureSettings& exposure, bool add_noise,
                                                       uint64_t seed);
 
-}  // namespace dropfit::analysis
+}  // namespace dropfit::synth

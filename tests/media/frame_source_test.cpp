@@ -1,4 +1,4 @@
-#include "tracker/frame_source.h"
+#include "media/frame_source.h"
 
 #include <gtest/gtest.h>
 #include <opencv2/imgcodecs.hpp>
@@ -10,7 +10,7 @@
 #include <filesystem>
 #include <fstream>
 
-namespace dropfit::tracker {
+namespace dropfit::media {
 namespace {
 
 namespace fs = std::filesystem;
@@ -126,4 +126,4 @@ TEST(FrameSource, ClipThatCannotBeOpenedIsRejectedWithItsName) {
 }
 
 }  // namespace
-}  // namespace dropfit::tracker
+}  // namespace dropfit::media
