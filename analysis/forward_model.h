@@ -45,13 +45,11 @@
 #include <type_traits>
 #include <vector>
 
+#include "analysis/constants.h"
 #include "analysis/contact_law.h"
 #include "analysis/geometry.h"
 
 namespace dropfit::analysis {
-
-// Standard acceleration of gravity, exact by definition (3rd CGPM 1901, CR p. 70).
-inline constexpr double kStandardGravityMps2 = 9.80665;
 
 // The fixed (non-differentiated) physical setting of a simulation.
 //   law            which contact law (see contact_law.h).

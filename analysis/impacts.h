@@ -62,6 +62,7 @@
 #include <string>
 #include <vector>
 
+#include "analysis/constants.h"
 #include "analysis/flight_fit.h"
 #include "analysis/time_series.h"
 
@@ -76,7 +77,7 @@ OnsetHeightSource OnsetHeightSourceFromString(const std::string& text);
 struct SegmentationOptions {
   // Expected magnitude of the flight acceleration [m/s^2]: standard gravity 9.80665
   // (3rd CGPM, 1901) unless a local value is given. Range (0, 100].
-  double gravity_mps2 = 9.80665;
+  double gravity_mps2 = kStandardGravityMps2;
   // Onset height [m, same frame as y_m] when known: from the floor and free radius
   // (kGeometry) or from a law fit (kFit). Nothing: estimated from the track (kTrack).
   std::optional<double> onset_height_m;
@@ -167,8 +168,8 @@ struct ImpactFigures {
 };
 
 struct ImpactOptions {
-  double mass_kg = 0.0;           // dropped mass [kg], > 0
-  double gravity_mps2 = 9.80665;  // as SegmentationOptions::gravity_mps2
+  double mass_kg = 0.0;                        // dropped mass [kg], > 0
+  double gravity_mps2 = kStandardGravityMps2;  // as SegmentationOptions::gravity_mps2
 };
 std::optional<std::string> ValidateImpactOptions(const ImpactOptions& options);
 

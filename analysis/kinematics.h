@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "analysis/constants.h"
 #include "analysis/impacts.h"
 #include "analysis/self_checks.h"
 #include "analysis/time_series.h"
@@ -15,8 +16,8 @@
 namespace dropfit::analysis {
 
 struct KinematicsOptions {
-  double mass_kg = 0.0;           // dropped mass [kg], > 0
-  double gravity_mps2 = 9.80665;  // expected gravity [m/s^2], (0, 100]: standard or local
+  double mass_kg = 0.0;                        // dropped mass [kg], > 0
+  double gravity_mps2 = kStandardGravityMps2;  // expected gravity [m/s^2], (0, 100]: standard or local
   // Onset height [m] when known (floor + free radius: kGeometry; a law fit: kFit), its source
   // and standard uncertainty; nothing: a provisional estimate from the track (kTrack).
   std::optional<double> onset_height_m;

@@ -32,23 +32,24 @@
 #include <string>
 #include <vector>
 
+#include "analysis/constants.h"
 #include "analysis/impacts.h"
 
 namespace dropfit::analysis {
 
 struct SelfCheckOptions {
-  double gravity_mps2 = 9.80665;         // expected gravity [m/s^2], (0, 100]
-  std::optional<double> capture_fps;     // rate used [frames/s], to word a rate correction
-  std::optional<double> drop_height_m;   // nominal drop height [m], > 0
-  double gravity_tolerance = 0.005;      // fraction; [0, 0.5]; local g is within about ±0.3 %
-  double tilt_tolerance_deg = 1.0;       // degrees; [0, 45]
-  double impact_speed_tolerance = 0.01;  // fraction (about 2 % in height); [0, 0.5]
+  double gravity_mps2 = kStandardGravityMps2;  // expected gravity [m/s^2], (0, 100]
+  std::optional<double> capture_fps;           // rate used [frames/s], to word a rate correction
+  std::optional<double> drop_height_m;         // nominal drop height [m], > 0
+  double gravity_tolerance = 0.005;            // fraction; [0, 0.5]; local g is within about ±0.3 %
+  double tilt_tolerance_deg = 1.0;             // degrees; [0, 45]
+  double impact_speed_tolerance = 0.01;        // fraction (about 2 % in height); [0, 0.5]
 };
 std::optional<std::string> ValidateSelfCheckOptions(const SelfCheckOptions& options);
 
 struct GravityCheckResult {
   Estimate flight_accel_mps2;  // measured, downward positive; NaN without a flight
-  double expected_mps2 = 9.80665;
+  double expected_mps2 = kStandardGravityMps2;
   double ratio = 0.0;  // measured / expected
   int flights_used = 0;
   double rate_factor = 0.0;   // sqrt(expected / measured): true rate / rate used, if rate is the cause

@@ -19,6 +19,7 @@ namespace {
 
 using dropfit::analysis::ContactSetup;
 using dropfit::analysis::DropScenario;
+using dropfit::analysis::kStandardGravityMps2;
 using dropfit::analysis::LawId;
 
 struct Case {
@@ -58,8 +59,8 @@ int main(int argc, char** argv) {
     scenario.setup = setup;
     scenario.law_params = c.params;
     scenario.onset_height_m = 0.3;
-    scenario.start_height_m = 0.3 + 2.0 * 0.02 - 0.5 * 9.80665 * 0.02 * 0.02;
-    scenario.start_velocity_mps = -2.0 + 9.80665 * 0.02;
+    scenario.start_height_m = 0.3 + 2.0 * 0.02 - 0.5 * kStandardGravityMps2 * 0.02 * 0.02;
+    scenario.start_velocity_mps = -2.0 + kStandardGravityMps2 * 0.02;
     scenario.end_time_s = 0.1;
     const int steps = dropfit::analysis::SimulateDrop(scenario).steps();
     std::vector<double> heights(n);

@@ -21,8 +21,6 @@ namespace {
 namespace fs = std::filesystem;
 using analysis::Estimate;
 
-constexpr double kStandardGravityMps2 = 9.80665;  // 3rd CGPM, 1901
-
 std::string Num(double v) {
   char buf[48];
   std::snprintf(buf, sizeof buf, "%.10g", v);
@@ -172,7 +170,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   ClipResult result;
   result.clip = request.clip_id;
   result.y_origin = calib::ToString(rig.y_origin);
-  const double gravity = options.gravity_mps2.value_or(kStandardGravityMps2);
+  const double gravity = options.gravity_mps2.value_or(analysis::kStandardGravityMps2);
 
   // The onset height comes from the geometry only with the free radius and a floor in the rig
   // (AnalyzeClip warns otherwise); else from the track, then from the best law's fit.

@@ -22,6 +22,8 @@
 #include <string>
 #include <vector>
 
+#include "analysis/constants.h"
+
 namespace dropfit::cli {
 
 // Every setting of a render run: default, meaning, unit, valid range.
@@ -38,7 +40,7 @@ struct RenderCommandOptions {
   double height_jitter_m = 0.001;       // repeat-to-repeat release height spread (uniform +-); [0, 0.05]
   double drift_mps = 0.01;              // horizontal hub speed (decoration); [-1, 1]
   double spin_radps = 1.5;              // wheel rotation rate, counter-clockwise on screen; [-100, 100]
-  double gravity_mps2 = 9.80665;        // local gravity; [9.7, 9.9]
+  double gravity_mps2 = analysis::kStandardGravityMps2;  // local gravity; [9.7, 9.9]
   // Specimen.
   std::string specimen = "synthetic-wheel";  // manifest's specimen column
   double free_radius_m = 0.20;               // tyre outer radius; [0.02, 1]

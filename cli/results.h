@@ -13,6 +13,8 @@
 #include <utility>
 #include <vector>
 
+#include "analysis/constants.h"
+
 namespace dropfit::cli {
 
 using NamedValues = std::vector<std::pair<std::string, double>>;
@@ -42,8 +44,8 @@ struct Curve {
 };
 
 struct GravityCheck {
-  std::optional<double> flight_accel_mps2;  // measured in free flight (downward positive)
-  double expected_mps2 = 9.80665;           // standard gravity (3rd CGPM, 1901) or the user's local g
+  std::optional<double> flight_accel_mps2;                // measured in free flight (downward positive)
+  double expected_mps2 = analysis::kStandardGravityMps2;  // standard gravity or the user's local g
 };
 
 struct ImpactRecord {
