@@ -224,6 +224,38 @@ std::optional<std::string> ValidateImpactOptions(const ImpactOptions& o) {
   return msg.str();
 }
 
+namespace {
+
+// Contact instants at the clip's onset height: where each falling flight's parabola reaches it.
+void SetContactInstants(Segmentation& seg) {
+  for (Bounce& b : seg.bounces) {
+    b.t_contact_s = kNaN;
+    b.t_contact_sd_s = kNaN;
+    if (!b.flight_before || !std::isfinite(seg.onset_height_m)) continue;
+    const PolynomialFit& f = seg.flights[U(*b.flight_before)].y_fit;
+    if (auto t = CrossingTime(f, seg.onset_height_m, Branch::kFalling)) {
+      b.t_contact_s = *t;
+      const double rate = std::abs(f.Derivative(*t));
+      b.t_contact_sd_s = std::hypot(f.ValueSd(*t), seg.onset_height_sd_m) / rate;
+    }
+  }
+}
+
+}  // namespace
+
+void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeightSource source,
+                    Segmentation& segmentation) {
+  if (!std::isfinite(onset_height_m) || !(onset_height_sd_m >= 0.0) || !std::isfinite(onset_height_sd_m))
+    throw std::invalid_argument("SetOnsetHeight: onset height " + std::to_string(onset_height_m) + " m, sd " +
+                                std::to_string(onset_height_sd_m) + " m: both must be finite, the sd >= 0");
+  if (source == OnsetHeightSource::kTrack)
+    throw std::invalid_argument("SetOnsetHeight: the source must be geometry or fit");
+  segmentation.onset_height_m = onset_height_m;
+  segmentation.onset_height_sd_m = onset_height_sd_m;
+  segmentation.onset_height_source = source;
+  SetContactInstants(segmentation);
+}
+
 Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& options) {
   if (auto m = ValidateTimeSeries(s)) throw std::invalid_argument("SegmentBounces: " + *m);
   if (auto m = ValidateSegmentationOptions(options)) throw std::invalid_argument("SegmentBounces: " + *m);
@@ -549,18 +581,7 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
       seg.onset_height_sd_m = sd;
     }
   }
-  // Contact instants at the clip's onset height.
-  for (Bounce& b : seg.bounces) {
-    b.t_contact_s = kNaN;
-    b.t_contact_sd_s = kNaN;
-    if (!b.flight_before || !std::isfinite(seg.onset_height_m)) continue;
-    const PolynomialFit& f = seg.flights[U(*b.flight_before)].y_fit;
-    if (auto t = CrossingTime(f, seg.onset_height_m, Branch::kFalling)) {
-      b.t_contact_s = *t;
-      const double rate = std::abs(f.Derivative(*t));
-      b.t_contact_sd_s = std::hypot(f.ValueSd(*t), seg.onset_height_sd_m) / rate;
-    }
-  }
+  SetContactInstants(seg);
 
   // Notes on gaps.
   for (const Gap& gap : seg.gaps) {

@@ -139,6 +139,13 @@ struct Segmentation {
 // Throws std::invalid_argument for an invalid series or options (the message names them).
 Segmentation SegmentBounces(const TimeSeries& series, const SegmentationOptions& options);
 
+// Sets the onset height of a segmented track (a law fit's, or the geometry's) and the contact
+// instants that follow from it (each falling flight's parabola at that height), leaving the
+// flights and bounces as they are: the re-read after an onset refit (analysis/kinematics.h,
+// ReadAtOnsetHeight). Throws std::invalid_argument for a non-finite height or sd, or source kTrack.
+void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeightSource source,
+                    Segmentation& segmentation);
+
 // A figure and its standard uncertainty; NaN when not available (e.g. no rising flight).
 struct Estimate {
   double value = 0.0;

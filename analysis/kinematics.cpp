@@ -30,14 +30,11 @@ std::optional<std::string> ValidateKinematicsOptions(const KinematicsOptions& o)
   return ValidateSelfCheckOptions(checks);
 }
 
-KinematicsResult AnalyzeKinematics(const TimeSeries& series, const KinematicsOptions& options) {
-  if (auto m = ValidateKinematicsOptions(options)) throw std::invalid_argument("AnalyzeKinematics: " + *m);
-  KinematicsResult result;
-  result.segmentation = SegmentBounces(series, SegmentationFrom(options));
-  if (result.segmentation.failure) {
-    result.failure = result.segmentation.failure;
-    return result;
-  }
+namespace {
+
+// The figures, checks and warnings of a segmented track (the second half of AnalyzeKinematics,
+// and all of ReadAtOnsetHeight).
+void MeasureSegmented(const TimeSeries& series, const KinematicsOptions& options, KinematicsResult& result) {
   result.impacts = MeasureImpacts(series, result.segmentation, ImpactOptions{options.mass_kg, options.gravity_mps2});
   SelfCheckOptions checks;
   checks.gravity_mps2 = options.gravity_mps2;
@@ -61,6 +58,34 @@ KinematicsResult AnalyzeKinematics(const TimeSeries& series, const KinematicsOpt
         "give the free radius with a floor in the rig, or a clip that shows the fall before the impact";
   else if (!any_complete)
     result.warnings.push_back("no complete bounce: every impact lacks a falling or a rising flight in the clip");
+}
+
+}  // namespace
+
+KinematicsResult AnalyzeKinematics(const TimeSeries& series, const KinematicsOptions& options) {
+  if (auto m = ValidateKinematicsOptions(options)) throw std::invalid_argument("AnalyzeKinematics: " + *m);
+  KinematicsResult result;
+  result.segmentation = SegmentBounces(series, SegmentationFrom(options));
+  result.segmentation_passes = 1;
+  if (result.segmentation.failure) {
+    result.failure = result.segmentation.failure;
+    return result;
+  }
+  MeasureSegmented(series, options, result);
+  return result;
+}
+
+KinematicsResult ReadAtOnsetHeight(const TimeSeries& series, const KinematicsResult& measured,
+                                   const KinematicsOptions& options) {
+  if (auto m = ValidateKinematicsOptions(options)) throw std::invalid_argument("ReadAtOnsetHeight: " + *m);
+  if (!options.onset_height_m) throw std::invalid_argument("ReadAtOnsetHeight: no onset height given");
+  if (measured.segmentation.failure || measured.segmentation_passes == 0)
+    throw std::invalid_argument("ReadAtOnsetHeight: the track was not segmented");
+  KinematicsResult result;
+  result.segmentation = measured.segmentation;
+  result.segmentation_passes = measured.segmentation_passes;
+  SetOnsetHeight(*options.onset_height_m, options.onset_height_sd_m, options.onset_height_source, result.segmentation);
+  MeasureSegmented(series, options, result);
   return result;
 }
 

@@ -38,9 +38,21 @@ struct KinematicsResult {
   std::vector<std::string> warnings;
   // Set when the clip could not be analysed (no flight, no impact), with what to check.
   std::optional<std::string> failure;
+  // How many times the track was segmented (and its flights fitted) to make this result: 1 from
+  // AnalyzeKinematics, and still 1 after ReadAtOnsetHeight (which only reads the figures again).
+  int segmentation_passes = 0;
 };
 
 // Throws std::invalid_argument for an invalid series or options.
 KinematicsResult AnalyzeKinematics(const TimeSeries& series, const KinematicsOptions& options);
+
+// The per-bounce figures read again at another onset height (a law fit's, source kFit) without
+// segmenting again: the flights, bounces, noise and gaps of `measured` stay as they are; the
+// contact instants, the impact figures, the self-checks and the warnings are made anew at
+// options.onset_height_m (with its sd and source). `measured` must come from AnalyzeKinematics on
+// the same series and must not have failed. Throws std::invalid_argument for invalid options or
+// when options.onset_height_m is not set.
+KinematicsResult ReadAtOnsetHeight(const TimeSeries& series, const KinematicsResult& measured,
+                                   const KinematicsOptions& options);
 
 }  // namespace dropfit::analysis

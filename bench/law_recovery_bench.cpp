@@ -3,7 +3,7 @@
 // render`'s defaults: 800x640 8-bit grey, ~1 px/mm, 2000 frames/s, 0.2 ms exposure from 4
 // sub-frames, read and shot noise, quadrant marker 30 mm, camera pitch/roll, lens distortion,
 // MJPG q90), tracked and analysed through the per-clip pipeline of `dropfit run`
-// (cli/clip_pipeline.h: AnalyzeClip for the track, then the same kinematics, fit windows and
+// (cli/clip_records.h: AnalyzeClip for the track, then the same kinematics, fit windows and
 // fit options) with the exact rig the renderer writes (rig_exact.json), then
 //   * per clip: all five laws fitted with the geometry known (floor and free radius);
 //   * per law-as-truth: the joint fits over the three heights with the geometry unknown (the
@@ -68,7 +68,7 @@
 #include "analysis/kinematics.h"
 #include "analysis/law_fit.h"
 #include "cli/analyze_command.h"
-#include "cli/clip_pipeline.h"
+#include "cli/clip_records.h"
 #include "cli/manifest.h"
 #include "cli/parallel_for.h"
 #include "cli/render_command.h"
@@ -77,6 +77,7 @@
 #include "cli/track_command.h"
 #include "cli/truth_io.h"
 #include "media/frame_source.h"
+#include "pipeline/clip.h"
 #include "tracker/track.h"
 
 namespace {
@@ -319,7 +320,7 @@ struct ClipJob {
   fs::path dir;
   // Results.
   std::string error;
-  cli::ClipRequest request;
+  pipeline::ClipRequest request;
   calib::Rig rig;
   double fps = 0.0;
   std::vector<cli::TrackRow> track;
@@ -423,12 +424,12 @@ void RunClipJob(ClipJob& job, int bounces, bool retrack, bool white_control) {
     tracker::TrackOptions to;
     to.presmooth_sigma_px = *g_presmooth_px;
     const tracker::Track track = tracker::TrackClip(*source, to);
-    job.track = cli::TrackRowsFromTrack(track, job.rig, job.fps);
+    job.track = cli::TrackRowsFromTrack(track, pipeline::TimeSeriesFromTrack(track, job.rig, job.fps), job.fps);
     job.track_s = Since(t0);
     cli::WriteTrackCsv(track_file, job.track);
   } else {
     const auto t0 = std::chrono::steady_clock::now();
-    const cli::ClipAnalysis a = cli::AnalyzeClip(job.request, job.rig);
+    const cli::ClipAnalysis a = cli::AnalyzeAndRecordClip(job.request, job.rig);
     job.track_s = Since(t0);
     if (a.track.empty()) {
       job.error = "tracking failed";
@@ -441,37 +442,34 @@ void RunClipJob(ClipJob& job, int bounces, bool retrack, bool white_control) {
 
   TrackError(truth.clips[0], job.track, job, white_control);
 
-  // Per-clip fits, geometry known: AnalyzeClip's fit stage.
+  // Per-clip fits, geometry known: the pipeline's measurement (pipeline/clip.h, MeasureClip).
   const auto t0 = std::chrono::steady_clock::now();
   const analysis::TimeSeries series = cli::TimeSeriesFromTrackRows(job.track, job.fps);
-  const analysis::KinematicsResult kin =
-      analysis::AnalyzeKinematics(series, cli::KinematicsOptionsFor(job.request, job.rig, job.fps));
-  if (kin.failure) {
-    job.error = "kinematics: " + *kin.failure;
+  pipeline::MeasureOptions with_fits;
+  with_fits.fit_laws = true;
+  const pipeline::ClipMeasurement known = pipeline::MeasureClip(job.request, job.rig, series, job.fps, with_fits);
+  if (known.kinematics.failure) {
+    job.error = "kinematics: " + *known.kinematics.failure;
     return;
   }
-  const analysis::FitClip known = analysis::MakeFitClip(job.request.clip_id, job.request.drop_height_m.value_or(0.0),
-                                                        job.request.mass_kg, series, kin.segmentation, kin.impacts);
-  if (known.windows.empty()) {
+  if (!known.laws) {
     job.error = "no complete bounce";
     return;
   }
-  job.fits = analysis::FitAllLaws({known}, cli::LawFitOptionsFor(job.request)).fits;
+  job.fits = known.laws->fits;
   job.fit_s = Since(t0);
 
   // The joint stage's input with the floor withheld (the rig as from a board-origin
   // calibration): the onset height is the track's estimate, then fitted.
   calib::Rig no_floor = job.rig;
   no_floor.y_origin = calib::YOrigin::kBoard;
-  const analysis::KinematicsResult kin_u =
-      analysis::AnalyzeKinematics(series, cli::KinematicsOptionsFor(job.request, no_floor, job.fps));
-  if (!kin_u.failure) {
-    job.unknown_clip = analysis::MakeFitClip(job.request.clip_id, job.request.drop_height_m.value_or(0.0),
-                                             job.request.mass_kg, series, kin_u.segmentation, kin_u.impacts);
-  }
+  pipeline::MeasureOptions no_fits;
+  no_fits.fit_laws = false;
+  const pipeline::ClipMeasurement unknown = pipeline::MeasureClip(job.request, no_floor, series, job.fps, no_fits);
+  if (unknown.fit_clip) job.unknown_clip = *unknown.fit_clip;
   char line[256];
   std::snprintf(line, sizeof line, "%s: %d frames, render %.1f s, track %.1f s, fits %.1f s, %zu bounce windows",
-                name.c_str(), job.frames, job.render_s, job.track_s, job.fit_s, known.windows.size());
+                name.c_str(), job.frames, job.render_s, job.track_s, job.fit_s, known.fit_clip->windows.size());
   Log(line);
 }
 
@@ -496,7 +494,7 @@ void RunJointJob(JointJob& job) {
     return;
   }
   const auto t0 = std::chrono::steady_clock::now();
-  job.fit = analysis::FitSpecimen(clips, cli::LawFitOptionsFor(job.clips.front()->request));
+  job.fit = analysis::FitSpecimen(clips, pipeline::LawFitOptionsFor(job.clips.front()->request));
   job.seconds = Since(t0);
   char line[160];
   std::snprintf(line, sizeof line, "%s: joint fits over %zu clips, %.1f s", analysis::ToString(job.law).c_str(),

@@ -8,7 +8,7 @@
 #include <stdexcept>
 
 #include "calib/rig.h"
-#include "cli/clip_pipeline.h"
+#include "cli/clip_records.h"
 #include "cli/exit_status.h"
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
@@ -19,7 +19,6 @@ namespace dropfit::cli {
 namespace {
 
 namespace fs = std::filesystem;
-using analysis::Estimate;
 
 std::string Num(double v) {
   char buf[48];
@@ -30,12 +29,6 @@ std::string Num(double v) {
 int BadUsage(const std::string& message) {
   std::cerr << "dropfit analyze: " << message << "\n";
   return kExitBadUsage;
-}
-
-// value, and its sd beside it under `sd_name`.
-void AddEstimate(NamedValues& extra, const std::string& name, const std::string& sd_name, const Estimate& e) {
-  extra.push_back({name, e.value});
-  extra.push_back({sd_name, e.sd});
 }
 
 std::string PositiveRangeMessage(const std::string& option, double value, double max, const std::string& unit) {
@@ -58,85 +51,6 @@ std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o
   return std::nullopt;
 }
 
-analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps) {
-  const int first_frame = rows.empty() ? 0 : rows.front().frame;
-  analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(rows.size()), fps, first_frame);
-  for (size_t i = 0; i < rows.size(); ++i) {
-    if (rows[i].frame != first_frame + static_cast<int>(i)) {
-      throw std::invalid_argument("track rows are not consecutive frames: row " + std::to_string(i) + " is frame " +
-                                  std::to_string(rows[i].frame) + ", expected " +
-                                  std::to_string(first_frame + static_cast<int>(i)));
-    }
-    if (rows[i].x_m && rows[i].y_m) {
-      series.x_m[i] = *rows[i].x_m;
-      series.y_m[i] = *rows[i].y_m;
-      series.valid[i] = true;
-    }
-  }
-  return series;
-}
-
-void AddKinematicsToResult(const analysis::KinematicsResult& kin, const std::string& clip, ClipResult& result) {
-  const analysis::Segmentation& seg = kin.segmentation;
-  result.gravity_check.expected_mps2 = kin.checks.gravity.expected_mps2;
-  if (std::isfinite(kin.checks.gravity.flight_accel_mps2.value))
-    result.gravity_check.flight_accel_mps2 = kin.checks.gravity.flight_accel_mps2.value;
-  for (const analysis::ImpactFigures& f : kin.impacts) {
-    ImpactRecord r;
-    r.t_contact_s = f.t_contact_s.value;
-    r.impact_speed_mps = f.impact_speed_mps.value;
-    r.rebound_speed_mps = f.rebound_speed_mps.value;
-    r.cor = f.cor.value;
-    r.max_deflection_m = f.max_deflection_m.value;
-    r.onset_height_m = f.onset_height_m;
-    r.onset_height_source = analysis::ToString(f.onset_height_source);
-    r.complete = f.complete;
-    // No law fitted yet: the track-only estimates stand in the contract's fields.
-    r.source = "track";
-    r.t_separation_s = f.t_separation_track_s.value;
-    r.contact_duration_s = f.contact_duration_track_s.value;
-    r.peak_force_n = f.peak_force_track_n.value;
-    NamedValues& x = r.extra;
-    x.push_back({"bounce", static_cast<double>(f.bounce_index)});
-    x.push_back({"t_contact_sd_s", f.t_contact_s.sd});
-    x.push_back({"impact_speed_sd_mps", f.impact_speed_mps.sd});
-    x.push_back({"rebound_speed_sd_mps", f.rebound_speed_mps.sd});
-    x.push_back({"cor_sd", f.cor.sd});
-    x.push_back({"max_deflection_sd_m", f.max_deflection_m.sd});
-    x.push_back({"onset_height_sd_m", f.onset_height_sd_m});
-    AddEstimate(x, "cor_from_apex", "cor_from_apex_sd", f.cor_from_apex);
-    AddEstimate(x, "drop_height_above_onset_m", "drop_height_above_onset_sd_m", f.drop_height_above_onset_m);
-    AddEstimate(x, "rebound_height_above_onset_m", "rebound_height_above_onset_sd_m", f.rebound_height_above_onset_m);
-    AddEstimate(x, "t_separation_track_s", "t_separation_track_sd_s", f.t_separation_track_s);
-    AddEstimate(x, "contact_duration_track_s", "contact_duration_track_sd_s", f.contact_duration_track_s);
-    AddEstimate(x, "peak_force_track_n", "peak_force_track_sd_n", f.peak_force_track_n);
-    x.push_back({"t_peak_force_track_s", f.t_peak_force_track_s});
-    AddEstimate(x, "energy_lost_j", "energy_lost_sd_j", f.energy_lost_j);
-    const analysis::Bounce& b = seg.bounces[static_cast<size_t>(f.bounce_index)];
-    x.push_back({"t_lowest_s", b.t_lowest_s});
-    x.push_back({"y_lowest_m", b.y_lowest_m});
-    result.impacts.push_back(r);
-  }
-  NamedValues& x = result.extra;
-  x.push_back({"noise_sd_m", seg.noise_sd_m});
-  x.push_back({"onset_height_m", seg.onset_height_m});
-  x.push_back({"onset_height_sd_m", seg.onset_height_sd_m});
-  result.info.push_back({"onset_height_source", analysis::ToString(seg.onset_height_source)});
-  x.push_back({"flight_accel_sd_mps2", kin.checks.gravity.flight_accel_mps2.sd});
-  x.push_back({"gravity_ratio", kin.checks.gravity.ratio});
-  x.push_back({"flights", static_cast<double>(seg.flights.size())});
-  if (kin.checks.tilt) {
-    x.push_back({"tilt_deg", kin.checks.tilt->tilt_deg.value});
-    x.push_back({"tilt_sd_deg", kin.checks.tilt->tilt_deg.sd});
-  }
-  if (kin.checks.drop_height) {
-    x.push_back({"expected_impact_speed_mps", kin.checks.drop_height->expected_speed_mps});
-    x.push_back({"implied_drop_height_m", kin.checks.drop_height->implied_height_m});
-  }
-  for (const std::string& w : kin.warnings) result.warnings.push_back(clip + ": " + w);
-  if (kin.failure) result.errors.push_back(clip + ": " + *kin.failure);
-}
-
 int RunAnalyze(const AnalyzeCommandOptions& options) {
   // Everything the command cannot start from is checked before anything is written.
   if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(*message);
@@ -147,8 +61,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   const fs::path clip_path(options.clip);
   std::error_code ec;
 
-  // Track, measure and fit (cli/clip_pipeline.h: the same code as `dropfit run`).
-  ClipRequest request;
+  // Track, measure and fit (pipeline/clip.h: the same code as `dropfit run`).
+  pipeline::ClipRequest request;
   request.clip_path = clip_path;
   request.clip_id = ClipIdOf(clip_path);
   request.mass_kg = options.mass_kg;
@@ -156,13 +70,13 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   request.free_radius_m = options.free_radius_m;
   request.fps_option = options.fps;
   request.gravity_mps2 = options.gravity_mps2;
-  request.marker = options.marker;
-  request.seed = options.seed;
+  request.marker = track_options.marker;
+  request.seed_px = track_options.seed_px;
   // A set-up problem (no capture rate, a rig for another image size) stops the command; a clip
   // that cannot be read is analysed as a failure, with the files saying why.
-  OpenedClip opened = OpenClip(request, rig);
+  pipeline::OpenedClip opened = pipeline::OpenClip(request, rig);
   if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
-  const std::optional<CaptureRate>& rate = opened.rate;
+  const std::optional<pipeline::CaptureRate> rate = opened.rate;
   const fs::path out(options.out_dir);
   fs::create_directories(out, ec);
   if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
@@ -180,7 +94,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   {
     std::ostringstream text;
     text << "mass_kg=" << Num(options.mass_kg);
-    if (rate) text << " fps=" << Num(rate->fps) << " (" << rate->source << ")";
+    if (rate) text << " fps=" << Num(rate->fps) << " (" << pipeline::ToString(rate->source) << ")";
     text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
@@ -192,7 +106,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
     result.info.push_back({"analyze_options", text.str()});
   }
 
-  ClipAnalysis analysis = AnalyzeClip(request, rig, opened);
+  ClipAnalysis analysis = AnalyzeAndRecordClip(request, rig, std::move(opened));
   for (auto& entry : result.info) analysis.result.info.push_back(entry);
   result = std::move(analysis.result);
   const std::vector<TrackRow>& rows = analysis.track;

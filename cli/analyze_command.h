@@ -14,7 +14,7 @@
 // Exit status (contract): 0 done (warnings allowed); 1 the clip could not be analysed (no
 // frames, no impact found...), the reason in result.json's errors and on stderr, both files
 // still written; 2 bad options, an unreadable rig, no capture rate known or a rig made for
-// another image size (cli/clip_pipeline.h, OpenClip), nothing written. Frames that cannot be
+// another image size (pipeline/clip.h, OpenClip), nothing written. Frames that cannot be
 // read (a truncated file, a missing or damaged image) are left empty with a warning naming them.
 
 #include <optional>
@@ -45,16 +45,5 @@ std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o
 
 // Returns the contract's exit status.
 int RunAnalyze(const AnalyzeCommandOptions& options);
-
-// The analysis library's time series from track.csv rows (frames consecutive from the first
-// row's; a row without metres is a missing sample). Throws std::invalid_argument when the
-// rows are not consecutive frames or fps is not > 0.
-analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps);
-
-// Fills result.json's analysis fields from a track-only analysis: gravity_check, impacts
-// (contract fields, source "track"; uncertainties and track-only figures beside them as
-// <figure>_sd_<unit> and *_track_*), clip extras (noise_sd_m, onset height, tilt, checks),
-// warnings, and an error when the analysis failed. `clip` prefixes the error.
-void AddKinematicsToResult(const analysis::KinematicsResult& kinematics, const std::string& clip, ClipResult& result);
 
 }  // namespace dropfit::cli

@@ -2,8 +2,6 @@
 
 #include <cmath>
 
-#include "analysis/forward_model.h"
-
 namespace dropfit::cli {
 
 FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
@@ -35,66 +33,23 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
   return r;
 }
 
-FitTrace TraceFit(const analysis::LawFitResult& fit, const std::vector<analysis::FitClip>& clips, int clip_index,
-                  const analysis::LawFitOptions& options) {
-  FitTrace trace;
-  if (fit.failure || clip_index < 0 || static_cast<size_t>(clip_index) >= clips.size()) return trace;
-  const analysis::FitClip& clip = clips[static_cast<size_t>(clip_index)];
-  analysis::ContactSetup setup;
-  setup.law = fit.law;
-  setup.tread = options.tread;
-  setup.mass_kg = clip.mass_kg;
-  setup.gravity_mps2 = options.gravity_mps2;
-  for (const analysis::BounceFitFigures& f : fit.figures) {
-    if (f.clip_index != clip_index) continue;
-    for (const analysis::FitWindow& w : clip.windows) {
-      if (w.bounce_index != f.bounce_index || w.t_s.empty()) continue;
-      std::vector<double> heights(w.t_s.size());
-      const auto status = analysis::SimulateHubHeights<double>(
-          setup, fit.params.data(), fit.onset_height_m, w.start_time_s, f.start_height_m, f.start_velocity_mps,
-          w.t_s.data(), static_cast<int>(w.t_s.size()), heights.data(), nullptr, options.model);
-      if (status != analysis::SimulationStatus::kOk) continue;
-      for (size_t i = 0; i < w.t_s.size(); ++i) {
-        trace.t_s.push_back(w.t_s[i]);
-        trace.y_m.push_back(heights[i]);
-        trace.residual_m.push_back(w.y_m[i] - heights[i]);
-      }
-      // A break between windows so the report does not join them.
-      trace.t_s.push_back(std::nan(""));
-      trace.y_m.push_back(std::nan(""));
-      trace.residual_m.push_back(std::nan(""));
-    }
-  }
-  return trace;
+Curve CorCurve(analysis::LawId law, const pipeline::CorCurvePoints& points) {
+  return {analysis::ToString(law), CurveKind::kCorVsSpeed, points.impact_speed_mps, points.cor};
 }
 
-Curve CorCurve(const analysis::LawFitResult& fit, double mass_kg, double v_lo_mps, double v_hi_mps,
-               const analysis::LawFitOptions& options, int points) {
-  Curve c{analysis::ToString(fit.law), "cor_vs_speed", {}, {}};
-  if (fit.failure || !(v_hi_mps > v_lo_mps) || v_lo_mps <= 0 || options.gravity_mps2 <= 0) return c;
-  for (int i = 0; i < points; ++i) {
-    const double v = v_lo_mps + (v_hi_mps - v_lo_mps) * i / (points - 1);
-    // Released from rest at the apex that gives impact speed v at the onset height.
-    const double apex = fit.onset_height_m + v * v / (2.0 * options.gravity_mps2);
-    const analysis::ImpactTruth t =
-        analysis::PredictImpact(fit.law, fit.params, fit.onset_height_m, mass_kg, 0.0, apex, 0.0, options);
-    c.x.push_back(v);
-    c.y.push_back(t.cor);
-  }
-  return c;
-}
-
-void AddLawFitsToResult(const analysis::LawComparison& laws, const std::vector<analysis::FitClip>& clips,
-                        const analysis::LawFitOptions& options, ClipResult& result) {
-  for (const analysis::LawFitResult& fit : laws.fits) {
+void AddLawFitsToResult(const analysis::LawComparison& laws, const std::vector<pipeline::FitTrace>& traces,
+                        ClipResult& result) {
+  for (size_t i = 0; i < laws.fits.size(); ++i) {
+    const analysis::LawFitResult& fit = laws.fits[i];
     result.fits.push_back(ToFitRecord(fit, 0));
     if (fit.failure) continue;
     const std::string law = analysis::ToString(fit.law);
-    const FitTrace trace = TraceFit(fit, clips, 0, options);
-    result.curves.push_back({law, "trajectory", trace.t_s, trace.y_m});
-    result.curves.push_back({law, "residual", trace.t_s, trace.residual_m});
+    const pipeline::FitTrace trace = i < traces.size() ? traces[i] : pipeline::FitTrace{};
+    result.curves.push_back({law, CurveKind::kTrajectory, trace.t_s, trace.y_m});
+    result.curves.push_back({law, CurveKind::kResidual, trace.t_s, trace.residual_m});
     if (!fit.curves.empty()) {
-      result.curves.push_back({law, "force_deflection", fit.curves.front().deflection_m, fit.curves.front().force_n});
+      result.curves.push_back(
+          {law, CurveKind::kForceDeflection, fit.curves.front().deflection_m, fit.curves.front().force_n});
     }
   }
   if (!laws.best) {

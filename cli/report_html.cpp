@@ -31,7 +31,7 @@ std::string Scaled(double v, double scale, int decimals) {
   return buf;
 }
 
-const Curve* FindCurve(const std::vector<Curve>& curves, const std::string& kind, const std::string& name) {
+const Curve* FindCurve(const std::vector<Curve>& curves, CurveKind kind, const std::string& name) {
   for (const Curve& c : curves) {
     if (c.kind == kind && (name.empty() || c.name == name)) return &c;
   }
@@ -145,11 +145,12 @@ void SpecimenSection(std::ostringstream& html, const SpecimenSummary& sp) {
   FitTable(html, fits, sp.best_law);
 
   Plot cor{"COR against impact speed", "impact speed [m/s]", "COR", {}, {}, 620, 340};
-  if (const Curve* m = FindCurve(sp.curves, "cor_measured", "")) {
+  if (const Curve* m = FindCurve(sp.curves, CurveKind::kCorMeasured, "")) {
     cor.series.push_back({"measured", kMeasuredColour, SeriesStyle::kPoints, m->x, m->y});
   }
   for (const Curve& c : sp.curves) {
-    if (c.kind == "cor_vs_speed") cor.series.push_back({c.name, LawColour(c.name), SeriesStyle::kLine, c.x, c.y});
+    if (c.kind == CurveKind::kCorVsSpeed)
+      cor.series.push_back({c.name, LawColour(c.name), SeriesStyle::kLine, c.x, c.y});
   }
   html << "<div class=\"charts\">" << RenderSvg(cor) << "</div>";
 
@@ -228,7 +229,7 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
   }
   height.series.push_back(measured);
   if (r.best_law) {
-    if (const Curve* c = FindCurve(r.curves, "trajectory", *r.best_law)) {
+    if (const Curve* c = FindCurve(r.curves, CurveKind::kTrajectory, *r.best_law)) {
       height.series.push_back({*r.best_law + " (simulated)", LawColour(*r.best_law), SeriesStyle::kLine, c->x, c->y});
     }
   }
@@ -239,18 +240,18 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
     for (double& x : v) x *= 1e3;
     return v;
   };
-  if (const Curve* c = FindCurve(r.curves, "force_deflection_track", "")) {
+  if (const Curve* c = FindCurve(r.curves, CurveKind::kForceDeflectionTrack, "")) {
     force.series.push_back({"track: m (a + g)", kTrackColour, SeriesStyle::kPoints, to_mm(c->x), c->y});
   }
   for (const Curve& c : r.curves) {
-    if (c.kind == "force_deflection") {
+    if (c.kind == CurveKind::kForceDeflection) {
       force.series.push_back({c.name, LawColour(c.name), SeriesStyle::kLine, to_mm(c.x), c.y});
     }
   }
   // Residuals per law.
   Plot residual{"Residuals per law (measured minus simulated)", "time [s]", "residual [µm]", {}, {}, 620, 340};
   for (const Curve& c : r.curves) {
-    if (c.kind == "residual") {
+    if (c.kind == CurveKind::kResidual) {
       residual.series.push_back({c.name, LawColour(c.name), SeriesStyle::kPoints, c.x, to_mm(to_mm(c.y))});
     }
   }

@@ -52,6 +52,34 @@ std::string CsvText(const std::string& s) {
 
 }  // namespace
 
+std::string ToString(CurveKind kind) {
+  switch (kind) {
+    case CurveKind::kTrajectory:
+      return "trajectory";
+    case CurveKind::kResidual:
+      return "residual";
+    case CurveKind::kForceDeflection:
+      return "force_deflection";
+    case CurveKind::kForceDeflectionTrack:
+      return "force_deflection_track";
+    case CurveKind::kCorVsSpeed:
+      return "cor_vs_speed";
+    case CurveKind::kCorMeasured:
+      return "cor_measured";
+  }
+  return "trajectory";
+}
+
+CurveKind CurveKindFromString(const std::string& text) {
+  std::string valid;
+  for (CurveKind k : {CurveKind::kTrajectory, CurveKind::kResidual, CurveKind::kForceDeflection,
+                      CurveKind::kForceDeflectionTrack, CurveKind::kCorVsSpeed, CurveKind::kCorMeasured}) {
+    if (ToString(k) == text) return k;
+    valid += (valid.empty() ? "" : ", ") + ToString(k);
+  }
+  throw std::invalid_argument("unknown curve kind \"" + text + "\"; valid: " + valid);
+}
+
 std::string FormatNumber(double value) {
   if (!std::isfinite(value)) return {};
   char buf[64];

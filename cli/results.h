@@ -29,17 +29,23 @@ struct TrackRow {
   double quality = 0.0;              // [0, 1]
 };
 
+// What a curve kept for the report shows; it fixes the axes. Written as its text
+// (docs/formats.md, "Curves"):
+//   kTrajectory            "trajectory"             t_s -> y_m of a law's simulated hub height (name = law id)
+//   kResidual              "residual"               t_s -> measured minus simulated y_m (name = law id)
+//   kForceDeflection       "force_deflection"       delta_m -> force_n from a law (name = law id)
+//   kForceDeflectionTrack  "force_deflection_track" delta_m -> force_n from the filtered track (m (a + g))
+//   kCorVsSpeed            "cor_vs_speed"           impact_speed_mps -> cor predicted by a law (name = law id)
+//   kCorMeasured           "cor_measured"           impact_speed_mps -> cor measured (one point per impact)
+enum class CurveKind { kTrajectory, kResidual, kForceDeflection, kForceDeflectionTrack, kCorVsSpeed, kCorMeasured };
+std::string ToString(CurveKind kind);
+// Throws std::invalid_argument naming the text and listing the valid ones.
+CurveKind CurveKindFromString(const std::string& text);
+
 // A sampled curve kept for the report, so `dropfit report` can redraw without re-running.
-// `kind` says what it shows and fixes the axes:
-//   "trajectory"            t_s -> y_m of a law's simulated hub height (name = law id)
-//   "residual"              t_s -> measured minus simulated y_m (name = law id)
-//   "force_deflection"      delta_m -> force_n from a law (name = law id)
-//   "force_deflection_track" delta_m -> force_n from the filtered track (m (a + g))
-//   "cor_vs_speed"          impact_speed_mps -> cor predicted by a law (name = law id)
-//   "cor_measured"          impact_speed_mps -> cor measured (one point per clip)
 struct Curve {
   std::string name;
-  std::string kind;
+  CurveKind kind = CurveKind::kTrajectory;
   std::vector<double> x, y;
 };
 

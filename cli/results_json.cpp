@@ -82,7 +82,7 @@ ordered_json CurvesToJson(const std::vector<Curve>& curves) {
     ordered_json x = ordered_json::array(), y = ordered_json::array();
     for (double v : c.x) x.push_back(Number(v));
     for (double v : c.y) y.push_back(Number(v));
-    a.push_back({{"name", c.name}, {"kind", c.kind}, {"x", x}, {"y", y}});
+    a.push_back({{"name", c.name}, {"kind", ToString(c.kind)}, {"x", x}, {"y", y}});
   }
   return a;
 }
@@ -97,8 +97,8 @@ std::vector<Curve> CurvesFromJson(const json& j) {
   std::vector<Curve> out;
   if (!j.contains("curves")) return out;
   for (const json& c : j.at("curves")) {
-    out.push_back(
-        {c.at("name").get<std::string>(), c.at("kind").get<std::string>(), NumbersOf(c.at("x")), NumbersOf(c.at("y"))});
+    out.push_back({c.at("name").get<std::string>(), CurveKindFromString(c.at("kind").get<std::string>()),
+                   NumbersOf(c.at("x")), NumbersOf(c.at("y"))});
   }
   return out;
 }

@@ -13,7 +13,7 @@
 #include <thread>
 
 #include "cli/atomic_write.h"
-#include "cli/clip_pipeline.h"
+#include "cli/clip_records.h"
 #include "cli/exit_status.h"
 #include "cli/joint_stage.h"
 #include "cli/manifest.h"
@@ -85,45 +85,151 @@ class ProgressDisplay {
 
 struct ClipSlot {
   const ManifestRow* row = nullptr;
+  pipeline::ClipRequest request;
   ClipResult result;
   std::vector<TrackRow> track;
+  std::optional<pipeline::ClipMeasurement> measurement;
   bool analysed = false;
   bool reused = false;
   double seconds = 0.0;
 };
 
+// What the run starts from: the manifest, the rig and the output folder, all checked before any
+// clip is touched.
+struct RunStart {
+  Manifest manifest;
+  calib::Rig rig;
+  std::filesystem::path out;
+  std::string rig_hash;
+  int jobs = 1;
+};
+
+// Returns the message (exit status 2, nothing written) when the run cannot start.
+std::optional<std::string> StartRun(const RunCommandOptions& options, RunStart& start) {
+  if (options.jobs < 0) {
+    return "--jobs " + std::to_string(options.jobs) + " is negative; give 0 (all cores) or a positive count";
+  }
+  try {
+    start.manifest = ReadManifest(options.folder);
+  } catch (const ManifestStructureError& e) {
+    return std::string(e.what()) + "; nothing was written";
+  }
+  try {
+    start.rig = ReadRigFile(options.rig_path);
+  } catch (const std::exception& e) {
+    return std::string(e.what()) + "; nothing was written";
+  }
+  start.out = std::filesystem::path(options.out_dir);
+  std::error_code ec;
+  std::filesystem::create_directories(start.out / "clips", ec);
+  if (ec) return "cannot create " + (start.out / "clips").string() + ": " + ec.message();
+  start.rig_hash = media::InputFingerprint(options.rig_path);
+  const unsigned cores = std::max(1u, std::thread::hardware_concurrency());
+  start.jobs = options.jobs > 0 ? options.jobs : static_cast<int>(cores);
+  return std::nullopt;
+}
+
+// Re-run: the result made earlier from the same clip, rig and settings, when there is one.
+bool ReuseEarlierResult(const std::filesystem::path& clip_out, const std::string& fingerprint, const calib::Rig& rig,
+                        ClipSlot& slot) {
+  if (!std::filesystem::exists(clip_out / "result.json") || !std::filesystem::exists(clip_out / "track.csv"))
+    return false;
+  try {
+    ClipResult old = ReadClipResult(clip_out / "result.json");
+    if (InfoValue(old, "input_fingerprint") != fingerprint) return false;
+    slot.result = std::move(old);
+    slot.track = ReadTrackCsv(clip_out / "track.csv");
+    slot.analysed = slot.result.errors.empty();
+    slot.reused = true;
+  } catch (const std::exception&) {
+    return false;  // an unreadable old result is simply redone
+  }
+  if (slot.analysed && slot.result.capture_fps > 0) {
+    try {
+      slot.measurement = RemeasureClip(slot.request, rig, slot.result, slot.track);
+    } catch (const std::exception&) {
+      // the clip's own result already says what is wrong with it; the joint fits go without it
+    }
+  }
+  return true;
+}
+
+// One clip: reuse or analyse, then write its result.json and track.csv.
+void AnalyseSlot(const RunStart& start, ProgressDisplay& progress, ClipSlot& slot) {
+  const ManifestRow& row = *slot.row;
+  const auto t0 = std::chrono::steady_clock::now();
+  const std::filesystem::path clip_out = start.out / "clips" / row.clip_id;
+  const std::string fingerprint =
+      media::InputFingerprint(slot.request.clip_path) + "/" + start.rig_hash + "/" + SettingsText(row);
+  if (ReuseEarlierResult(clip_out, fingerprint, start.rig, slot)) {
+    progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
+    return;
+  }
+  ClipAnalysis analysis;
+  try {
+    analysis = AnalyzeAndRecordClip(slot.request, start.rig,
+                                    [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
+  } catch (const std::exception& e) {
+    analysis.result.clip = row.clip_id;
+    analysis.result.errors.push_back(row.clip + ": " + e.what());
+  }
+  slot.result = std::move(analysis.result);
+  slot.track = std::move(analysis.track);
+  slot.measurement = std::move(analysis.measurement);
+  slot.analysed = analysis.analysed;
+  slot.result.info.emplace_back("input_fingerprint", fingerprint);
+  slot.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  try {
+    std::filesystem::create_directories(clip_out);
+    WriteTrackCsv(clip_out / "track.csv", slot.track);
+    WriteClipResult(clip_out / "result.json", slot.result);
+  } catch (const std::exception& e) {
+    slot.analysed = false;
+    slot.result.errors.push_back(e.what());
+  }
+  char line[256];
+  std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(), slot.analysed ? "analysed" : "FAILED",
+                slot.seconds);
+  progress.ClipDone(line);
+}
+
+// The rig's quality and the run's own record for summary.json.
+void AddRunRecord(const RunCommandOptions& options, const RunStart& start, int reused, double clip_stage_seconds,
+                  double clip_stage_cpu_seconds, double joint_seconds, Summary& summary) {
+  const calib::Rig& rig = start.rig;
+  summary.rig_quality = {{"rms_reprojection_px", rig.quality.rms_reprojection_px},
+                         {"plane_rms_px", rig.quality.plane_rms_px},
+                         {"square_error_mean_mm", rig.quality.square_error_mean_mm},
+                         {"square_error_max_mm", rig.quality.square_error_max_mm},
+                         {"metres_per_px_centre", rig.quality.metres_per_px_centre}};
+  summary.run = {{"tool_version", kVersion},
+                 {"folder", options.folder},
+                 {"rig", options.rig_path},
+                 {"rig_fnv1a64", start.rig_hash},
+                 {"out", options.out_dir},
+                 {"jobs", std::to_string(start.jobs)},
+                 {"clips_reused", std::to_string(reused)},
+                 // Wall-clock seconds of the two stages: every clip (decode, track, per-clip fits;
+                 // their own times are in each result.json) and the per-specimen joint fits.
+                 {"time_clip_stage_s", FormatNumber(clip_stage_seconds)},
+                 {"cpu_time_clip_stage_s", FormatNumber(clip_stage_cpu_seconds)},
+                 {"time_joint_fits_s", FormatNumber(joint_seconds)}};
+}
+
+double SecondsSince(std::chrono::steady_clock::time_point t) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - t).count();
+}
+
 }  // namespace
 
 int RunRun(const RunCommandOptions& options) {
   const auto started = std::chrono::steady_clock::now();
-  if (options.jobs < 0) {
-    std::cerr << "dropfit run: --jobs " << options.jobs << " is negative; give 0 (all cores) or a positive count\n";
+  RunStart start;
+  if (auto message = StartRun(options, start)) {
+    std::cerr << "dropfit run: " << *message << "\n";
     return kExitBadUsage;
   }
-  Manifest manifest;
-  calib::Rig rig;
-  try {
-    manifest = ReadManifest(options.folder);
-  } catch (const ManifestStructureError& e) {
-    std::cerr << "dropfit run: " << e.what() << "; nothing was written\n";
-    return kExitBadUsage;
-  }
-  try {
-    rig = ReadRigFile(options.rig_path);
-  } catch (const std::exception& e) {
-    std::cerr << "dropfit run: " << e.what() << "; nothing was written\n";
-    return kExitBadUsage;
-  }
-  const std::filesystem::path out(options.out_dir);
-  std::error_code ec;
-  std::filesystem::create_directories(out / "clips", ec);
-  if (ec) {
-    std::cerr << "dropfit run: cannot create " << (out / "clips").string() << ": " << ec.message() << "\n";
-    return kExitBadUsage;
-  }
-  const std::string rig_hash = media::InputFingerprint(options.rig_path);
-  const unsigned cores = std::max(1u, std::thread::hardware_concurrency());
-  const int jobs = options.jobs > 0 ? options.jobs : static_cast<int>(cores);
+  const Manifest& manifest = start.manifest;
 
   Summary summary;
   for (const std::string& w : manifest.warnings) summary.warnings.push_back({"", w});
@@ -134,71 +240,25 @@ int RunRun(const RunCommandOptions& options) {
       std::cerr << "error: " << row.error << "\n";
       continue;
     }
-    slots.push_back({&row, {}, {}, false, false, 0.0});
+    ClipSlot slot;
+    slot.row = &row;
+    slot.request = ClipRequestFor(row, manifest.folder);
+    slots.push_back(std::move(slot));
   }
 
+  // Stage 1: every clip, on `jobs` threads.
   ProgressDisplay progress(static_cast<int>(slots.size()));
   progress.Line("dropfit run: " + std::to_string(slots.size()) + " clips from " + manifest.display_name + ", " +
-                std::to_string(jobs) + " in parallel");
-  auto analyse_clip = [&](size_t i) {
-    ClipSlot& slot = slots[i];
-    const ManifestRow& row = *slot.row;
-    const auto t0 = std::chrono::steady_clock::now();
-    const std::filesystem::path clip_out = out / "clips" / row.clip_id;
-    const std::string fingerprint =
-        media::InputFingerprint(manifest.folder / std::filesystem::path(row.clip).lexically_normal()) + "/" + rig_hash +
-        "/" + SettingsText(row);
-    // Re-run: reuse a result made from the same clip, rig and settings.
-    if (std::filesystem::exists(clip_out / "result.json") && std::filesystem::exists(clip_out / "track.csv")) {
-      try {
-        ClipResult old = ReadClipResult(clip_out / "result.json");
-        if (InfoValue(old, "input_fingerprint") == fingerprint) {
-          slot.result = std::move(old);
-          slot.track = ReadTrackCsv(clip_out / "track.csv");
-          slot.analysed = slot.result.errors.empty();
-          slot.reused = true;
-          progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
-          return;
-        }
-      } catch (const std::exception&) {
-        // An unreadable old result is simply redone.
-      }
-    }
-    const ClipRequest request = ClipRequestFor(row, manifest.folder);
-    ClipAnalysis analysis;
-    try {
-      analysis = AnalyzeClip(request, rig, [&](int done, int total) { progress.Frames(row.clip_id, done, total); });
-    } catch (const std::exception& e) {
-      analysis.result.clip = row.clip_id;
-      analysis.result.errors.push_back(row.clip + ": " + e.what());
-    }
-    slot.result = std::move(analysis.result);
-    slot.track = std::move(analysis.track);
-    slot.analysed = analysis.analysed;
-    slot.result.info.emplace_back("input_fingerprint", fingerprint);
-    slot.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    try {
-      std::filesystem::create_directories(clip_out);
-      WriteTrackCsv(clip_out / "track.csv", slot.track);
-      WriteClipResult(clip_out / "result.json", slot.result);
-    } catch (const std::exception& e) {
-      slot.analysed = false;
-      slot.result.errors.push_back(e.what());
-    }
-    char line[256];
-    std::snprintf(line, sizeof(line), "%s: %s in %.1f s", row.clip_id.c_str(), slot.analysed ? "analysed" : "FAILED",
-                  slot.seconds);
-    progress.ClipDone(line);
-  };
+                std::to_string(start.jobs) + " in parallel");
   const auto clip_stage_started = std::chrono::steady_clock::now();
   const std::clock_t clip_stage_cpu_started = std::clock();  // process CPU time, all threads
-  ParallelFor(slots.size(), jobs, analyse_clip);
-  const double clip_stage_seconds =
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - clip_stage_started).count();
+  ParallelFor(slots.size(), start.jobs, [&](size_t i) { AnalyseSlot(start, progress, slots[i]); });
+  const double clip_stage_seconds = SecondsSince(clip_stage_started);
   const double clip_stage_cpu_seconds =
       static_cast<double>(std::clock() - clip_stage_cpu_started) / static_cast<double>(CLOCKS_PER_SEC);
 
   std::vector<AnalysedClip> analysed;
+  std::vector<JointClip> joint_inputs;
   int reused = 0;
   for (const ClipSlot& slot : slots) {
     reused += slot.reused ? 1 : 0;
@@ -207,51 +267,32 @@ int RunRun(const RunCommandOptions& options) {
       summary.errors.push_back({slot.row->clip_id, e});
       std::cerr << "error: " << slot.row->clip_id << ": " << e << "\n";
     }
-    if (slot.analysed) analysed.push_back({slot.row, &slot.result});
+    if (!slot.analysed) continue;
+    analysed.push_back({slot.row, &slot.result});
+    if (slot.measurement) joint_inputs.push_back({slot.row, &slot.request, &*slot.measurement});
   }
   summary.groups = BuildSummaryGroups(analysed);
 
-  // Joint fits per specimen over all its clips and heights.
-  std::vector<JointClip> joint_inputs;
-  for (const ClipSlot& slot : slots) {
-    if (slot.analysed) joint_inputs.push_back({slot.row, &slot.result, &slot.track});
-  }
+  // Stage 2: joint fits per specimen over all its clips and heights.
   const auto joint_started = std::chrono::steady_clock::now();
   summary.specimens = FitSpecimens(
-      joint_inputs, rig, [&](const std::string& line) { progress.Line(line); }, jobs);
-  const double joint_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - joint_started).count();
+      joint_inputs, [&](const std::string& line) { progress.Line(line); }, start.jobs);
+  const double joint_seconds = SecondsSince(joint_started);
+  AddRunRecord(options, start, reused, clip_stage_seconds, clip_stage_cpu_seconds, joint_seconds, summary);
 
-  summary.rig_quality = {{"rms_reprojection_px", rig.quality.rms_reprojection_px},
-                         {"plane_rms_px", rig.quality.plane_rms_px},
-                         {"square_error_mean_mm", rig.quality.square_error_mean_mm},
-                         {"square_error_max_mm", rig.quality.square_error_max_mm},
-                         {"metres_per_px_centre", rig.quality.metres_per_px_centre}};
-  summary.run = {{"tool_version", kVersion},
-                 {"folder", options.folder},
-                 {"rig", options.rig_path},
-                 {"rig_fnv1a64", rig_hash},
-                 {"out", options.out_dir},
-                 {"jobs", std::to_string(jobs)},
-                 {"clips_reused", std::to_string(reused)},
-                 // Wall-clock seconds of the two stages: every clip (decode, track, per-clip fits;
-                 // their own times are in each result.json) and the per-specimen joint fits.
-                 {"time_clip_stage_s", FormatNumber(clip_stage_seconds)},
-                 {"cpu_time_clip_stage_s", FormatNumber(clip_stage_cpu_seconds)},
-                 {"time_joint_fits_s", FormatNumber(joint_seconds)}};
   try {
-    WriteSummaryCsv(out / "summary.csv", summary.groups);
-    WriteSummaryJson(out / "summary.json", summary);
+    WriteSummaryCsv(start.out / "summary.csv", summary.groups);
+    WriteSummaryJson(start.out / "summary.json", summary);
     std::vector<ClipReportData> report_clips;
     for (const ClipSlot& slot : slots) report_clips.push_back({slot.result, slot.track});
-    WriteFileAtomically(out / "report.html", BuildReportHtml(summary, report_clips, NowText()));
+    WriteFileAtomically(start.out / "report.html", BuildReportHtml(summary, report_clips, NowText()));
   } catch (const std::exception& e) {
     std::cerr << "dropfit run: " << e.what() << "\n";
     return kExitPartial;
   }
-  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
   char line[256];
   std::snprintf(line, sizeof(line), "dropfit run: %zu of %zu clips analysed (%d reused), %zu failed, in %.1f s",
-                analysed.size(), manifest.rows.size(), reused, summary.errors.size(), seconds);
+                analysed.size(), manifest.rows.size(), reused, summary.errors.size(), SecondsSince(started));
   progress.Line(line);
   return summary.errors.empty() ? kExitDone : kExitPartial;
 }

@@ -9,10 +9,11 @@
 #include <iostream>
 #include <stdexcept>
 
-#include "cli/clip_pipeline.h"
+#include "cli/clip_records.h"
 #include "cli/exit_status.h"
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
+#include "pipeline/clip.h"
 
 namespace dropfit::cli {
 
@@ -59,23 +60,6 @@ class TerminalProgress {
 
 }  // namespace
 
-std::optional<CaptureRate> ResolveCaptureRate(std::optional<double> option_fps, std::optional<double> manifest_fps,
-                                              std::optional<double> rig_fps, std::optional<double> container_fps) {
-  if (Usable(option_fps)) return CaptureRate{*option_fps, "option", std::nullopt};
-  if (Usable(manifest_fps)) return CaptureRate{*manifest_fps, "manifest", std::nullopt};
-  if (Usable(rig_fps)) return CaptureRate{*rig_fps, "rig", std::nullopt};
-  if (Usable(container_fps)) {
-    CaptureRate r{*container_fps, "container", std::nullopt};
-    if (*container_fps <= kPlaybackRateMaxFps) {
-      r.warning = "the only capture rate found is the container's " + Num(*container_fps) +
-                  " frames/s, which looks like a playback rate, not a high-speed capture rate; times and speeds "
-                  "are wrong unless it is the true rate: give --fps N (or capture_fps in the manifest or the rig)";
-    }
-    return r;
-  }
-  return std::nullopt;
-}
-
 cv::Point2d ParseSeed(const std::string& text) {
   const auto comma = text.find(',');
   auto parse = [&](const std::string& part, double& out) {
@@ -90,39 +74,6 @@ cv::Point2d ParseSeed(const std::string& text) {
     throw std::invalid_argument("--seed '" + text + "' is not U,V in pixels (two numbers, e.g. --seed 412.5,230)");
   }
   return {u, v};
-}
-
-std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps) {
-  std::vector<TrackRow> rows;
-  rows.reserve(track.samples.size());
-  for (const tracker::TrackSample& s : track.samples) {
-    TrackRow r;
-    r.frame = s.frame;
-    r.t_s = s.frame / fps;  // mid-exposure time of the frame (contract)
-    r.quality = s.found ? s.quality : 0.0;
-    if (s.found) {
-      r.u_px = s.centre_px.x;
-      r.v_px = s.centre_px.y;
-      const cv::Point2d p = calib::PlaneFromImage(rig, s.centre_px);
-      if (std::isfinite(p.x) && std::isfinite(p.y)) {
-        r.x_m = p.x;
-        r.y_m = p.y;
-      }
-    }
-    rows.push_back(r);
-  }
-  return rows;
-}
-
-void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
-  result.frames = track.frames;
-  result.tracked_frames = track.tracked_frames;
-  result.warnings.insert(result.warnings.end(), track.warnings.begin(), track.warnings.end());
-  result.errors.insert(result.errors.end(), track.errors.begin(), track.errors.end());
-  result.info.push_back({"marker_kind", track.marker_chosen ? tracker::ToString(track.kind) : "none"});
-  result.info.push_back({"marker_choice", track.choice});
-  result.info.push_back({"lost_frames", tracker::FormatFrameRanges(track.lost)});
-  if (track.marker_chosen) result.extra.push_back({"marker_radius_px", track.marker_radius_px});
 }
 
 std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
@@ -171,14 +122,14 @@ int RunTrack(const TrackCommandOptions& options) {
   // The start-up checks shared with analyze and run (cli/clip_pipeline.h). A set-up problem
   // (no capture rate, a rig for another image size) stops the command; a clip that cannot be
   // read fails, with the files saying why.
-  ClipRequest request;
+  pipeline::ClipRequest request;
   request.clip_path = clip_path;
   request.clip_id = result.clip;
   request.fps_option = options.fps;
-  OpenedClip opened = OpenClip(request, rig);
+  pipeline::OpenedClip opened = pipeline::OpenClip(request, rig);
   if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
   media::FrameSource* source = opened.source.get();
-  const std::optional<CaptureRate>& rate = opened.rate;
+  const std::optional<pipeline::CaptureRate>& rate = opened.rate;
 
   fs::create_directories(out, ec);
   if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
@@ -189,7 +140,7 @@ int RunTrack(const TrackCommandOptions& options) {
     result.errors.push_back(opened.problem);
   } else {
     result.capture_fps = rate->fps;
-    result.capture_fps_source = rate->source;
+    result.capture_fps_source = pipeline::ToString(rate->source);
     if (rate->warning) result.warnings.push_back(options.clip + ": " + *rate->warning);
     TerminalProgress progress;
     tracker::OverlayOptions overlay;
@@ -207,7 +158,7 @@ int RunTrack(const TrackCommandOptions& options) {
     }
     progress.Done();
     AddTrackToResult(track, result);
-    rows = TrackRowsFromTrack(track, rig, rate->fps);
+    rows = TrackRowsFromTrack(track, pipeline::TimeSeriesFromTrack(track, rig, rate->fps), rate->fps);
     if (track.frames == 0) result.errors.push_back(options.clip + ": no frames could be read");
   }
 

@@ -16,7 +16,7 @@
 // or an input the command cannot start from (bad option, unreadable rig, missing clip, no
 // capture rate, a rig made for another image size), nothing written.
 //
-// The pieces below are shared with `analyze` and `run` (cli/clip_pipeline.h).
+// The pieces below are shared with `analyze` (the clip itself goes through pipeline/clip.h).
 
 #include <optional>
 #include <string>
@@ -41,21 +41,6 @@ struct TrackCommandOptions {
 // Returns the contract's exit status.
 int RunTrack(const TrackCommandOptions& options);
 
-// The capture rate of a clip and where it came from.
-struct CaptureRate {
-  double fps = 0.0;                    // [frames/s]
-  std::string source;                  // "option" | "manifest" | "rig" | "container"
-  std::optional<std::string> warning;  // set when only the container's rate was found and it
-                                       // looks like a playback rate (<= kPlaybackRateMaxFps)
-};
-// Highest container rate still taken for a playback rate [frames/s] (the 120).
-inline constexpr double kPlaybackRateMaxFps = 120.0;
-
-// The contract's precedence: command-line option, manifest, rig file, container. Non-finite or
-// non-positive values are skipped. Nothing when no rate is known.
-std::optional<CaptureRate> ResolveCaptureRate(std::optional<double> option_fps, std::optional<double> manifest_fps,
-                                              std::optional<double> rig_fps, std::optional<double> container_fps);
-
 // Parses "U,V" (pixels, two finite numbers). Throws std::invalid_argument naming the text.
 cv::Point2d ParseSeed(const std::string& text);
 
@@ -65,13 +50,5 @@ cv::Point2d ParseSeed(const std::string& text);
 std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
                                            const std::string& rig_path, const std::string& clip,
                                            tracker::TrackOptions& track_options, calib::Rig& rig);
-
-// track.csv rows of a track: t_s = frame / fps; metres through the rig (calib::PlaneFromImage:
-// undistort, then the plane mapping) where the marker was found; empty otherwise.
-std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
-
-// Fills result.json's tracking fields from a track: frames, tracked_frames, warnings, errors,
-// and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
-void AddTrackToResult(const tracker::Track& track, ClipResult& result);
 
 }  // namespace dropfit::cli

@@ -11,6 +11,7 @@
 #include <random>
 #include <string>
 
+#include "cli/clip_records.h"
 #include "cli/exit_status.h"
 #include "cli/render_command.h"
 #include "cli/results.h"

@@ -51,8 +51,8 @@ Summary MakeSummary() {
   jf.fit.bic = -100;
   jf.holdout = {{0.3, 0.003, 1e-4, 2e-4}};
   sp.joint_fits = {jf};
-  sp.curves = {{"measured", "cor_measured", {2.0, 2.4}, {0.71, 0.70}},
-               {"kelvin-voigt", "cor_vs_speed", {1.5, 2.0, 2.5}, {0.70, 0.705, 0.71}}};
+  sp.curves = {{"measured", CurveKind::kCorMeasured, {2.0, 2.4}, {0.71, 0.70}},
+               {"kelvin-voigt", CurveKind::kCorVsSpeed, {1.5, 2.0, 2.5}, {0.70, 0.705, 0.71}}};
   s.specimens = {sp};
   s.errors = {{"clip_9", "no impact found"}};
   s.warnings = {{"clip_1", "rate looks 2x too low"}};
@@ -71,10 +71,10 @@ ClipReportData MakeClip() {
   im.t_contact_s = 0.0005;
   im.t_separation_s = 0.0008;
   c.result.impacts = {im};
-  c.result.curves = {{"kelvin-voigt", "trajectory", {0, 0.0005, 0.001}, {0.3, 0.29, 0.3}},
-                     {"kelvin-voigt", "force_deflection", {0, 0.01}, {0, 2000}},
-                     {"track", "force_deflection_track", {0, 0.01}, {10, 1900}},
-                     {"kelvin-voigt", "residual", {0, 0.001}, {1e-6, -2e-6}}};
+  c.result.curves = {{"kelvin-voigt", CurveKind::kTrajectory, {0, 0.0005, 0.001}, {0.3, 0.29, 0.3}},
+                     {"kelvin-voigt", CurveKind::kForceDeflection, {0, 0.01}, {0, 2000}},
+                     {"track", CurveKind::kForceDeflectionTrack, {0, 0.01}, {10, 1900}},
+                     {"kelvin-voigt", CurveKind::kResidual, {0, 0.001}, {1e-6, -2e-6}}};
   c.track = {{0, 0.0, 1.0, 2.0, 0.0, 0.3, 1.0},
              {1, 0.0005, std::nullopt, std::nullopt, std::nullopt, std::nullopt, 0},
              {2, 0.001, 1.0, 2.0, 0.0, 0.3, 1.0}};

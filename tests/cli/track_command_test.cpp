@@ -263,18 +263,6 @@ TEST(TrackCommand, BadUsageWritesNothingAndExitsTwo) {
   expect_bad(Options(tmp.path / "c.avi", WriteRig(tmp.path, {640, 480}), tmp.path / "out"));
 }
 
-TEST(TrackCommand, CaptureRateFollowsTheContractsPrecedence) {
-  EXPECT_EQ(ResolveCaptureRate(1000, 2000, 3000, 4000)->source, "option");
-  EXPECT_EQ(ResolveCaptureRate(std::nullopt, 2000, 3000, 4000)->source, "manifest");
-  EXPECT_EQ(ResolveCaptureRate(std::nullopt, std::nullopt, 3000, 4000)->fps, 3000);
-  const auto container = ResolveCaptureRate(std::nullopt, std::nullopt, std::nullopt, 4000);
-  EXPECT_EQ(container->source, "container");
-  EXPECT_FALSE(container->warning.has_value());  // 4,000 frames/s is no playback rate
-  EXPECT_TRUE(ResolveCaptureRate(std::nullopt, std::nullopt, std::nullopt, 120)->warning.has_value());
-  EXPECT_FALSE(ResolveCaptureRate(std::nullopt, std::nullopt, std::nullopt, std::nullopt).has_value());
-  EXPECT_EQ(ResolveCaptureRate(-5.0, std::nullopt, 3000, std::nullopt)->source, "rig");  // unusable values skipped
-}
-
 TEST(TrackCommand, SeedTextIsParsedOrRejectedWithAnExample) {
   EXPECT_EQ(ParseSeed("412.5,230"), cv::Point2d(412.5, 230));
   EXPECT_EQ(ParseSeed("1, 2"), cv::Point2d(1, 2));

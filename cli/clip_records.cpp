@@ -1,0 +1,256 @@
+#include "cli/clip_records.h"
+
+#include <cmath>
+#include <stdexcept>
+
+#include "cli/fit_records.h"
+#include "tracker/track.h"
+
+namespace dropfit::cli {
+
+namespace {
+
+using analysis::Estimate;
+
+// value, and its sd beside it under `sd_name`.
+void AddEstimate(NamedValues& extra, const std::string& name, const std::string& sd_name, const Estimate& e) {
+  extra.push_back({name, e.value});
+  extra.push_back({sd_name, e.sd});
+}
+
+ImpactRecord ImpactRecordOf(const analysis::ImpactFigures& f, const analysis::Segmentation& seg) {
+  ImpactRecord r;
+  r.t_contact_s = f.t_contact_s.value;
+  r.impact_speed_mps = f.impact_speed_mps.value;
+  r.rebound_speed_mps = f.rebound_speed_mps.value;
+  r.cor = f.cor.value;
+  r.max_deflection_m = f.max_deflection_m.value;
+  r.onset_height_m = f.onset_height_m;
+  r.onset_height_source = analysis::ToString(f.onset_height_source);
+  r.complete = f.complete;
+  // No law fitted yet: the track-only estimates stand in the contract's fields.
+  r.source = "track";
+  r.t_separation_s = f.t_separation_track_s.value;
+  r.contact_duration_s = f.contact_duration_track_s.value;
+  r.peak_force_n = f.peak_force_track_n.value;
+  NamedValues& x = r.extra;
+  x.push_back({"bounce", static_cast<double>(f.bounce_index)});
+  x.push_back({"t_contact_sd_s", f.t_contact_s.sd});
+  x.push_back({"impact_speed_sd_mps", f.impact_speed_mps.sd});
+  x.push_back({"rebound_speed_sd_mps", f.rebound_speed_mps.sd});
+  x.push_back({"cor_sd", f.cor.sd});
+  x.push_back({"max_deflection_sd_m", f.max_deflection_m.sd});
+  x.push_back({"onset_height_sd_m", f.onset_height_sd_m});
+  AddEstimate(x, "cor_from_apex", "cor_from_apex_sd", f.cor_from_apex);
+  AddEstimate(x, "drop_height_above_onset_m", "drop_height_above_onset_sd_m", f.drop_height_above_onset_m);
+  AddEstimate(x, "rebound_height_above_onset_m", "rebound_height_above_onset_sd_m", f.rebound_height_above_onset_m);
+  AddEstimate(x, "t_separation_track_s", "t_separation_track_sd_s", f.t_separation_track_s);
+  AddEstimate(x, "contact_duration_track_s", "contact_duration_track_sd_s", f.contact_duration_track_s);
+  AddEstimate(x, "peak_force_track_n", "peak_force_track_sd_n", f.peak_force_track_n);
+  x.push_back({"t_peak_force_track_s", f.t_peak_force_track_s});
+  AddEstimate(x, "energy_lost_j", "energy_lost_sd_j", f.energy_lost_j);
+  const analysis::Bounce& b = seg.bounces[static_cast<size_t>(f.bounce_index)];
+  x.push_back({"t_lowest_s", b.t_lowest_s});
+  x.push_back({"y_lowest_m", b.y_lowest_m});
+  return r;
+}
+
+std::string InfoValue(const ClipResult& r, const std::string& key) {
+  for (const auto& [k, v] : r.info) {
+    if (k == key) return v;
+  }
+  return {};
+}
+
+double ExtraValue(const ClipResult& r, const std::string& key) {
+  for (const auto& [k, v] : r.extra) {
+    if (k == key) return v;
+  }
+  return std::nan("");
+}
+
+// The measurement's part of the records: kinematics, law fits, the track's force curve.
+void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline::ClipMeasurement& m,
+                            const std::string& name, const tracker::Track& track, ClipResult& result) {
+  AddKinematicsToResult(m.kinematics, name, result);
+  if (m.kinematics.failure) {
+    // A marker missing on most frames is the likelier cause: say so, with the frames.
+    if (2 * track.tracked_frames < track.frames && !result.errors.empty()) {
+      result.errors.back() += "; the hub marker was found on only " + std::to_string(track.tracked_frames) + " of " +
+                              std::to_string(track.frames) +
+                              " frames (not found: " + tracker::FormatFrameRanges(track.lost) +
+                              "): check that it stays in view, lit and unhidden through the fall and the impact";
+    }
+    return;
+  }
+  if (request.fit_laws) {
+    if (!m.laws) {
+      result.warnings.push_back(name + ": no complete bounce: the contact laws were not fitted");
+    } else {
+      AddLawFitsToResult(*m.laws, m.law_traces, result);
+    }
+    result.extra.push_back({"time_fits_s", m.fit_seconds});
+  }
+  if (m.track_force) {
+    result.curves.push_back(
+        {"track", CurveKind::kForceDeflectionTrack, m.track_force->deflection_m, m.track_force->force_n});
+  }
+}
+
+}  // namespace
+
+pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesystem::path& folder) {
+  pipeline::ClipRequest r;
+  r.clip_path = folder / std::filesystem::path(row.clip).lexically_normal();
+  r.clip_id = row.clip_id;
+  r.mass_kg = row.mass_kg;
+  r.drop_height_m = row.drop_height_m;
+  r.free_radius_m = row.free_radius_m;
+  r.tread_width_m = row.tread_width_m;
+  r.section_radius_m = row.section_radius_m;
+  r.fps_manifest = row.capture_fps;
+  return r;
+}
+
+std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const analysis::TimeSeries& series, double fps) {
+  std::vector<TrackRow> rows;
+  rows.reserve(track.samples.size());
+  for (size_t i = 0; i < track.samples.size(); ++i) {
+    const tracker::TrackSample& s = track.samples[i];
+    TrackRow r;
+    r.frame = s.frame;
+    r.t_s = s.frame / fps;  // mid-exposure time of the frame (contract)
+    r.quality = s.found ? s.quality : 0.0;
+    if (s.found) {
+      r.u_px = s.centre_px.x;
+      r.v_px = s.centre_px.y;
+      if (i < series.valid.size() && series.valid[i]) {
+        r.x_m = series.x_m[i];
+        r.y_m = series.y_m[i];
+      }
+    }
+    rows.push_back(r);
+  }
+  return rows;
+}
+
+analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps) {
+  const int first_frame = rows.empty() ? 0 : rows.front().frame;
+  analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(rows.size()), fps, first_frame);
+  for (size_t i = 0; i < rows.size(); ++i) {
+    if (rows[i].frame != first_frame + static_cast<int>(i)) {
+      throw std::invalid_argument("track rows are not consecutive frames: row " + std::to_string(i) + " is frame " +
+                                  std::to_string(rows[i].frame) + ", expected " +
+                                  std::to_string(first_frame + static_cast<int>(i)));
+    }
+    if (rows[i].x_m && rows[i].y_m) {
+      series.x_m[i] = *rows[i].x_m;
+      series.y_m[i] = *rows[i].y_m;
+      series.valid[i] = true;
+    }
+  }
+  return series;
+}
+
+void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
+  result.frames = track.frames;
+  result.tracked_frames = track.tracked_frames;
+  result.warnings.insert(result.warnings.end(), track.warnings.begin(), track.warnings.end());
+  result.errors.insert(result.errors.end(), track.errors.begin(), track.errors.end());
+  result.info.push_back({"marker_kind", track.marker_chosen ? tracker::ToString(track.kind) : "none"});
+  result.info.push_back({"marker_choice", track.choice});
+  result.info.push_back({"lost_frames", tracker::FormatFrameRanges(track.lost)});
+  if (track.marker_chosen) result.extra.push_back({"marker_radius_px", track.marker_radius_px});
+}
+
+void AddKinematicsToResult(const analysis::KinematicsResult& kin, const std::string& clip, ClipResult& result) {
+  const analysis::Segmentation& seg = kin.segmentation;
+  result.gravity_check.expected_mps2 = kin.checks.gravity.expected_mps2;
+  if (std::isfinite(kin.checks.gravity.flight_accel_mps2.value))
+    result.gravity_check.flight_accel_mps2 = kin.checks.gravity.flight_accel_mps2.value;
+  for (const analysis::ImpactFigures& f : kin.impacts) result.impacts.push_back(ImpactRecordOf(f, seg));
+  NamedValues& x = result.extra;
+  x.push_back({"noise_sd_m", seg.noise_sd_m});
+  x.push_back({"onset_height_m", seg.onset_height_m});
+  x.push_back({"onset_height_sd_m", seg.onset_height_sd_m});
+  result.info.push_back({"onset_height_source", analysis::ToString(seg.onset_height_source)});
+  x.push_back({"flight_accel_sd_mps2", kin.checks.gravity.flight_accel_mps2.sd});
+  x.push_back({"gravity_ratio", kin.checks.gravity.ratio});
+  x.push_back({"flights", static_cast<double>(seg.flights.size())});
+  if (kin.checks.tilt) {
+    x.push_back({"tilt_deg", kin.checks.tilt->tilt_deg.value});
+    x.push_back({"tilt_sd_deg", kin.checks.tilt->tilt_deg.sd});
+  }
+  if (kin.checks.drop_height) {
+    x.push_back({"expected_impact_speed_mps", kin.checks.drop_height->expected_speed_mps});
+    x.push_back({"implied_drop_height_m", kin.checks.drop_height->implied_height_m});
+  }
+  for (const std::string& w : kin.warnings) result.warnings.push_back(clip + ": " + w);
+  if (kin.failure) result.errors.push_back(clip + ": " + *kin.failure);
+}
+
+ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib::Rig& rig,
+                              pipeline::ClipOutcome outcome) {
+  ClipAnalysis out;
+  ClipResult& result = out.result;
+  result.clip = request.clip_id;
+  result.y_origin = calib::ToString(rig.y_origin);
+  const std::string name = request.clip_path.filename().string();
+  if (request.free_radius_m && rig.y_origin != calib::YOrigin::kFloor) {
+    result.warnings.push_back(name +
+                              ": the free radius is not used: the rig does not know the floor (y_origin \"board\"); "
+                              "the onset height is estimated. Calibrate with --corner-height to use the geometry");
+  }
+  if (outcome.stopped == pipeline::ClipOutcome::Stop::kNotOpened) {
+    result.errors.push_back(outcome.opened.problem);
+    return out;
+  }
+  const pipeline::CaptureRate& rate = *outcome.opened.rate;
+  result.capture_fps = rate.fps;
+  result.capture_fps_source = pipeline::ToString(rate.source);
+  if (rate.warning) result.warnings.push_back(name + ": " + *rate.warning);
+
+  const tracker::Track& track = outcome.tracked->track;
+  AddTrackToResult(track, result);
+  result.extra.push_back({"time_decode_s", track.read_seconds});
+  result.extra.push_back({"time_track_s", track.track_seconds});
+  out.track = TrackRowsFromTrack(track, outcome.tracked->series, rate.fps);
+  if (outcome.stopped == pipeline::ClipOutcome::Stop::kNoFrames) {
+    result.errors.push_back(name + ": no frames could be read");
+    return out;
+  }
+  if (outcome.stopped == pipeline::ClipOutcome::Stop::kMarkerNeverFound) {
+    result.errors.push_back(name +
+                            ": the hub marker was not found on any frame; check the marker kind or its contrast "
+                            "(try `dropfit track --marker ... --seed U,V` on this clip)");
+    return out;
+  }
+  AddMeasurementToResult(request, *outcome.measurement, name, track, result);
+  out.analysed = result.errors.empty();
+  out.measurement = std::move(outcome.measurement);
+  return out;
+}
+
+ClipAnalysis AnalyzeAndRecordClip(const pipeline::ClipRequest& request, const calib::Rig& rig,
+                                  pipeline::OpenedClip opened, const pipeline::ClipProgress& progress) {
+  return RecordsOfOutcome(request, rig, pipeline::AnalyzeClip(request, rig, std::move(opened), progress));
+}
+
+ClipAnalysis AnalyzeAndRecordClip(const pipeline::ClipRequest& request, const calib::Rig& rig,
+                                  const pipeline::ClipProgress& progress) {
+  return AnalyzeAndRecordClip(request, rig, pipeline::OpenClip(request, rig), progress);
+}
+
+pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, const calib::Rig& rig,
+                                        const ClipResult& result, const std::vector<TrackRow>& track) {
+  pipeline::MeasureOptions options;
+  options.fit_laws = false;
+  if (InfoValue(result, "onset_height_source") == "fit") {
+    const double h = ExtraValue(result, "onset_height_m"), sd = ExtraValue(result, "onset_height_sd_m");
+    if (std::isfinite(h) && std::isfinite(sd)) options.onset_from_fit = std::make_pair(h, sd);
+  }
+  return pipeline::MeasureClip(request, rig, TimeSeriesFromTrackRows(track, result.capture_fps), result.capture_fps,
+                               options);
+}
+
+}  // namespace dropfit::cli

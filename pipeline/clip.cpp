@@ -1,0 +1,198 @@
+#include "pipeline/clip.h"
+
+#include <chrono>
+#include <cmath>
+#include <stdexcept>
+
+#include "analysis/forward_model.h"
+#include "calib/rig.h"
+
+namespace dropfit::pipeline {
+
+namespace {
+
+double Seconds(std::chrono::steady_clock::time_point since) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - since).count();
+}
+
+std::string SizeText(cv::Size s) { return std::to_string(s.width) + "x" + std::to_string(s.height); }
+
+// The per-clip law fits, and with them the onset height when the geometry gave none: the best
+// law's fitted onset height replaces the track's estimate, and the per-bounce figures are read
+// again there (contract: onset_height_source "fit").
+void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
+  const auto fit_start = std::chrono::steady_clock::now();
+  m.fits_attempted = true;
+  if (!m.fit_clip->windows.empty()) {
+    m.laws = analysis::FitAllLaws({*m.fit_clip}, m.fit_options);
+    for (const analysis::LawFitResult& fit : m.laws->fits) m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
+    if (m.laws->best && !kinematics_options.onset_height_m) {
+      const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->best)];
+      analysis::KinematicsOptions refit = kinematics_options;
+      refit.onset_height_m = best.onset_height_m;
+      refit.onset_height_sd_m = best.onset_height_sd_m;
+      refit.onset_height_source = analysis::OnsetHeightSource::kFit;
+      analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
+      if (!again.failure) {
+        m.kinematics = std::move(again);
+        m.onset_refitted = true;
+      }
+    }
+  }
+  m.fit_seconds = Seconds(fit_start);
+}
+
+}  // namespace
+
+analysis::DropConditions DropConditionsOf(const ClipRequest& request) {
+  analysis::DropConditions c;
+  c.mass_kg = request.mass_kg;
+  c.gravity_mps2 = request.gravity_mps2.value_or(analysis::kStandardGravityMps2);
+  c.tread = analysis::MakeTreadGeometry(request.free_radius_m.value_or(0.0), request.tread_width_m.value_or(0.0),
+                                        request.section_radius_m.value_or(0.0));
+  return c;
+}
+
+std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig) {
+  if (request.free_radius_m && rig.y_origin == calib::YOrigin::kFloor) return *request.free_radius_m;
+  return std::nullopt;
+}
+
+analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, const calib::Rig& rig, double fps) {
+  analysis::KinematicsOptions k;
+  k.mass_kg = request.mass_kg;
+  k.gravity_mps2 = request.gravity_mps2.value_or(analysis::kStandardGravityMps2);
+  k.onset_height_m = GeometryOnsetHeight(request, rig);
+  k.onset_height_source = analysis::OnsetHeightSource::kGeometry;
+  k.drop_height_m = request.drop_height_m;
+  k.capture_fps = fps;
+  return k;
+}
+
+analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request) {
+  const analysis::DropConditions conditions = DropConditionsOf(request);
+  analysis::LawFitOptions o;
+  o.gravity_mps2 = conditions.gravity_mps2;
+  o.tread = conditions.tread;
+  return o;
+}
+
+OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
+  OpenedClip out;
+  const std::string name = request.clip_path.filename().string();
+  try {
+    out.source = media::FrameSource::Open(request.clip_path);
+  } catch (const std::exception& e) {
+    out.problem = e.what();  // names the clip and says what to do (media/frame_source.h)
+    return out;
+  }
+  const media::FrameSourceInfo& info = out.source->info();
+  out.rate = ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, info.container_fps);
+  if (!out.rate) {
+    out.setup_problem = true;
+    out.problem = name +
+                  ": no capture rate is known (none given with --fps or in the manifest's capture_fps, none in the "
+                  "rig, none in the clip's container); give the camera's true frames per second: --fps N, or "
+                  "capture_fps in the manifest";
+    return out;
+  }
+  if (!rig.image_size.empty() && info.size != rig.image_size) {
+    out.setup_problem = true;
+    out.problem = name + ": frames are " + SizeText(info.size) + " but the rig was made for " +
+                  SizeText(rig.image_size) +
+                  " images; use the rig of this camera set-up (or make one with dropfit calibrate)";
+    return out;
+  }
+  return out;
+}
+
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps) {
+  if (!(fps > 0.0) || !std::isfinite(fps))
+    throw std::invalid_argument("TimeSeriesFromTrack: capture rate " + std::to_string(fps) + " is not > 0");
+  const int first_frame = track.samples.empty() ? 0 : track.samples.front().frame;
+  analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(track.samples.size()), fps, first_frame);
+  for (size_t i = 0; i < track.samples.size(); ++i) {
+    const tracker::TrackSample& s = track.samples[i];
+    if (s.frame != first_frame + static_cast<int>(i))
+      throw std::invalid_argument("TimeSeriesFromTrack: sample " + std::to_string(i) + " is frame " +
+                                  std::to_string(s.frame) + ", expected " +
+                                  std::to_string(first_frame + static_cast<int>(i)));
+    if (!s.found) continue;
+    const cv::Point2d p = calib::PlaneFromImage(rig, s.centre_px);
+    if (std::isfinite(p.x) && std::isfinite(p.y)) {
+      series.x_m[i] = p.x;
+      series.y_m[i] = p.y;
+      series.valid[i] = true;
+    }
+  }
+  return series;
+}
+
+TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
+                            const ClipProgress& progress) {
+  if (!opened.ok() || !opened.source || !opened.rate)
+    throw std::invalid_argument("TrackOpenedClip: the clip was not opened: " + opened.problem);
+  tracker::TrackOptions track_options;
+  track_options.marker = request.marker;
+  track_options.seed_px = request.seed_px;
+  TrackedClip out;
+  out.track = tracker::TrackClip(*opened.source, track_options, progress);
+  opened.source.reset();  // read to the end; free the decoder
+  out.series = TimeSeriesFromTrack(out.track, rig, opened.rate->fps);
+  return out;
+}
+
+ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series,
+                            double fps, const MeasureOptions& options) {
+  ClipMeasurement m;
+  m.series = std::move(series);
+  m.conditions = DropConditionsOf(request);
+  m.fit_options = LawFitOptionsFor(request);
+  const analysis::KinematicsOptions kinematics_options = KinematicsOptionsFor(request, rig, fps);
+  m.kinematics = analysis::AnalyzeKinematics(m.series, kinematics_options);
+  if (m.kinematics.failure) return m;
+  m.fit_clip = analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, m.series,
+                                     m.kinematics.segmentation, m.kinematics.impacts);
+  if (options.fit_laws) {
+    FitLaws(kinematics_options, m);
+  } else if (options.onset_from_fit && !kinematics_options.onset_height_m) {
+    analysis::KinematicsOptions refit = kinematics_options;
+    refit.onset_height_m = options.onset_from_fit->first;
+    refit.onset_height_sd_m = options.onset_from_fit->second;
+    refit.onset_height_source = analysis::OnsetHeightSource::kFit;
+    analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
+    if (!again.failure) {
+      m.kinematics = std::move(again);
+      m.onset_refitted = true;
+    }
+  }
+  m.track_force =
+      TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
+  return m;
+}
+
+ClipOutcome AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip opened,
+                        const ClipProgress& progress) {
+  ClipOutcome out;
+  out.opened = std::move(opened);
+  if (!out.opened.ok()) {
+    out.stopped = ClipOutcome::Stop::kNotOpened;
+    return out;
+  }
+  out.tracked = TrackOpenedClip(request, rig, out.opened, progress);
+  const tracker::Track& track = out.tracked->track;
+  if (track.frames == 0) {
+    out.stopped = ClipOutcome::Stop::kNoFrames;
+    return out;
+  }
+  if (track.tracked_frames == 0) {
+    out.stopped = ClipOutcome::Stop::kMarkerNeverFound;
+    return out;
+  }
+  MeasureOptions measure;
+  measure.fit_laws = request.fit_laws;
+  out.measurement = MeasureClip(request, rig, out.tracked->series, out.opened.rate->fps, measure);
+  return out;
+}
+
+}  // namespace dropfit::pipeline

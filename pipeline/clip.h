@@ -1,0 +1,144 @@
+#pragma once
+// One clip from its file to its measured result: the road every clip takes through `dropfit
+// analyze` and `dropfit run`, and the benches. No global state: several clips may be measured at
+// once on separate threads.
+//
+//   ClipRequest --OpenClip--> OpenedClip --TrackOpenedClip--> TrackedClip (track, series in metres)
+//       --MeasureClip--> ClipMeasurement (kinematics, fit input, per-clip laws, onset height)
+//
+// AnalyzeClip runs the three. A clip whose track was saved earlier (track.csv) is measured by
+// MeasureClip alone, from its series.
+//
+// Onset height, decided here and nowhere else (docs/formats.md, "Impact figures"):
+//   - geometry: the free radius, when the rig knows the floor (y_origin "floor");
+//   - otherwise the track's provisional estimate (analysis/impacts.h, step 4), and then, when a
+//     law converged, the best law's fitted onset height ("fit"): the per-bounce figures are read
+//     again at that height (analysis::ReadAtOnsetHeight); the track is not segmented again.
+//   The joint stage (pipeline/joint_stage.h) fits the onset height itself, starting from the
+//   geometry's value where there is one (JointFitClip).
+
+#include <opencv2/core.hpp>
+
+#include <filesystem>
+#include <functional>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "analysis/drop_conditions.h"
+#include "analysis/kinematics.h"
+#include "analysis/law_fit.h"
+#include "analysis/time_series.h"
+#include "calib/rig.h"
+#include "media/frame_source.h"
+#include "pipeline/capture_rate.h"
+#include "pipeline/law_curves.h"
+#include "tracker/marker_kind.h"
+#include "tracker/track.h"
+
+namespace dropfit::pipeline {
+
+// What is known about one clip before it is read.
+struct ClipRequest {
+  std::filesystem::path clip_path;         // video file or folder of numbered images
+  std::string clip_id;                     // for messages and result.json's "clip"
+  double mass_kg = 0.0;                    // dropped mass [kg], > 0
+  std::optional<double> drop_height_m;     // nominal drop height [m]
+  std::optional<double> free_radius_m;     // unloaded radius, hub to tread [m]
+  std::optional<double> tread_width_m;     // volumetric law: cylinder width [m]
+  std::optional<double> section_radius_m;  // volumetric law: torus section radius [m] (wins)
+  std::optional<double> fps_option;        // --fps (wins over everything)
+  std::optional<double> fps_manifest;      // manifest capture_fps
+  std::optional<double> gravity_mps2;      // local gravity; default standard gravity
+  tracker::MarkerKind marker = tracker::MarkerKind::kAuto;
+  std::optional<cv::Point2d> seed_px;  // marker position in the first frames [px]
+  bool fit_laws = true;                // run the per-clip contact-law fits
+};
+
+// Mass, gravity and tread of a request, as one value.
+analysis::DropConditions DropConditionsOf(const ClipRequest& request);
+// The onset height from the geometry (free radius above a floor the rig knows), if known.
+std::optional<double> GeometryOnsetHeight(const ClipRequest& request, const calib::Rig& rig);
+// The kinematics and law-fit settings of a clip (shared by the per-clip and joint stages).
+analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, const calib::Rig& rig, double fps);
+analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
+
+// The start-up checks of a clip, the one place `track`, `analyze` and `run` make them: open the
+// clip (media::FrameSource), find its capture rate (ResolveCaptureRate) and compare its frame
+// size with the rig's. The clip is opened once; the caller passes the result on.
+struct OpenedClip {
+  std::unique_ptr<media::FrameSource> source;  // null when nothing can be read from the clip
+  std::optional<CaptureRate> rate;             // set when the clip can be tracked
+  // Why the clip cannot be tracked, naming the clip and saying what to do; empty when it can.
+  std::string problem;
+  // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a
+  // rig made for another image size): the single-clip commands stop with exit status 2 and write
+  // nothing; a folder run fails that clip only.
+  bool setup_problem = false;
+  bool ok() const { return problem.empty(); }
+};
+// Never throws for a problem of the clip; those come back in `problem`.
+OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
+
+// The drop-plane time series of a track: t = frame / fps (mid-exposure), metres through the rig
+// (calib::PlaneFromImage: undistort, then the plane mapping) where the marker was found and the
+// mapping is finite; other samples invalid. Throws std::invalid_argument when fps is not > 0.
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
+
+// frames done, frames total (0 when unknown)
+using ClipProgress = std::function<void(int, int)>;
+
+struct TrackedClip {
+  tracker::Track track;
+  analysis::TimeSeries series;  // TimeSeriesFromTrack
+};
+// Tracks an opened clip (its source is read to the end). `opened` must be ok().
+TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
+                            const ClipProgress& progress = {});
+
+// A clip measured: everything the per-clip result and the joint stage need.
+struct ClipMeasurement {
+  analysis::TimeSeries series;
+  analysis::DropConditions conditions;
+  // The final kinematics (at the geometry's, the track's or the best law's onset height).
+  analysis::KinematicsResult kinematics;
+  // The fitter's input, cut from the first kinematics (geometry or track onset height); empty
+  // windows when no bounce is complete. Unset when the kinematics failed.
+  std::optional<analysis::FitClip> fit_clip;
+  analysis::LawFitOptions fit_options;
+  std::optional<analysis::LawComparison> laws;  // per-clip fits, when fitted
+  std::vector<FitTrace> law_traces;             // one per laws->fits (empty for failed fits)
+  bool onset_refitted = false;                  // figures read again at the best law's onset
+  // The report's force-deflection loop from the filtered track (first complete bounce).
+  std::optional<ForceDeflection> track_force;
+  double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
+  bool fits_attempted = false;
+};
+
+// How to measure: fit the laws (per-clip stage) or not (a clip rebuilt from its track.csv for the
+// joint stage). Without fits, `onset_from_fit` (the saved result's fitted onset height and sd)
+// makes the figures those the per-clip stage reported.
+struct MeasureOptions {
+  bool fit_laws = true;
+  std::optional<std::pair<double, double>> onset_from_fit;  // (height [m], sd [m])
+};
+
+// Measures a clip from its series. Throws std::invalid_argument for an invalid series or
+// request; a clip that cannot be analysed comes back with kinematics.failure set.
+ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series,
+                            double fps, const MeasureOptions& options);
+
+// The whole road of one clip. Stops early, leaving the later parts unset, when the clip cannot be
+// opened, no frame was read, or the marker was never found (`stopped` says which).
+struct ClipOutcome {
+  OpenedClip opened;  // source released after tracking
+  std::optional<TrackedClip> tracked;
+  std::optional<ClipMeasurement> measurement;
+  enum class Stop { kNone, kNotOpened, kNoFrames, kMarkerNeverFound } stopped = Stop::kNone;
+};
+// Never throws for a per-clip problem.
+ClipOutcome AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip opened,
+                        const ClipProgress& progress = {});
+
+}  // namespace dropfit::pipeline
