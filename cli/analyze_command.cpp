@@ -26,8 +26,8 @@ std::string Num(double v) {
   return buf;
 }
 
-int BadUsage(const std::string& message) {
-  std::cerr << "dropfit analyze: " << message << "\n";
+int BadUsage(std::ostream& err, const std::string& message) {
+  err << "dropfit analyze: " << message << "\n";
   return kExitBadUsage;
 }
 
@@ -51,13 +51,13 @@ std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o
   return std::nullopt;
 }
 
-int RunAnalyze(const AnalyzeCommandOptions& options) {
+int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ostream& err) {
   // Everything the command cannot start from is checked before anything is written.
-  if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(*message);
+  if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(err, *message);
   tracker::TrackOptions track_options;
   calib::Rig rig;
   if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
-    return BadUsage(*message);
+    return BadUsage(err, *message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
 
@@ -75,11 +75,11 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   // A set-up problem (no capture rate, a rig for another image size) stops the command; a clip
   // that cannot be read is analysed as a failure, with the files saying why.
   pipeline::OpenedClip opened = pipeline::OpenClip(request, rig);
-  if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
+  if (opened.setup_problem) return BadUsage(err, *opened.problem + "; nothing was written");
   const std::optional<pipeline::CaptureRate> rate = opened.rate;
-  const fs::path out(options.out_dir);
-  fs::create_directories(out, ec);
-  if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
+  const fs::path out_dir(options.out_dir);
+  fs::create_directories(out_dir, ec);
+  if (ec) return BadUsage(err, options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
 
   ClipResult result;
   result.clip = request.clip_id;
@@ -98,7 +98,9 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
     text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
-    text << " onset_height=" << (geometry_onset ? "geometry" : "fit");
+    text << " onset_height="
+         << analysis::ToString(geometry_onset ? analysis::OnsetHeightSource::kGeometry
+                                              : analysis::OnsetHeightSource::kFit);
     text << " marker=" << options.marker;
     if (!options.seed.empty()) text << " seed=" << options.seed;
     text << " rig=" << options.rig_path;
@@ -111,23 +113,25 @@ int RunAnalyze(const AnalyzeCommandOptions& options) {
   result = std::move(analysis.result);
   const std::vector<TrackRow>& rows = analysis.track;
 
-  WriteTrackCsv(out / "track.csv", rows);
-  WriteClipResult(out / "result.json", result);
+  WriteTrackCsv(out_dir / "track.csv", rows);
+  WriteClipResult(out_dir / "result.json", result);
 
-  for (const std::string& w : result.warnings) std::cerr << "warning: " << w << "\n";
-  for (const std::string& e : result.errors) std::cerr << "error: " << e << "\n";
-  std::cout << result.clip << ": " << result.tracked_frames << " of " << result.frames << " frames tracked, "
-            << result.impacts.size() << " impact" << (result.impacts.size() == 1 ? "" : "s");
+  for (const std::string& w : result.warnings) err << "warning: " << w << "\n";
+  for (const std::string& e : result.errors) err << "error: " << e << "\n";
+  out << result.clip << ": " << result.tracked_frames << " of " << result.frames << " frames tracked, "
+      << result.impacts.size() << " impact" << (result.impacts.size() == 1 ? "" : "s");
   for (const ImpactRecord& r : result.impacts) {
     if (!r.complete) continue;
     char line[160];
     std::snprintf(line, sizeof line, "; first complete: impact %.4f m/s, rebound %.4f m/s, COR %.4f",
                   r.impact_speed_mps, r.rebound_speed_mps, r.cor);
-    std::cout << line;
+    out << line;
     break;
   }
-  std::cout << "\nwrote " << (out / "track.csv").string() << " and " << (out / "result.json").string() << "\n";
+  out << "\nwrote " << (out_dir / "track.csv").string() << " and " << (out_dir / "result.json").string() << "\n";
   return result.errors.empty() ? kExitDone : kExitPartial;
 }
+
+int RunAnalyze(const AnalyzeCommandOptions& options) { return RunAnalyze(options, std::cout, std::cerr); }
 
 }  // namespace dropfit::cli

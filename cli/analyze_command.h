@@ -17,6 +17,7 @@
 // another image size (pipeline/clip.h, OpenClip), nothing written. Frames that cannot be
 // read (a truncated file, a missing or damaged image) are left empty with a warning naming them.
 
+#include <iosfwd>
 #include <optional>
 #include <string>
 #include <vector>
@@ -43,7 +44,9 @@ struct AnalyzeCommandOptions {
 // A message naming the first bad option and its valid range, or nothing.
 std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& options);
 
-// Returns the contract's exit status.
+// Returns the contract's exit status. Messages go to `err`, the summary to `out`.
+int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ostream& err);
+// Same, on std::cout and std::cerr.
 int RunAnalyze(const AnalyzeCommandOptions& options);
 
 }  // namespace dropfit::cli

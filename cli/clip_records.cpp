@@ -202,7 +202,7 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
                               "the onset height is estimated. Calibrate with --corner-height to use the geometry");
   }
   if (outcome.stopped == pipeline::ClipOutcome::Stop::kNotOpened) {
-    result.errors.push_back(outcome.opened.problem);
+    result.errors.push_back(*outcome.opened.problem);
     return out;
   }
   const pipeline::CaptureRate& rate = *outcome.opened.rate;
@@ -245,7 +245,8 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
                                         const ClipResult& result, const std::vector<TrackRow>& track) {
   pipeline::MeasureOptions options;
   options.fit_laws = false;
-  if (InfoValue(result, "onset_height_source") == "fit") {
+  const std::string source = InfoValue(result, "onset_height_source");
+  if (!source.empty() && analysis::OnsetHeightSourceFromString(source) == analysis::OnsetHeightSource::kFit) {
     const double h = ExtraValue(result, "onset_height_m"), sd = ExtraValue(result, "onset_height_sd_m");
     if (std::isfinite(h) && std::isfinite(sd)) options.onset_from_fit = std::make_pair(h, sd);
   }

@@ -12,7 +12,8 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
     r.param_sd.emplace_back(fit.param_names[i], i < fit.param_sd.size() ? fit.param_sd[i] : std::nan(""));
   }
   r.onset_height_m = fit.onset_height_m;
-  r.onset_height_source = fit.onset_height_fitted ? "fit" : "geometry";
+  r.onset_height_source = analysis::ToString(fit.onset_height_fitted ? analysis::OnsetHeightSource::kFit
+                                                                     : analysis::OnsetHeightSource::kGeometry);
   if (clip_index >= 0 && static_cast<size_t>(clip_index) < fit.bounces.size()) {
     r.bounces = fit.bounces[static_cast<size_t>(clip_index)];
   }

@@ -43,24 +43,26 @@ std::string NowText() {
   return buf;
 }
 
-int RunReport(const ReportCommandOptions& options) {
+int RunReport(const ReportCommandOptions& options, std::ostream& /*out*/, std::ostream& err) {
   const std::filesystem::path out(options.out_dir);
   Summary summary;
   try {
     summary = ReadSummaryJson(out / "summary.json");
   } catch (const std::exception& e) {
-    std::cerr << "dropfit report: " << e.what() << "; give the output folder of a `dropfit run`\n";
+    err << "dropfit report: " << e.what() << "; give the output folder of a `dropfit run`\n";
     return kExitBadUsage;
   }
   std::vector<std::string> problems;
   const std::vector<ClipReportData> clips = ReadClipResults(out, problems);
   for (const std::string& p : problems) {
-    std::cerr << "dropfit report: skipped " << p << "\n";
+    err << "dropfit report: skipped " << p << "\n";
     summary.warnings.push_back({"", "report: skipped " + p});
   }
   WriteFileAtomically(out / "report.html", BuildReportHtml(summary, clips, NowText()));
-  std::cerr << "dropfit report: wrote " << (out / "report.html").string() << "\n";
+  err << "dropfit report: wrote " << (out / "report.html").string() << "\n";
   return problems.empty() ? kExitDone : kExitPartial;
 }
+
+int RunReport(const ReportCommandOptions& options) { return RunReport(options, std::cout, std::cerr); }
 
 }  // namespace dropfit::cli

@@ -49,36 +49,39 @@ std::string InfoValue(const ClipResult& r, const std::string& key) {
   return {};
 }
 
-// Progress on a terminal: one line rewritten in place; otherwise plain log lines.
+// Progress on `err`: on a terminal (err is std::cerr and stderr is a tty) one line rewritten in
+// place; otherwise plain log lines.
 class ProgressDisplay {
  public:
-  explicit ProgressDisplay(int total) : total_(total), tty_(::isatty(STDERR_FILENO) == 1) {}
+  ProgressDisplay(int total, std::ostream& err)
+      : total_(total), err_(err), tty_(&err == &std::cerr && ::isatty(STDERR_FILENO) == 1) {}
   void Frames(const std::string& clip, int done, int total) {
     if (!tty_) return;
     std::lock_guard<std::mutex> lock(mutex_);
     const auto now = std::chrono::steady_clock::now();
     if (now - last_ < std::chrono::milliseconds(100)) return;
     last_ = now;
-    std::fprintf(stderr, "\r\033[K[%d/%d clips] %s: frame %d/%d", done_, total_, clip.c_str(), done, total);
-    std::fflush(stderr);
+    char line[320];
+    std::snprintf(line, sizeof line, "\r\033[K[%d/%d clips] %s: frame %d/%d", done_, total_, clip.c_str(), done, total);
+    err_ << line << std::flush;
   }
   void ClipDone(const std::string& line) {
     std::lock_guard<std::mutex> lock(mutex_);
     ++done_;
-    if (tty_) std::fprintf(stderr, "\r\033[K");
-    std::fprintf(stderr, "[%d/%d] %s\n", done_, total_, line.c_str());
-    std::fflush(stderr);
+    if (tty_) err_ << "\r\033[K";
+    err_ << "[" << done_ << "/" << total_ << "] " << line << "\n" << std::flush;
   }
   void Line(const std::string& line) {
     std::lock_guard<std::mutex> lock(mutex_);
-    if (tty_) std::fprintf(stderr, "\r\033[K");
-    std::fprintf(stderr, "%s\n", line.c_str());
+    if (tty_) err_ << "\r\033[K";
+    err_ << line << "\n" << std::flush;
   }
 
  private:
   int total_;
-  int done_ = 0;
+  std::ostream& err_;
   bool tty_;
+  int done_ = 0;
   std::mutex mutex_;
   std::chrono::steady_clock::time_point last_{};
 };
@@ -222,11 +225,11 @@ double SecondsSince(std::chrono::steady_clock::time_point t) {
 
 }  // namespace
 
-int RunRun(const RunCommandOptions& options) {
+int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream& err) {
   const auto started = std::chrono::steady_clock::now();
   RunStart start;
   if (auto message = StartRun(options, start)) {
-    std::cerr << "dropfit run: " << *message << "\n";
+    err << "dropfit run: " << *message << "\n";
     return kExitBadUsage;
   }
   const Manifest& manifest = start.manifest;
@@ -237,7 +240,7 @@ int RunRun(const RunCommandOptions& options) {
   for (const ManifestRow& row : manifest.rows) {
     if (!row.ok()) {
       summary.errors.push_back({row.clip_id.empty() ? row.clip : row.clip_id, row.error});
-      std::cerr << "error: " << row.error << "\n";
+      err << "error: " << row.error << "\n";
       continue;
     }
     ClipSlot slot;
@@ -247,7 +250,7 @@ int RunRun(const RunCommandOptions& options) {
   }
 
   // Stage 1: every clip, on `jobs` threads.
-  ProgressDisplay progress(static_cast<int>(slots.size()));
+  ProgressDisplay progress(static_cast<int>(slots.size()), err);
   progress.Line("dropfit run: " + std::to_string(slots.size()) + " clips from " + manifest.display_name + ", " +
                 std::to_string(start.jobs) + " in parallel");
   const auto clip_stage_started = std::chrono::steady_clock::now();
@@ -265,7 +268,7 @@ int RunRun(const RunCommandOptions& options) {
     for (const std::string& w : slot.result.warnings) summary.warnings.push_back({slot.row->clip_id, w});
     for (const std::string& e : slot.result.errors) {
       summary.errors.push_back({slot.row->clip_id, e});
-      std::cerr << "error: " << slot.row->clip_id << ": " << e << "\n";
+      err << "error: " << slot.row->clip_id << ": " << e << "\n";
     }
     if (!slot.analysed) continue;
     analysed.push_back({slot.row, &slot.result});
@@ -287,7 +290,7 @@ int RunRun(const RunCommandOptions& options) {
     for (const ClipSlot& slot : slots) report_clips.push_back({slot.result, slot.track});
     WriteFileAtomically(start.out / "report.html", BuildReportHtml(summary, report_clips, NowText()));
   } catch (const std::exception& e) {
-    std::cerr << "dropfit run: " << e.what() << "\n";
+    err << "dropfit run: " << e.what() << "\n";
     return kExitPartial;
   }
   char line[256];
@@ -296,5 +299,7 @@ int RunRun(const RunCommandOptions& options) {
   progress.Line(line);
   return summary.errors.empty() ? kExitDone : kExitPartial;
 }
+
+int RunRun(const RunCommandOptions& options) { return RunRun(options, std::cout, std::cerr); }
 
 }  // namespace dropfit::cli

@@ -1,6 +1,7 @@
 #pragma once
 // `dropfit run`: a folder of drop clips -> per-height impact summary, fitted laws, report.
 
+#include <iosfwd>
 #include <string>
 
 namespace dropfit::cli {
@@ -12,7 +13,10 @@ struct RunCommandOptions {
   int jobs = 0;          // clips in parallel; 0 = number of cores
 };
 
-// Returns the contract's exit status.
+// Returns the contract's exit status. Messages and progress go to `err` (progress rewritten in
+// place only when `err` is std::cerr on a terminal); `out` receives nothing today.
+int RunRun(const RunCommandOptions& options, std::ostream& out, std::ostream& err);
+// Same, on std::cout and std::cerr.
 int RunRun(const RunCommandOptions& options);
 
 }  // namespace dropfit::cli

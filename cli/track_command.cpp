@@ -29,31 +29,35 @@ std::string Num(double v, const char* fmt = "%g") {
 
 bool Usable(const std::optional<double>& v) { return v && std::isfinite(*v) && *v > 0; }
 
-int BadUsage(const std::string& message) {
-  std::cerr << "dropfit track: " << message << "\n";
+int BadUsage(std::ostream& err, const std::string& message) {
+  err << "dropfit track: " << message << "\n";
   return kExitBadUsage;
 }
 
-// Progress on stderr, only on a terminal: "frames 1200/4000".
+// Progress on `err`, only when it is the standard error stream on a terminal: "frames 1200/4000".
 class TerminalProgress {
  public:
-  TerminalProgress() : enabled_(isatty(fileno(stderr)) != 0) {}
+  explicit TerminalProgress(std::ostream& err)
+      : err_(err), enabled_(&err == &std::cerr && isatty(fileno(stderr)) != 0) {}
   void operator()(int done, int total) {
     if (!enabled_) return;
+    char line[96];
     if (total > 0) {
-      std::fprintf(stderr, "\rtracking: frame %d of %d (%d%%)", done, total, static_cast<int>(100.0 * done / total));
+      std::snprintf(line, sizeof line, "\rtracking: frame %d of %d (%d%%)", done, total,
+                    static_cast<int>(100.0 * done / total));
     } else {
-      std::fprintf(stderr, "\rtracking: frame %d", done);
+      std::snprintf(line, sizeof line, "\rtracking: frame %d", done);
     }
-    std::fflush(stderr);
+    err_ << line << std::flush;
     shown_ = true;
   }
   void Done() {
-    if (shown_) std::fprintf(stderr, "\n");
+    if (shown_) err_ << "\n";
   }
   bool enabled() const { return enabled_; }
 
  private:
+  std::ostream& err_;
   bool enabled_;
   bool shown_ = false;
 };
@@ -96,16 +100,16 @@ std::optional<std::string> StartSingleClip(const std::string& marker, const std:
   return std::nullopt;
 }
 
-int RunTrack(const TrackCommandOptions& options) {
+int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream& err) {
   // Everything the command cannot start from is checked before anything is written.
   if (options.fps && !Usable(options.fps)) {
-    return BadUsage("--fps " + Num(*options.fps) + " is not a positive number of frames per second");
+    return BadUsage(err, "--fps " + Num(*options.fps) + " is not a positive number of frames per second");
   }
-  if (options.out_dir.empty()) return BadUsage("-o DIR is required: the folder for track.csv and result.json");
+  if (options.out_dir.empty()) return BadUsage(err, "-o DIR is required: the folder for track.csv and result.json");
   tracker::TrackOptions track_options;
   calib::Rig rig;
   if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
-    return BadUsage(*message);
+    return BadUsage(err, *message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
 
@@ -117,7 +121,7 @@ int RunTrack(const TrackCommandOptions& options) {
       {"track_options", "marker=" + options.marker + (options.seed.empty() ? "" : " seed=" + options.seed) +
                             (options.fps ? " fps=" + Num(*options.fps) : "") +
                             (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
-  const fs::path out(options.out_dir);
+  const fs::path out_dir(options.out_dir);
 
   // The start-up checks shared with analyze and run (cli/clip_pipeline.h). A set-up problem
   // (no capture rate, a rig for another image size) stops the command; a clip that cannot be
@@ -127,22 +131,22 @@ int RunTrack(const TrackCommandOptions& options) {
   request.clip_id = result.clip;
   request.fps_option = options.fps;
   pipeline::OpenedClip opened = pipeline::OpenClip(request, rig);
-  if (opened.setup_problem) return BadUsage(opened.problem + "; nothing was written");
+  if (opened.setup_problem) return BadUsage(err, *opened.problem + "; nothing was written");
   media::FrameSource* source = opened.source.get();
   const std::optional<pipeline::CaptureRate>& rate = opened.rate;
 
-  fs::create_directories(out, ec);
-  if (ec) return BadUsage(options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
+  fs::create_directories(out_dir, ec);
+  if (ec) return BadUsage(err, options.out_dir + ": cannot create the output folder (" + ec.message() + ")");
 
   std::vector<TrackRow> rows;
   if (!source) {
     // Nothing decodes: the clip fails; the files still say why.
-    result.errors.push_back(opened.problem);
+    result.errors.push_back(opened.problem.value_or(""));
   } else {
     result.capture_fps = rate->fps;
     result.capture_fps_source = pipeline::ToString(rate->source);
     if (rate->warning) result.warnings.push_back(options.clip + ": " + *rate->warning);
-    TerminalProgress progress;
+    TerminalProgress progress(err);
     tracker::OverlayOptions overlay;
     overlay.path = options.overlay_path;
     tracker::Track track;
@@ -151,10 +155,10 @@ int RunTrack(const TrackCommandOptions& options) {
                                  progress.enabled() ? tracker::ProgressCallback(std::ref(progress)) : nullptr, overlay);
     } catch (const std::invalid_argument& e) {
       progress.Done();
-      return BadUsage(e.what());
+      return BadUsage(err, e.what());
     } catch (const std::runtime_error& e) {
       progress.Done();
-      return BadUsage(e.what());
+      return BadUsage(err, e.what());
     }
     progress.Done();
     AddTrackToResult(track, result);
@@ -162,17 +166,19 @@ int RunTrack(const TrackCommandOptions& options) {
     if (track.frames == 0) result.errors.push_back(options.clip + ": no frames could be read");
   }
 
-  WriteTrackCsv(out / "track.csv", rows);
-  WriteClipResult(out / "result.json", result);
+  WriteTrackCsv(out_dir / "track.csv", rows);
+  WriteClipResult(out_dir / "result.json", result);
 
-  for (const std::string& w : result.warnings) std::cerr << "warning: " << w << "\n";
-  for (const std::string& e : result.errors) std::cerr << "error: " << e << "\n";
-  std::cout << result.clip << ": " << result.tracked_frames << " of " << result.frames << " frames tracked";
+  for (const std::string& w : result.warnings) err << "warning: " << w << "\n";
+  for (const std::string& e : result.errors) err << "error: " << e << "\n";
+  out << result.clip << ": " << result.tracked_frames << " of " << result.frames << " frames tracked";
   for (const auto& [name, text] : result.info) {
-    if (name == "marker_choice" && !text.empty()) std::cout << "; marker: " << text;
+    if (name == "marker_choice" && !text.empty()) out << "; marker: " << text;
   }
-  std::cout << "\nwrote " << (out / "track.csv").string() << " and " << (out / "result.json").string() << "\n";
+  out << "\nwrote " << (out_dir / "track.csv").string() << " and " << (out_dir / "result.json").string() << "\n";
   return result.errors.empty() ? kExitDone : kExitPartial;
 }
+
+int RunTrack(const TrackCommandOptions& options) { return RunTrack(options, std::cout, std::cerr); }
 
 }  // namespace dropfit::cli

@@ -18,6 +18,7 @@
 //
 // The pieces below are shared with `analyze` (the clip itself goes through pipeline/clip.h).
 
+#include <iosfwd>
 #include <optional>
 #include <string>
 #include <vector>
@@ -38,7 +39,9 @@ struct TrackCommandOptions {
   std::string out_dir;          // folder for track.csv and result.json
 };
 
-// Returns the contract's exit status.
+// Returns the contract's exit status. Messages and progress go to `err`, the summary to `out`.
+int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream& err);
+// Same, on std::cout and std::cerr.
 int RunTrack(const TrackCommandOptions& options);
 
 // Parses "U,V" (pixels, two finite numbers). Throws std::invalid_argument naming the text.

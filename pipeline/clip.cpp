@@ -25,7 +25,8 @@ void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurem
   m.fits_attempted = true;
   if (!m.fit_clip->windows.empty()) {
     m.laws = analysis::FitAllLaws({*m.fit_clip}, m.fit_options);
-    for (const analysis::LawFitResult& fit : m.laws->fits) m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
+    for (const analysis::LawFitResult& fit : m.laws->fits)
+      m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
     if (m.laws->best && !kinematics_options.onset_height_m) {
       const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->best)];
       analysis::KinematicsOptions refit = kinematics_options;
@@ -131,7 +132,7 @@ analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const cali
 TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
                             const ClipProgress& progress) {
   if (!opened.ok() || !opened.source || !opened.rate)
-    throw std::invalid_argument("TrackOpenedClip: the clip was not opened: " + opened.problem);
+    throw std::invalid_argument("TrackOpenedClip: the clip was not opened: " + opened.problem.value_or("no source"));
   tracker::TrackOptions track_options;
   track_options.marker = request.marker;
   track_options.seed_px = request.seed_px;
@@ -142,8 +143,8 @@ TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, O
   return out;
 }
 
-ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series,
-                            double fps, const MeasureOptions& options) {
+ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series, double fps,
+                            const MeasureOptions& options) {
   ClipMeasurement m;
   m.series = std::move(series);
   m.conditions = DropConditionsOf(request);
@@ -166,8 +167,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
       m.onset_refitted = true;
     }
   }
-  m.track_force =
-      TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
+  m.track_force = TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
   return m;
 }
 

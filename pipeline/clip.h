@@ -70,13 +70,13 @@ analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
 struct OpenedClip {
   std::unique_ptr<media::FrameSource> source;  // null when nothing can be read from the clip
   std::optional<CaptureRate> rate;             // set when the clip can be tracked
-  // Why the clip cannot be tracked, naming the clip and saying what to do; empty when it can.
-  std::string problem;
+  // Why the clip cannot be tracked, naming the clip and saying what to do; unset when it can.
+  std::optional<std::string> problem;
   // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a
   // rig made for another image size): the single-clip commands stop with exit status 2 and write
   // nothing; a folder run fails that clip only.
   bool setup_problem = false;
-  bool ok() const { return problem.empty(); }
+  bool ok() const { return !problem.has_value(); }
 };
 // Never throws for a problem of the clip; those come back in `problem`.
 OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
@@ -126,8 +126,8 @@ struct MeasureOptions {
 
 // Measures a clip from its series. Throws std::invalid_argument for an invalid series or
 // request; a clip that cannot be analysed comes back with kinematics.failure set.
-ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series,
-                            double fps, const MeasureOptions& options);
+ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series, double fps,
+                            const MeasureOptions& options);
 
 // The whole road of one clip. Stops early, leaving the later parts unset, when the clip cannot be
 // opened, no frame was read, or the marker was never found (`stopped` says which).

@@ -27,10 +27,10 @@ struct SpecimenResult {
   analysis::LawFitOptions fit_options;
   // The geometry's onset height (floor + free radius), where known: the joint fit's start.
   std::optional<double> geometry_onset_height_m;
-  CorCurvePoints measured_cor;           // complete impacts of every clip with a finite COR
-  std::vector<CorCurvePoints> law_cor;   // one per fit->laws, over 0.8..1.2 x the measured speeds;
-                                         // none when the measured speeds span no range
-  double seconds = 0.0;                  // wall time of the joint fits
+  CorCurvePoints measured_cor;          // complete impacts of every clip with a finite COR
+  std::vector<CorCurvePoints> law_cor;  // one per fit->laws, over 0.8..1.2 x the measured speeds;
+                                        // none when the measured speeds span no range
+  double seconds = 0.0;                 // wall time of the joint fits
 };
 
 // The joint fit's input of one clip: its fit input with the onset height left free. The joint
