@@ -12,6 +12,7 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "calib/calibrate_steps.h"
 #include "dropfit/version.h"
 
 namespace dropfit::calib {
@@ -44,14 +45,17 @@ std::string Plural(size_t n, const std::string& one, const std::string& many) {
   return std::to_string(n) + " " + (n == 1 ? one : many);
 }
 
-std::vector<cv::Point3f> BoardPoints3d(const BoardSpec& b) {
-  std::vector<cv::Point3f> pts;
-  for (int j = 0; j < b.rows; ++j) {
-    for (int i = 0; i < b.columns; ++i) {
-      pts.emplace_back(static_cast<float>(i * b.square_m), static_cast<float>(j * b.square_m), 0.f);
-    }
-  }
-  return pts;
+// The inner corners' board coordinates (X, Y) [m], row by row.
+std::vector<cv::Point2f> BoardPoints2d(const BoardSpec& board) {
+  std::vector<cv::Point2f> board_2d;
+  for (const cv::Point3f& p : BoardPoints3d(board)) board_2d.emplace_back(p.x, p.y);
+  return board_2d;
+}
+
+// A homography applied to a point.
+cv::Point2d Apply(const cv::Matx33d& h, cv::Point2d p) {
+  const cv::Vec3d q = h * cv::Vec3d(p.x, p.y, 1.0);
+  return cv::Point2d(q[0] / q[2], q[1] / q[2]);
 }
 
 double Bilinear(const cv::Mat& grey, double x, double y) {
@@ -69,118 +73,9 @@ double Median(std::vector<double> v) {
   return v[v.size() / 2];
 }
 
-// The four outer inner-corners, in order around the board.
-std::vector<cv::Point2f> OuterQuad(const std::vector<cv::Point2f>& c, const BoardSpec& b) {
-  const size_t last = c.size() - 1;
-  return {c[0], c[static_cast<size_t>(b.columns) - 1], c[last], c[last - static_cast<size_t>(b.columns) + 1]};
-}
-
 bool FindCorners(const cv::Mat& grey, const BoardSpec& b, std::vector<cv::Point2f>& corners) {
   return cv::findChessboardCornersSB(grey, cv::Size(b.columns, b.rows), corners, cv::CALIB_CB_NORMALIZE_IMAGE);
 }
-
-struct LensFit {
-  double rms_px = 0.0;
-  cv::Matx33d camera_matrix;
-  std::vector<double> distortion;
-  std::vector<cv::Mat> rvecs, tvecs;
-  std::string terms;
-  std::vector<double> view_rms_px;
-};
-
-LensFit FitLens(const std::vector<std::vector<cv::Point3f>>& object, const std::vector<std::vector<cv::Point2f>>& image,
-                cv::Size size) {
-  struct Candidate {
-    int flags;
-    const char* terms;
-    int n_terms;
-  };
-  const Candidate candidates[] = {
-      {cv::CALIB_FIX_K2 | cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1", 1},
-      {cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1,k2", 2},
-      {cv::CALIB_FIX_K3, "k1,k2,p1,p2", 4},
-      {0, "k1,k2,p1,p2,k3", 5},
-  };
-  size_t corners = 0;
-  for (const auto& v : image) corners += v.size();
-  const double n = 2.0 * static_cast<double>(corners);
-  LensFit best;
-  double best_bic = INFINITY;
-  for (const Candidate& c : candidates) {
-    cv::Mat k, dist;
-    std::vector<cv::Mat> rvecs, tvecs;
-    const double rms =
-        cv::calibrateCamera(object, image, size, k, dist, rvecs, tvecs, c.flags,
-                            cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, DBL_EPSILON));
-    if (!std::isfinite(rms)) continue;
-    // BIC (Schwarz 1978) with RSS/n = rms^2 / 2; the constant offset does not change the choice.
-    const double bic = n * std::log(std::max(rms * rms, 1e-300)) + c.n_terms * std::log(n);
-    if (bic < best_bic) {
-      best_bic = bic;
-      best.rms_px = rms;
-      best.camera_matrix = cv::Matx33d(k);
-      best.distortion.assign(dist.begin<double>(), dist.end<double>());
-      best.rvecs = rvecs;
-      best.tvecs = tvecs;
-      best.terms = c.terms;
-    }
-  }
-  if (!std::isfinite(best_bic)) throw std::runtime_error("cv::calibrateCamera returned no finite fit");
-  best.distortion.resize(5, 0.0);
-  for (size_t v = 0; v < image.size(); ++v) {
-    std::vector<cv::Point2f> projected;
-    cv::projectPoints(object[v], best.rvecs[v], best.tvecs[v], best.camera_matrix, best.distortion, projected);
-    double sum = 0;
-    for (size_t i = 0; i < projected.size(); ++i) {
-      const cv::Point2f d = projected[i] - image[v][i];
-      sum += d.dot(d);
-    }
-    best.view_rms_px.push_back(std::sqrt(sum / static_cast<double>(projected.size())));
-  }
-  return best;
-}
-
-// Largest angle between two views' board normals [deg].
-double TiltSpreadDeg(const std::vector<cv::Mat>& rvecs) {
-  std::vector<cv::Vec3d> normals;
-  for (const cv::Mat& r : rvecs) {
-    cv::Matx33d rot;
-    cv::Rodrigues(r, rot);
-    normals.emplace_back(rot(0, 2), rot(1, 2), rot(2, 2));
-  }
-  double spread = 0;
-  for (size_t i = 0; i < normals.size(); ++i) {
-    for (size_t j = i + 1; j < normals.size(); ++j) {
-      const double c = std::clamp(normals[i].dot(normals[j]), -1.0, 1.0);
-      spread = std::max(spread, std::acos(c) * 180.0 / kPi);
-    }
-  }
-  return spread;
-}
-
-// Share of a 20 x 20 grid of cell centres inside at least one board's outer quad.
-double CoverageFraction(const std::vector<std::vector<cv::Point2f>>& quads, cv::Size size) {
-  constexpr int kCells = 20;
-  int covered = 0;
-  for (int gy = 0; gy < kCells; ++gy) {
-    for (int gx = 0; gx < kCells; ++gx) {
-      const cv::Point2f p((gx + 0.5f) * static_cast<float>(size.width) / kCells - 0.5f,
-                          (gy + 0.5f) * static_cast<float>(size.height) / kCells - 0.5f);
-      for (const auto& q : quads) {
-        if (cv::pointPolygonTest(q, p, false) >= 0) {
-          ++covered;
-          break;
-        }
-      }
-    }
-  }
-  return covered / static_cast<double>(kCells * kCells);
-}
-
-struct DetectedView {
-  std::string name;
-  BoardDetection detection;
-};
 
 // Looks for a board of a nearby size (the user may have counted squares, or swapped nothing but
 // miscounted) in the first few images, so the "no board" message can name the right --board.
@@ -346,210 +241,137 @@ BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subp
   return out;
 }
 
-CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const CalibrationImage& plane,
-                             const CalibrateOptions& options) {
-  if (const auto problem = ValidateCalibrateOptions(options)) throw std::invalid_argument(*problem);
-  if (plane.grey.empty()) throw std::invalid_argument("the plane view " + plane.name + " is empty");
-  const cv::Size size = plane.grey.size();
-  CheckImage(plane, size);
-  for (const CalibrationImage& v : views) CheckImage(v, size);
+// --- The steps (calib/calibrate_steps.h) ---
 
-  const BoardSpec& board = options.board;
-  const std::string board_text = BoardSizeToString(board);
-  CalibrationOutcome out;
-  const auto warn = [&out](const std::string& w) { out.warnings.push_back(w); };
-  const auto refuse = [&out](const std::string& why) {
-    out.refusal = why;
-    return out;
+std::vector<cv::Point3f> BoardPoints3d(const BoardSpec& b) {
+  std::vector<cv::Point3f> pts;
+  for (int j = 0; j < b.rows; ++j) {
+    for (int i = 0; i < b.columns; ++i) {
+      pts.emplace_back(static_cast<float>(i * b.square_m), static_cast<float>(j * b.square_m), 0.f);
+    }
+  }
+  return pts;
+}
+
+std::vector<cv::Point2f> OuterQuad(const std::vector<cv::Point2f>& c, const BoardSpec& b) {
+  const size_t last = c.size() - 1;
+  return {c[0], c[static_cast<size_t>(b.columns) - 1], c[last], c[last - static_cast<size_t>(b.columns) + 1]};
+}
+
+LensFit FitLens(const std::vector<std::vector<cv::Point3f>>& object, const std::vector<std::vector<cv::Point2f>>& image,
+                cv::Size size) {
+  struct Candidate {
+    int flags;
+    const char* terms;
+    int n_terms;
   };
+  const Candidate candidates[] = {
+      {cv::CALIB_FIX_K2 | cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1", 1},
+      {cv::CALIB_FIX_K3 | cv::CALIB_ZERO_TANGENT_DIST, "k1,k2", 2},
+      {cv::CALIB_FIX_K3, "k1,k2,p1,p2", 4},
+      {0, "k1,k2,p1,p2,k3", 5},
+  };
+  size_t corners = 0;
+  for (const auto& v : image) corners += v.size();
+  const double n = 2.0 * static_cast<double>(corners);
+  LensFit best;
+  double best_bic = INFINITY;
+  for (const Candidate& c : candidates) {
+    cv::Mat k, dist;
+    std::vector<cv::Mat> rvecs, tvecs;
+    const double rms =
+        cv::calibrateCamera(object, image, size, k, dist, rvecs, tvecs, c.flags,
+                            cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, DBL_EPSILON));
+    if (!std::isfinite(rms)) continue;
+    // BIC (Schwarz 1978) with RSS/n = rms^2 / 2; the constant offset does not change the choice.
+    const double bic = n * std::log(std::max(rms * rms, 1e-300)) + c.n_terms * std::log(n);
+    if (bic < best_bic) {
+      best_bic = bic;
+      best.rms_px = rms;
+      best.camera_matrix = cv::Matx33d(k);
+      best.distortion.assign(dist.begin<double>(), dist.end<double>());
+      best.rvecs = rvecs;
+      best.tvecs = tvecs;
+      best.terms = c.terms;
+    }
+  }
+  if (!std::isfinite(best_bic)) throw std::runtime_error("cv::calibrateCamera returned no finite fit");
+  best.distortion.resize(5, 0.0);
+  for (size_t v = 0; v < image.size(); ++v) {
+    std::vector<cv::Point2f> projected;
+    cv::projectPoints(object[v], best.rvecs[v], best.tvecs[v], best.camera_matrix, best.distortion, projected);
+    double sum = 0;
+    for (size_t i = 0; i < projected.size(); ++i) {
+      const cv::Point2f d = projected[i] - image[v][i];
+      sum += d.dot(d);
+    }
+    best.view_rms_px.push_back(std::sqrt(sum / static_cast<double>(projected.size())));
+  }
+  return best;
+}
 
-  // 1. Corners.
-  const auto detect = [&](const cv::Mat& grey) { return DetectBoard(grey, board, options.subpix_half_window_px); };
-  const BoardDetection plane_det = detect(plane.grey);
-  std::vector<DetectedView> usable;
-  std::vector<std::string> no_board, blurred, dropped;
-  std::vector<const CalibrationImage*> all_images{&plane};
-  for (const CalibrationImage& v : views) {
-    if (v.name == plane.name) continue;
-    all_images.push_back(&v);
-    BoardDetection d = detect(v.grey);
-    if (!d.found) {
-      no_board.push_back(v.name);
-    } else if (d.blur_px > options.max_blur_px) {
-      blurred.push_back(v.name);
-      dropped.push_back(v.name + ": blurred (edge blur " + Fmt(d.blur_px, 1) + " px, limit " +
-                        Num(options.max_blur_px) + " px)");
-    } else {
-      usable.push_back({v.name, std::move(d)});
-    }
+LensFitWithoutOutliers FitLensWithoutOutliers(std::vector<std::string> names,
+                                              std::vector<std::vector<cv::Point2f>> corners_px, const BoardSpec& board,
+                                              cv::Size size, double outlier_factor, double outlier_floor_px) {
+  if (names.size() != corners_px.size() || names.size() < static_cast<size_t>(kFewestLensViews)) {
+    throw std::invalid_argument("FitLensWithoutOutliers needs at least " + std::to_string(kFewestLensViews) +
+                                " views with one name each; got " + std::to_string(names.size()) + " names and " +
+                                std::to_string(corners_px.size()) + " corner sets");
   }
-  const size_t lens_images = all_images.size() - 1;
+  LensFitWithoutOutliers out;
+  const auto object_pts = [&] {
+    return std::vector<std::vector<cv::Point3f>>(corners_px.size(), BoardPoints3d(board));
+  };
+  LensFit fit = FitLens(object_pts(), corners_px, size);
+  // Drop views far worse than the rest, worst first, one at a time (never the plane view, index 0).
+  while (corners_px.size() > static_cast<size_t>(kFewestLensViews)) {
+    const double median = Median(fit.view_rms_px);
+    const auto worst = std::max_element(fit.view_rms_px.begin() + 1, fit.view_rms_px.end());
+    if (!(*worst > outlier_factor * median && *worst > outlier_floor_px)) break;
+    const size_t w = static_cast<size_t>(worst - fit.view_rms_px.begin());
+    out.dropped.push_back(names[w] + ": RMS " + Fmt(*worst, 2) + " px, far above the median " + Fmt(median, 2) + " px");
+    out.warnings.push_back("view " + names[w] + " left out: its RMS reprojection error " + Fmt(*worst, 2) +
+                           " px is far above the median " + Fmt(median, 2) +
+                           " px (a moved, bent or mis-detected board)");
+    names.erase(names.begin() + static_cast<long>(w));
+    corners_px.erase(corners_px.begin() + static_cast<long>(w));
+    fit = FitLens(object_pts(), corners_px, size);
+  }
+  const double median = Median(fit.view_rms_px);
+  if (fit.view_rms_px[0] > outlier_factor * median && fit.view_rms_px[0] > outlier_floor_px) {
+    out.warnings.push_back("the plane view " + names[0] + " fits the lens model worse than the other views (RMS " +
+                           Fmt(fit.view_rms_px[0], 2) + " px against a median of " + Fmt(median, 2) +
+                           " px): check that it shows the same flat board, still and sharp");
+  }
+  out.fit = std::move(fit);
+  out.names = std::move(names);
+  out.corners_px = std::move(corners_px);
+  return out;
+}
 
-  if (!plane_det.found && no_board.size() == lens_images) {
-    std::string msg = "no checkerboard with " + board_text + " inner corners was found in any of the " +
-                      Plural(all_images.size(), "image", "images");
-    if (const auto other = FindOtherBoardSize(all_images, board)) {
-      return refuse(msg + ", but one with " + BoardSizeToString(other->first) + " inner corners was found in " +
-                    other->second + ": pass --board " + BoardSizeToString(other->first) +
-                    " (inner corners, not squares)");
-    }
-    return refuse(msg +
-                  "; check --board (count inner corners, not squares: a board of 10 x 7 squares has 9x6 inner "
-                  "corners) and that the whole board, with its white border, is in view and in focus");
-  }
-  if (!plane_det.found) {
-    return refuse(
-        "no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
-        ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it");
-  }
-  if (plane_det.blur_px > options.max_blur_px) {
-    const std::string msg = "the plane view " + plane.name + " is blurred (edge blur " + Fmt(plane_det.blur_px, 1) +
-                            " px, limit " + Num(options.max_blur_px) + " px): retake it in focus with the board still";
-    if (!options.force) return refuse(msg + ", or pass --force");
-    warn("forced (--force): " + msg);
-  }
-  if (!no_board.empty()) {
-    out.notes.push_back("no " + board_text + " board found in " + Plural(no_board.size(), "image", "images") + ": " +
-                        JoinNames(no_board));
-    warn("no " + board_text + " board found in " + std::to_string(no_board.size()) + " of " +
-         Plural(lens_images, "view", "views") + " (left out): " + JoinNames(no_board));
-  }
-  if (!blurred.empty()) {
-    warn(Plural(blurred.size(), "view was", "views were") + " left out as blurred (edge blur above " +
-         Num(options.max_blur_px) + " px): " + JoinNames(blurred) +
-         "; refocus, shorten the exposure or hold the board still");
-  }
-
-  // 2. Lens model.
-  Rig rig;
-  rig.image_size = size;
-  rig.board = board;
-  rig.plane_view = plane.name;
-  rig.up = options.up;
-  rig.capture_fps = options.capture_fps;
-  rig.tool_version = kVersion;
-  RecordSettings(options, rig);
-
-  const size_t n_usable = usable.size() + 1;  // the plane view is a lens view too
-  bool fit_lens = lens_images > 0;
-  if (!fit_lens) {
-    warn(
-        "no lens model (only the plane view was given): lens distortion is not corrected, so positions away from "
-        "the plane view's board can be off by several pixels, most near the frame's edges, and the rig cannot tell "
-        "by how much; give 10-20 further views of the board at different positions and tilts for a lens model");
-  } else if (n_usable < static_cast<size_t>(options.min_lens_views)) {
-    std::string msg = "only " + Plural(n_usable, "usable view", "usable views") + " of the board (need " +
-                      std::to_string(options.min_lens_views) + " for a lens model)";
-    if (!no_board.empty()) msg += "; no board in " + Plural(no_board.size(), "image", "images");
-    if (!blurred.empty()) {
-      msg += "; " + std::to_string(blurred.size()) + " too blurred (edge blur above " + Num(options.max_blur_px) +
-             " px: refocus, shorten the exposure or hold the board still)";
-    }
-    msg += ": add views of the board at different positions and tilts (20-40 degrees) over the whole frame";
-    if (!options.force) return refuse(msg + ", or pass --force to accept a weaker calibration");
-    if (n_usable < static_cast<size_t>(kFewestLensViews)) {
-      fit_lens = false;
-      warn("forced (--force): " + msg +
-           "; too few for any lens model, so none is used and lens distortion is not corrected");
-    } else {
-      warn("forced (--force): " + msg);
-    }
-  }
-
-  std::vector<std::vector<cv::Point2f>> lens_quads;
-  if (fit_lens) {
-    std::vector<std::string> names{plane.name};
-    std::vector<std::vector<cv::Point2f>> image_pts{plane_det.corners_px};
-    for (const DetectedView& v : usable) {
-      names.push_back(v.name);
-      image_pts.push_back(v.detection.corners_px);
-    }
-    const auto object_pts = [&] {
-      return std::vector<std::vector<cv::Point3f>>(image_pts.size(), BoardPoints3d(board));
-    };
-    LensFit fit = FitLens(object_pts(), image_pts, size);
-    // Drop views far worse than the rest, worst first, one at a time (never the plane view, index 0).
-    while (image_pts.size() > static_cast<size_t>(kFewestLensViews)) {
-      const double median = Median(fit.view_rms_px);
-      const auto worst = std::max_element(fit.view_rms_px.begin() + 1, fit.view_rms_px.end());
-      if (!(*worst > options.outlier_factor * median && *worst > options.outlier_floor_px)) break;
-      const size_t w = static_cast<size_t>(worst - fit.view_rms_px.begin());
-      dropped.push_back(names[w] + ": RMS " + Fmt(*worst, 2) + " px, far above the median " + Fmt(median, 2) + " px");
-      warn("view " + names[w] + " left out: its RMS reprojection error " + Fmt(*worst, 2) +
-           " px is far above the median " + Fmt(median, 2) + " px (a moved, bent or mis-detected board)");
-      names.erase(names.begin() + static_cast<long>(w));
-      image_pts.erase(image_pts.begin() + static_cast<long>(w));
-      fit = FitLens(object_pts(), image_pts, size);
-    }
-    {
-      const double median = Median(fit.view_rms_px);
-      if (fit.view_rms_px[0] > options.outlier_factor * median && fit.view_rms_px[0] > options.outlier_floor_px) {
-        warn("the plane view " + plane.name + " fits the lens model worse than the other views (RMS " +
-             Fmt(fit.view_rms_px[0], 2) + " px against a median of " + Fmt(median, 2) +
-             " px): check that it shows the same flat board, still and sharp");
-      }
-    }
-    if (fit.rms_px > options.max_rms_px) {
-      const std::string msg = "the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (limit " +
-                              Num(options.max_rms_px) +
-                              " px): the corners do not fit one lens model; check that every view shows the same "
-                              "flat board and that zoom and focus did not change between views";
-      if (!options.force) return refuse(msg + ", or pass --force");
-      warn("forced (--force): " + msg);
-    } else if (fit.rms_px > options.warn_rms_px) {
-      warn("the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (above " + Num(options.warn_rms_px) +
-           " px): expect position errors of that order; sharper views and a flatter board improve it");
-    }
-    LensModel lens;
-    lens.camera_matrix = fit.camera_matrix;
-    lens.distortion = fit.distortion;
-    rig.lens = lens;
-    rig.quality.rms_reprojection_px = fit.rms_px;
-    rig.quality.view_names = names;
-    rig.quality.view_rms_px = fit.view_rms_px;
-    rig.quality.distortion_terms = fit.terms;
-    rig.quality.tilt_spread_deg = TiltSpreadDeg(fit.rvecs);
-    for (const auto& pts : image_pts) lens_quads.push_back(OuterQuad(pts, board));
-    rig.quality.views_coverage_fraction = CoverageFraction(lens_quads, size);
-    if (rig.quality.tilt_spread_deg < options.min_tilt_spread_deg) {
-      warn("the views' board tilts span only " + Fmt(rig.quality.tilt_spread_deg, 1) + " degrees (below " +
-           Num(options.min_tilt_spread_deg) +
-           "): focal length and distortion are poorly separated; add views with the board tilted 20-40 degrees "
-           "about both axes");
-    }
-    if (rig.quality.views_coverage_fraction < options.min_views_coverage_fraction) {
-      warn("the lens views' boards cover " + Fmt(100 * rig.quality.views_coverage_fraction, 0) +
-           " % of the frame (below " + Num(100 * options.min_views_coverage_fraction) +
-           " %): distortion near the uncovered edges is extrapolated; add views with the board near the frame's "
-           "edges and corners");
-    }
-  }
-  rig.quality.dropped_views = dropped;
-
-  // 3. The plane: homography board -> undistorted pixels, then board -> plane metres.
-  std::vector<cv::Point2f> und = plane_det.corners_px;
-  if (rig.lens) {
-    cv::undistortPoints(plane_det.corners_px, und, rig.lens->camera_matrix, rig.lens->distortion, cv::noArray(),
-                        rig.lens->camera_matrix,
+std::optional<PlaneHomography> FitPlaneHomography(const std::vector<cv::Point2f>& corners_px, const BoardSpec& board,
+                                                  const std::optional<LensModel>& lens) {
+  std::vector<cv::Point2f> und = corners_px;
+  if (lens) {
+    cv::undistortPoints(corners_px, und, lens->camera_matrix, lens->distortion, cv::noArray(), lens->camera_matrix,
                         cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, 1e-12));
   }
-  std::vector<cv::Point2f> board_2d;
-  for (const cv::Point3f& p : BoardPoints3d(board)) board_2d.emplace_back(p.x, p.y);
+  const std::vector<cv::Point2f> board_2d = BoardPoints2d(board);
   const cv::Mat h_mat = cv::findHomography(board_2d, und, 0);
-  if (h_mat.empty())
-    return refuse("the plane view's corners gave no plane mapping (degenerate board detection); retake it");
-  const cv::Matx33d und_from_board(h_mat);
-  const auto to_image = [&](cv::Point2d b) {
-    const cv::Vec3d q = und_from_board * cv::Vec3d(b.x, b.y, 1.0);
-    return cv::Point2d(q[0] / q[2], q[1] / q[2]);
-  };
-  double plane_sum = 0;
+  if (h_mat.empty()) return std::nullopt;
+  PlaneHomography out;
+  out.undistorted_from_board = cv::Matx33d(h_mat);
+  double sum = 0;
   for (size_t i = 0; i < und.size(); ++i) {
-    const cv::Point2d d = to_image(board_2d[i]) - cv::Point2d(und[i]);
-    plane_sum += d.dot(d);
+    const cv::Point2d d = Apply(out.undistorted_from_board, board_2d[i]) - cv::Point2d(und[i]);
+    sum += d.dot(d);
   }
-  rig.quality.plane_rms_px = std::sqrt(plane_sum / static_cast<double>(und.size()));
+  out.rms_px = std::sqrt(sum / static_cast<double>(und.size()));
+  return out;
+}
 
+BoardAxes FindBoardAxes(const cv::Matx33d& undistorted_from_board, const BoardSpec& board, UpSide up) {
+  const auto to_image = [&](cv::Point2d b) { return Apply(undistorted_from_board, b); };
   // Board axes as seen in the image, at the board's centre.
   const cv::Point2d centre_b(0.5 * (board.columns - 1) * board.square_m, 0.5 * (board.rows - 1) * board.square_m);
   const double step = 0.5 * board.square_m;
@@ -560,7 +382,7 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
                                  cv::Vec2d(to_image(centre_b - cv::Point2d(0, step)) - c_img)};
   const cv::Vec2d axis_board[4] = {{1, 0}, {-1, 0}, {0, 1}, {0, -1}};
   cv::Vec2d side;
-  switch (options.up) {
+  switch (up) {
     case UpSide::kTop:
       side = {0, -1};
       break;
@@ -583,91 +405,424 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
       up_axis = a;
     }
   }
-  const cv::Vec2d up_b = axis_board[up_axis];
+  BoardAxes axes;
+  axes.up_board = axis_board[up_axis];
   // x_m: the perpendicular board axis, signed so that (x, up) turn like (right, up) in the image
   // (negative 2-D cross product with v down).
   const int x_axis = up_axis < 2 ? 2 : 0;
   const auto cross = [](cv::Vec2d a, cv::Vec2d b) { return a[0] * b[1] - a[1] * b[0]; };
-  const cv::Vec2d x_b = cross(axis_img[x_axis], axis_img[up_axis]) < 0 ? axis_board[x_axis] : -axis_board[x_axis];
-  const double off_deg = std::acos(std::clamp(best_cos, -1.0, 1.0)) * 180.0 / kPi;
-  if (off_deg > 30.0) {
-    warn("the plane view's board is turned " + Fmt(off_deg, 0) + " degrees from the image's " + ToString(options.up) +
-         " side; the vertical is taken from the board's edges, so the board must stand upright in the drop plane");
-  }
+  axes.x_board = cross(axis_img[x_axis], axis_img[up_axis]) < 0 ? axis_board[x_axis] : -axis_board[x_axis];
+  axes.off_up_deg = std::acos(std::clamp(best_cos, -1.0, 1.0)) * 180.0 / kPi;
+  return axes;
+}
+
+PlaneOrigin PlaceOrigin(const std::vector<cv::Point2f>& corners_px, const BoardSpec& board, const BoardAxes& axes,
+                        std::optional<double> corner_height_m) {
+  const std::vector<cv::Point2f> board_2d = BoardPoints2d(board);
+  const cv::Vec2d &up_b = axes.up_board, &x_b = axes.x_board;
   double x_min = INFINITY, y_min = INFINITY;
   for (const cv::Point2f& b : board_2d) {
     x_min = std::min(x_min, x_b[0] * b.x + x_b[1] * b.y);
     y_min = std::min(y_min, up_b[0] * b.x + up_b[1] * b.y);
   }
-  const double y_lowest_row_m = options.corner_height_m.value_or(0.0);
-  const cv::Matx33d plane_from_board(x_b[0], x_b[1], -x_min, up_b[0], up_b[1], -y_min + y_lowest_row_m, 0, 0, 1);
-  rig.plane_from_undistorted = plane_from_board * und_from_board.inv();
+  const double y_lowest_row_m = corner_height_m.value_or(0.0);
+  PlaneOrigin out;
+  out.plane_from_board = cv::Matx33d(x_b[0], x_b[1], -x_min, up_b[0], up_b[1], -y_min + y_lowest_row_m, 0, 0, 1);
+  // Lowest corner row in the image: the corners with the smallest y_m.
+  double v_sum = 0;
+  int n = 0;
+  for (size_t i = 0; i < board_2d.size(); ++i) {
+    if (std::abs(up_b[0] * board_2d[i].x + up_b[1] * board_2d[i].y - y_min) < 1e-9) {
+      v_sum += corners_px[i].y;
+      ++n;
+    }
+  }
+  out.lowest_corner_row_px = v_sum / n;
+  return out;
+}
+
+PlanePose PlaneViewPose(const std::vector<cv::Point2f>& corners_px, const BoardSpec& board,
+                        const cv::Matx33d& plane_from_board, const LensModel& lens) {
+  // Pose of the frame in which plane point (x_m, y_m) is (x_m, -y_m, 0).
+  std::vector<cv::Point3d> obj;
+  for (const cv::Point2f& b : BoardPoints2d(board)) {
+    const cv::Vec3d p = plane_from_board * cv::Vec3d(b.x, b.y, 1.0);
+    obj.emplace_back(p[0], -p[1], 0.0);
+  }
+  PlanePose pose;
+  std::vector<cv::Point2d> img(corners_px.begin(), corners_px.end());
+  cv::solvePnP(obj, img, lens.camera_matrix, lens.distortion, pose.rvec_rad, pose.tvec_m);
+  return pose;
+}
+
+double TiltSpreadDeg(const std::vector<cv::Mat>& rvecs) {
+  std::vector<cv::Vec3d> normals;
+  for (const cv::Mat& r : rvecs) {
+    cv::Matx33d rot;
+    cv::Rodrigues(r, rot);
+    normals.emplace_back(rot(0, 2), rot(1, 2), rot(2, 2));
+  }
+  double spread = 0;
+  for (size_t i = 0; i < normals.size(); ++i) {
+    for (size_t j = i + 1; j < normals.size(); ++j) {
+      const double c = std::clamp(normals[i].dot(normals[j]), -1.0, 1.0);
+      spread = std::max(spread, std::acos(c) * 180.0 / kPi);
+    }
+  }
+  return spread;
+}
+
+double CoverageFraction(const std::vector<std::vector<cv::Point2f>>& quads, cv::Size size) {
+  constexpr int kCells = 20;
+  int covered = 0;
+  for (int gy = 0; gy < kCells; ++gy) {
+    for (int gx = 0; gx < kCells; ++gx) {
+      const cv::Point2f p((gx + 0.5f) * static_cast<float>(size.width) / kCells - 0.5f,
+                          (gy + 0.5f) * static_cast<float>(size.height) / kCells - 0.5f);
+      for (const auto& q : quads) {
+        if (cv::pointPolygonTest(q, p, false) >= 0) {
+          ++covered;
+          break;
+        }
+      }
+    }
+  }
+  return covered / static_cast<double>(kCells * kCells);
+}
+
+PlaneViewFigures MeasurePlaneView(const Rig& rig, const std::vector<cv::Point2f>& corners_px, const BoardSpec& board) {
+  const cv::Size size = rig.image_size;
+  PlaneViewFigures out;
+  std::vector<double> err_mm;
+  const auto pair_error = [&](size_t a, size_t b) {
+    const cv::Point2d pa = PlaneFromImage(rig, corners_px[a]), pb = PlaneFromImage(rig, corners_px[b]);
+    err_mm.push_back(std::abs(cv::norm(pa - pb) - board.square_m) * 1e3);
+  };
+  for (int j = 0; j < board.rows; ++j) {
+    for (int i = 0; i < board.columns; ++i) {
+      const size_t k = static_cast<size_t>(j * board.columns + i);
+      if (i + 1 < board.columns) pair_error(k, k + 1);
+      if (j + 1 < board.rows) pair_error(k, k + static_cast<size_t>(board.columns));
+    }
+  }
+  out.square_error_mean_mm = std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
+  out.square_error_max_mm = *std::max_element(err_mm.begin(), err_mm.end());
+  const cv::Point2d c(0.5 * (size.width - 1), 0.5 * (size.height - 1));
+  const cv::Point2d du = PlaneFromImage(rig, c + cv::Point2d(0.5, 0)) - PlaneFromImage(rig, c - cv::Point2d(0.5, 0));
+  const cv::Point2d dv = PlaneFromImage(rig, c + cv::Point2d(0, 0.5)) - PlaneFromImage(rig, c - cv::Point2d(0, 0.5));
+  out.metres_per_px_centre = std::sqrt(std::abs(du.x * dv.y - du.y * dv.x));
+  const std::vector<cv::Point2f> quad = OuterQuad(corners_px, board);
+  out.board_coverage_fraction = cv::contourArea(quad) / (static_cast<double>(size.width) * size.height);
+  return out;
+}
+
+namespace {
+
+// What a step of Calibrate says besides its result.
+struct StepReport {
+  std::optional<std::string> refusal;  // why the calibration stops, and what to do; absent: go on
+  std::vector<std::string> warnings;
+  std::vector<std::string> notes;
+};
+
+struct DetectedView {
+  std::string name;
+  BoardDetection detection;
+};
+
+// Step 1's result: the board found in each view.
+struct ViewDetections {
+  BoardDetection plane;               // the plane view
+  std::vector<DetectedView> usable;   // lens views with a sharp board (the plane view left out by name)
+  std::vector<std::string> no_board;  // lens views without a board
+  std::vector<std::string> blurred;   // lens views left out as blurred
+  std::vector<std::string> dropped;   // per blurred view: "<name>: blurred (...)", for RigQuality::dropped_views
+  size_t lens_images = 0;             // lens views looked at
+};
+
+// Step 1: the board in the plane view and in every lens view; blurred views are left out.
+ViewDetections DetectViews(const std::vector<CalibrationImage>& views, const CalibrationImage& plane,
+                           const CalibrateOptions& options) {
+  const auto detect = [&](const cv::Mat& grey) {
+    return DetectBoard(grey, options.board, options.subpix_half_window_px);
+  };
+  ViewDetections found;
+  found.plane = detect(plane.grey);
+  for (const CalibrationImage& v : views) {
+    if (v.name == plane.name) continue;
+    ++found.lens_images;
+    BoardDetection d = detect(v.grey);
+    if (!d.found) {
+      found.no_board.push_back(v.name);
+    } else if (d.blur_px > options.max_blur_px) {
+      found.blurred.push_back(v.name);
+      found.dropped.push_back(v.name + ": blurred (edge blur " + Fmt(d.blur_px, 1) + " px, limit " +
+                              Num(options.max_blur_px) + " px)");
+    } else {
+      found.usable.push_back({v.name, std::move(d)});
+    }
+  }
+  return found;
+}
+
+// Step 1's gates: refused when no image shows the board (naming a nearby board size that one
+// shows), when the plane view shows none, or when the plane view is blurred (unless forced).
+StepReport JudgeDetections(const ViewDetections& found, const std::vector<CalibrationImage>& views,
+                           const CalibrationImage& plane, const CalibrateOptions& options) {
+  StepReport report;
+  const std::string board_text = BoardSizeToString(options.board);
+  if (!found.plane.found && found.no_board.size() == found.lens_images) {
+    std::vector<const CalibrationImage*> all_images{&plane};
+    for (const CalibrationImage& v : views) {
+      if (v.name != plane.name) all_images.push_back(&v);
+    }
+    const std::string msg = "no checkerboard with " + board_text + " inner corners was found in any of the " +
+                            Plural(all_images.size(), "image", "images");
+    if (const auto other = FindOtherBoardSize(all_images, options.board)) {
+      report.refusal = msg + ", but one with " + BoardSizeToString(other->first) + " inner corners was found in " +
+                       other->second + ": pass --board " + BoardSizeToString(other->first) +
+                       " (inner corners, not squares)";
+    } else {
+      report.refusal = msg +
+                       "; check --board (count inner corners, not squares: a board of 10 x 7 squares has 9x6 inner "
+                       "corners) and that the whole board, with its white border, is in view and in focus";
+    }
+    return report;
+  }
+  if (!found.plane.found) {
+    report.refusal =
+        "no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
+        ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it";
+    return report;
+  }
+  if (found.plane.blur_px > options.max_blur_px) {
+    const std::string msg = "the plane view " + plane.name + " is blurred (edge blur " + Fmt(found.plane.blur_px, 1) +
+                            " px, limit " + Num(options.max_blur_px) + " px): retake it in focus with the board still";
+    if (!options.force) {
+      report.refusal = msg + ", or pass --force";
+      return report;
+    }
+    report.warnings.push_back("forced (--force): " + msg);
+  }
+  if (!found.no_board.empty()) {
+    report.notes.push_back("no " + board_text + " board found in " + Plural(found.no_board.size(), "image", "images") +
+                           ": " + JoinNames(found.no_board));
+    report.warnings.push_back("no " + board_text + " board found in " + std::to_string(found.no_board.size()) + " of " +
+                              Plural(found.lens_images, "view", "views") + " (left out): " + JoinNames(found.no_board));
+  }
+  if (!found.blurred.empty()) {
+    report.warnings.push_back(Plural(found.blurred.size(), "view was", "views were") +
+                              " left out as blurred (edge blur above " + Num(options.max_blur_px) + " px): " +
+                              JoinNames(found.blurred) + "; refocus, shorten the exposure or hold the board still");
+  }
+  return report;
+}
+
+// The rig's fields known before any fit: image size, board, plane view, up side, capture rate,
+// version and settings.
+Rig StartRig(const CalibrationImage& plane, const CalibrateOptions& options) {
+  Rig rig;
+  rig.image_size = plane.grey.size();
+  rig.board = options.board;
+  rig.plane_view = plane.name;
+  rig.up = options.up;
+  rig.capture_fps = options.capture_fps;
+  rig.tool_version = kVersion;
+  RecordSettings(options, rig);
+  return rig;
+}
+
+// Step 2's gate: whether there are views enough for a lens model.
+struct LensDecision {
+  bool fit_lens = false;
+  StepReport report;
+};
+LensDecision DecideLensFit(const ViewDetections& found, const CalibrateOptions& options) {
+  LensDecision decision;
+  StepReport& report = decision.report;
+  const size_t n_usable = found.usable.size() + 1;  // the plane view is a lens view too
+  decision.fit_lens = found.lens_images > 0;
+  if (!decision.fit_lens) {
+    report.warnings.push_back(
+        "no lens model (only the plane view was given): lens distortion is not corrected, so positions away from "
+        "the plane view's board can be off by several pixels, most near the frame's edges, and the rig cannot tell "
+        "by how much; give 10-20 further views of the board at different positions and tilts for a lens model");
+  } else if (n_usable < static_cast<size_t>(options.min_lens_views)) {
+    std::string msg = "only " + Plural(n_usable, "usable view", "usable views") + " of the board (need " +
+                      std::to_string(options.min_lens_views) + " for a lens model)";
+    if (!found.no_board.empty()) msg += "; no board in " + Plural(found.no_board.size(), "image", "images");
+    if (!found.blurred.empty()) {
+      msg += "; " + std::to_string(found.blurred.size()) + " too blurred (edge blur above " + Num(options.max_blur_px) +
+             " px: refocus, shorten the exposure or hold the board still)";
+    }
+    msg += ": add views of the board at different positions and tilts (20-40 degrees) over the whole frame";
+    if (!options.force) {
+      report.refusal = msg + ", or pass --force to accept a weaker calibration";
+    } else if (n_usable < static_cast<size_t>(kFewestLensViews)) {
+      decision.fit_lens = false;
+      report.warnings.push_back("forced (--force): " + msg +
+                                "; too few for any lens model, so none is used and lens distortion is not corrected");
+    } else {
+      report.warnings.push_back("forced (--force): " + msg);
+    }
+  }
+  return decision;
+}
+
+// Step 2: the lens fit on the plane view and the usable views, its gate on the overall RMS
+// reprojection error, and the lens quality figures. Sets rig.lens and the lens' rig.quality
+// fields, and appends the views left out to rig.quality.dropped_views.
+StepReport FitLensModel(const ViewDetections& found, const CalibrationImage& plane, const CalibrateOptions& options,
+                        Rig& rig) {
+  std::vector<std::string> names{plane.name};
+  std::vector<std::vector<cv::Point2f>> image_pts{found.plane.corners_px};
+  for (const DetectedView& v : found.usable) {
+    names.push_back(v.name);
+    image_pts.push_back(v.detection.corners_px);
+  }
+  LensFitWithoutOutliers lens =
+      FitLensWithoutOutliers(std::move(names), std::move(image_pts), options.board, rig.image_size,
+                             options.outlier_factor, options.outlier_floor_px);
+  StepReport report;
+  report.warnings = lens.warnings;
+  rig.quality.dropped_views.insert(rig.quality.dropped_views.end(), lens.dropped.begin(), lens.dropped.end());
+  const LensFit& fit = lens.fit;
+  if (fit.rms_px > options.max_rms_px) {
+    const std::string msg = "the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (limit " +
+                            Num(options.max_rms_px) +
+                            " px): the corners do not fit one lens model; check that every view shows the same "
+                            "flat board and that zoom and focus did not change between views";
+    if (!options.force) {
+      report.refusal = msg + ", or pass --force";
+      return report;
+    }
+    report.warnings.push_back("forced (--force): " + msg);
+  } else if (fit.rms_px > options.warn_rms_px) {
+    report.warnings.push_back(
+        "the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (above " + Num(options.warn_rms_px) +
+        " px): expect position errors of that order; sharper views and a flatter board improve it");
+  }
+  LensModel model;
+  model.camera_matrix = fit.camera_matrix;
+  model.distortion = fit.distortion;
+  rig.lens = model;
+  RigQuality& q = rig.quality;
+  q.rms_reprojection_px = fit.rms_px;
+  q.view_names = lens.names;
+  q.view_rms_px = fit.view_rms_px;
+  q.distortion_terms = fit.terms;
+  q.tilt_spread_deg = TiltSpreadDeg(fit.rvecs);
+  std::vector<std::vector<cv::Point2f>> lens_quads;
+  for (const auto& pts : lens.corners_px) lens_quads.push_back(OuterQuad(pts, options.board));
+  q.views_coverage_fraction = CoverageFraction(lens_quads, rig.image_size);
+  if (q.tilt_spread_deg < options.min_tilt_spread_deg) {
+    report.warnings.push_back(
+        "the views' board tilts span only " + Fmt(q.tilt_spread_deg, 1) + " degrees (below " +
+        Num(options.min_tilt_spread_deg) +
+        "): focal length and distortion are poorly separated; add views with the board tilted 20-40 degrees "
+        "about both axes");
+  }
+  if (q.views_coverage_fraction < options.min_views_coverage_fraction) {
+    report.warnings.push_back("the lens views' boards cover " + Fmt(100 * q.views_coverage_fraction, 0) +
+                              " % of the frame (below " + Num(100 * options.min_views_coverage_fraction) +
+                              " %): distortion near the uncovered edges is extrapolated; add views with the board "
+                              "near the frame's edges and corners");
+  }
+  return report;
+}
+
+// Step 3: the plane view's mapping, up axis, floor and pose, into `rig` (after step 2).
+StepReport MapPlane(const std::vector<cv::Point2f>& corners_px, const CalibrateOptions& options, Rig& rig) {
+  StepReport report;
+  const std::optional<PlaneHomography> h = FitPlaneHomography(corners_px, options.board, rig.lens);
+  if (!h) {
+    report.refusal = "the plane view's corners gave no plane mapping (degenerate board detection); retake it";
+    return report;
+  }
+  rig.quality.plane_rms_px = h->rms_px;
+  const BoardAxes axes = FindBoardAxes(h->undistorted_from_board, options.board, options.up);
+  if (axes.off_up_deg > 30.0) {
+    report.warnings.push_back(
+        "the plane view's board is turned " + Fmt(axes.off_up_deg, 0) + " degrees from the image's " +
+        ToString(options.up) +
+        " side; the vertical is taken from the board's edges, so the board must stand upright in the drop plane");
+  }
+  const PlaneOrigin origin = PlaceOrigin(corners_px, options.board, axes, options.corner_height_m);
+  rig.plane_from_undistorted = origin.plane_from_board * h->undistorted_from_board.inv();
   rig.plane_from_undistorted *= 1.0 / rig.plane_from_undistorted(2, 2);
   if (options.corner_height_m) {
     rig.y_origin = YOrigin::kFloor;
     rig.corner_height_m = options.corner_height_m;
   }
-
-  // Lowest corner row in the image: the corners with the smallest y_m.
-  {
-    double v_sum = 0;
-    int n = 0;
-    for (size_t i = 0; i < board_2d.size(); ++i) {
-      if (std::abs(up_b[0] * board_2d[i].x + up_b[1] * board_2d[i].y - y_min) < 1e-9) {
-        v_sum += plane_det.corners_px[i].y;
-        ++n;
-      }
-    }
-    rig.quality.lowest_corner_row_px = v_sum / n;
-  }
+  rig.quality.lowest_corner_row_px = origin.lowest_corner_row_px;
   if (rig.lens) {
-    // Pose of the frame in which plane point (x_m, y_m) is (x_m, -y_m, 0).
-    std::vector<cv::Point3d> obj;
-    for (const cv::Point2f& b : board_2d) {
-      const cv::Vec3d p = plane_from_board * cv::Vec3d(b.x, b.y, 1.0);
-      obj.emplace_back(p[0], -p[1], 0.0);
-    }
-    cv::Vec3d rvec, tvec;
-    std::vector<cv::Point2d> img(plane_det.corners_px.begin(), plane_det.corners_px.end());
-    cv::solvePnP(obj, img, rig.lens->camera_matrix, rig.lens->distortion, rvec, tvec);
-    rig.plane_rvec_rad = rvec;
-    rig.plane_tvec_m = tvec;
+    const PlanePose pose = PlaneViewPose(corners_px, options.board, origin.plane_from_board, *rig.lens);
+    rig.plane_rvec_rad = pose.rvec_rad;
+    rig.plane_tvec_m = pose.tvec_m;
   }
+  return report;
+}
+
+// Step 4: the plane view's quality figures, in the user's units, into rig.quality (after step 3).
+StepReport MeasureQuality(const std::vector<cv::Point2f>& corners_px, const CalibrateOptions& options, Rig& rig) {
+  StepReport report;
+  const PlaneViewFigures figures = MeasurePlaneView(rig, corners_px, options.board);
+  RigQuality& q = rig.quality;
+  q.square_error_mean_mm = figures.square_error_mean_mm;
+  q.square_error_max_mm = figures.square_error_max_mm;
+  q.metres_per_px_centre = figures.metres_per_px_centre;
+  q.board_coverage_fraction = figures.board_coverage_fraction;
+  if (!rig.lens) q.views_coverage_fraction = CoverageFraction({OuterQuad(corners_px, options.board)}, rig.image_size);
+  if (q.board_coverage_fraction < options.min_board_coverage_fraction) {
+    report.warnings.push_back("the plane view's board covers " + Fmt(100 * q.board_coverage_fraction, 1) +
+                              " % of the frame (below " + Num(100 * options.min_board_coverage_fraction) +
+                              " %): positions far from it are extrapolated; use a larger board or place it where "
+                              "the specimen moves");
+  }
+  return report;
+}
+
+}  // namespace
+
+CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const CalibrationImage& plane,
+                             const CalibrateOptions& options) {
+  if (const auto problem = ValidateCalibrateOptions(options)) throw std::invalid_argument(*problem);
+  if (plane.grey.empty()) throw std::invalid_argument("the plane view " + plane.name + " is empty");
+  const cv::Size size = plane.grey.size();
+  CheckImage(plane, size);
+  for (const CalibrationImage& v : views) CheckImage(v, size);
+
+  CalibrationOutcome out;
+  // Takes a step's warnings and notes; false when the step refused (the refusal is then set).
+  const auto go_on = [&out](const StepReport& report) {
+    out.warnings.insert(out.warnings.end(), report.warnings.begin(), report.warnings.end());
+    out.notes.insert(out.notes.end(), report.notes.begin(), report.notes.end());
+    if (report.refusal) out.refusal = *report.refusal;
+    return !report.refusal;
+  };
+
+  // 1. Corners.
+  const ViewDetections found = DetectViews(views, plane, options);
+  if (!go_on(JudgeDetections(found, views, plane, options))) return out;
+
+  // 2. Lens model.
+  Rig rig = StartRig(plane, options);
+  rig.quality.dropped_views = found.dropped;
+  const LensDecision decision = DecideLensFit(found, options);
+  if (!go_on(decision.report)) return out;
+  if (decision.fit_lens && !go_on(FitLensModel(found, plane, options, rig))) return out;
+
+  // 3. The plane: homography board -> undistorted pixels, then board -> plane metres.
+  if (!go_on(MapPlane(found.plane.corners_px, options, rig))) return out;
 
   // 4. Figures in the user's units.
-  {
-    std::vector<double> err_mm;
-    const auto pair_error = [&](size_t a, size_t b) {
-      const cv::Point2d pa = PlaneFromImage(rig, plane_det.corners_px[a]),
-                        pb = PlaneFromImage(rig, plane_det.corners_px[b]);
-      err_mm.push_back(std::abs(cv::norm(pa - pb) - board.square_m) * 1e3);
-    };
-    for (int j = 0; j < board.rows; ++j) {
-      for (int i = 0; i < board.columns; ++i) {
-        const size_t k = static_cast<size_t>(j * board.columns + i);
-        if (i + 1 < board.columns) pair_error(k, k + 1);
-        if (j + 1 < board.rows) pair_error(k, k + static_cast<size_t>(board.columns));
-      }
-    }
-    rig.quality.square_error_mean_mm =
-        std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
-    rig.quality.square_error_max_mm = *std::max_element(err_mm.begin(), err_mm.end());
-    const cv::Point2d c(0.5 * (size.width - 1), 0.5 * (size.height - 1));
-    const cv::Point2d du = PlaneFromImage(rig, c + cv::Point2d(0.5, 0)) - PlaneFromImage(rig, c - cv::Point2d(0.5, 0));
-    const cv::Point2d dv = PlaneFromImage(rig, c + cv::Point2d(0, 0.5)) - PlaneFromImage(rig, c - cv::Point2d(0, 0.5));
-    rig.quality.metres_per_px_centre = std::sqrt(std::abs(du.x * dv.y - du.y * dv.x));
-    const std::vector<cv::Point2f> quad = OuterQuad(plane_det.corners_px, board);
-    rig.quality.board_coverage_fraction = cv::contourArea(quad) / (static_cast<double>(size.width) * size.height);
-    if (!rig.lens) rig.quality.views_coverage_fraction = CoverageFraction({quad}, size);
-    if (rig.quality.board_coverage_fraction < options.min_board_coverage_fraction) {
-      warn("the plane view's board covers " + Fmt(100 * rig.quality.board_coverage_fraction, 1) +
-           " % of the frame (below " + Num(100 * options.min_board_coverage_fraction) +
-           " %): positions far from it are extrapolated; use a larger board or place it where the specimen moves");
-    }
-  }
+  go_on(MeasureQuality(found.plane.corners_px, options, rig));
 
   rig.warnings = out.warnings;
-  if (const auto problem = ValidateRig(rig)) return refuse("the calibration gave an unusable rig: " + *problem);
+  if (const auto problem = ValidateRig(rig)) {
+    out.refusal = "the calibration gave an unusable rig: " + *problem;
+    return out;
+  }
   out.rig = std::move(rig);
   return out;
 }

@@ -36,6 +36,9 @@
 //    `warn_rms_px`, a small board, lens views covering little of the frame, little tilt variety
 //    (parallel views leave focal length and distortion confounded: Zhang 2000, section 3.3).
 //
+// The steps of points 1-4, each a function of its own with its inputs and outputs, are in
+// calib/calibrate_steps.h; Calibrate runs them and holds the gates between them.
+//
 // RMS reprojection error is the root mean square over all corners of the distance between
 // measured and reprojected corner [px] (what cv::calibrateCamera returns). It is NOT the "total
 // error" of OpenCV's Python tutorial, which is RMS / sqrt(corners per view) (docs/methods.md §9).

@@ -88,6 +88,150 @@ struct Patch {
   }
 };
 
+// The fitted numbers, the centre in patch coordinates.
+struct FitState {
+  double cx = 0.0, cy = 0.0;  // centre [px], patch coordinates
+  double a[2] = {0, 0};       // gain gradient term (header: a = 2g)
+  double b[2] = {0, 0};       // offset term (header: b = 2(h - B0 g))
+};
+
+// Sampling: the patch around `start_px` holding every sample the fit may take (the window plus
+// the largest shift, and a margin for interpolation), as float, smoothed by
+// presmooth_sigma_px, with central-difference gradients; and `raw`, the unsmoothed values the
+// quality is judged on. False when the patch is too small (the start is off the image).
+bool CutPatch(const cv::Mat& grey, cv::Point2d start_px, const SymmetryFitOptions& options, Patch& patch, Patch& raw) {
+  const int reach = static_cast<int>(std::ceil(options.window_radius_px + options.max_shift_px)) + 2;
+  const cv::Rect want(static_cast<int>(std::floor(start_px.x)) - reach,
+                      static_cast<int>(std::floor(start_px.y)) - reach, 2 * reach + 2, 2 * reach + 2);
+  const cv::Rect rect = want & cv::Rect(0, 0, grey.cols, grey.rows);
+  if (rect.width < 3 || rect.height < 3) return false;
+  patch.origin = rect.tl();
+  grey(rect).convertTo(patch.value, CV_32F);
+  raw = patch;  // quality is judged on the unsmoothed samples
+  if (options.presmooth_sigma_px > 0) {
+    raw.value = patch.value.clone();
+    cv::GaussianBlur(patch.value, patch.value, cv::Size(), options.presmooth_sigma_px, 0, cv::BORDER_REPLICATE);
+  }
+  patch.gx.create(rect.size(), CV_32F);
+  patch.gy.create(rect.size(), CV_32F);
+  const int rows = rect.height, cols = rect.width;
+  for (int y = 0; y < rows; ++y) {
+    const float* v = patch.value.ptr<float>(y);
+    const float* up = patch.value.ptr<float>(std::max(y - 1, 0));
+    const float* dn = patch.value.ptr<float>(std::min(y + 1, rows - 1));
+    float* gx = patch.gx.ptr<float>(y);
+    float* gy = patch.gy.ptr<float>(y);
+    const float sy = (y == 0 || y == rows - 1) ? 1.0f : 0.5f;
+    for (int x = 0; x < cols; ++x) {
+      const int xl = std::max(x - 1, 0), xr = std::min(x + 1, cols - 1);
+      gx[x] = (v[xr] - v[xl]) * ((xr - xl) == 2 ? 0.5f : 1.0f);
+      gy[x] = (dn[x] - up[x]) * sy;
+    }
+  }
+  return true;
+}
+
+// The samples at c + d and c - d for whole-pixel offsets d about one centre c. They all share
+// the sub-pixel fraction of c, so the interpolation weights are made once per centre.
+class PairSampler {
+ public:
+  PairSampler(const Patch& patch, double cx, double cy)
+      : patch_(patch), cols_(patch.value.cols), rows_(patch.value.rows), weights_(0.0f, 0.0f) {
+    const double fx = std::floor(cx), fy = std::floor(cy);
+    base_x_ = static_cast<int>(fx);
+    base_y_ = static_cast<int>(fy);
+    weights_ = Weights(static_cast<float>(cx - fx), static_cast<float>(cy - fy));
+  }
+  // False when either sample would need pixels outside the patch.
+  bool Pair(const cv::Point& d, Sample& plus, Sample& minus) const {
+    const int xp = base_x_ + d.x, yp = base_y_ + d.y, xm = base_x_ - d.x, ym = base_y_ - d.y;
+    if (std::min({xp, yp, xm, ym}) < 0 || std::max(xp, xm) > cols_ - 2 || std::max(yp, ym) > rows_ - 2) return false;
+    plus = patch_.At(xp, yp, weights_);
+    minus = patch_.At(xm, ym, weights_);
+    return true;
+  }
+
+ private:
+  const Patch& patch_;
+  int cols_, rows_;
+  int base_x_ = 0, base_y_ = 0;
+  Weights weights_;
+};
+
+enum class StepOutcome {
+  kTaken,     // `state` moved by the step
+  kOutside,   // a sample fell outside the patch; `state` unchanged
+  kSingular,  // the normal equations could not be solved; `state` unchanged
+};
+
+// One Gauss-Newton step on r(d) = I(c+d) - I(c-d) - a.d S(d) - b.d (header, "Method"): the
+// normal equations J^T J step = -J^T r over the offsets, solved by Cholesky; with
+// `fit_light_gradient` false only the centre moves (a, b stay zero). `step_px` is the length of
+// the centre's step [px].
+StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& offsets, bool fit_light_gradient,
+                            FitState& state, double& step_px) {
+  const int n_params = fit_light_gradient ? 6 : 2;
+  const double(&a)[2] = state.a;
+  const double(&b)[2] = state.b;
+  cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
+  cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
+  const PairSampler sampler(patch, state.cx, state.cy);
+  for (const cv::Point& d : offsets) {
+    Sample p, m;
+    if (!sampler.Pair(d, p, m)) return StepOutcome::kOutside;
+    const double s = 0.5 * (p.value + m.value);
+    const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
+    const double j[6] = {
+        p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
+    for (int i = 0; i < n_params; ++i) {
+      jtr[i] += j[i] * r;
+      for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
+    }
+  }
+  for (int i = 0; i < n_params; ++i)
+    for (int k = i + 1; k < n_params; ++k) jtj(i, k) = jtj(k, i);
+  for (int i = n_params; i < 6; ++i) jtj(i, i) = 1.0;  // unused parameters stay at zero
+
+  cv::Vec<double, 6> step;
+  if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) return StepOutcome::kSingular;
+  state.cx += step[0];
+  state.cy += step[1];
+  state.a[0] += step[2];
+  state.a[1] += step[3];
+  state.b[0] += step[4];
+  state.b[1] += step[5];
+  step_px = std::hypot(step[0], step[1]);
+  return StepOutcome::kTaken;
+}
+
+// Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`;
+// `patch` only bounds the window). False, leaving `res` alone, when part of the window falls
+// outside the patch.
+bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::Point>& offsets, const FitState& state,
+                    SymmetryFitResult& res) {
+  const double cx = state.cx, cy = state.cy;
+  const double(&a)[2] = state.a;
+  const double(&b)[2] = state.b;
+  const PairSampler sampler(patch, cx, cy);
+  double sum = 0.0, sum2 = 0.0, rss = 0.0;
+  for (const cv::Point& d : offsets) {
+    Sample p, m;
+    if (!sampler.Pair(d, p, m)) return false;
+    p.value = raw.ValueAt(cx + d.x, cy + d.y);
+    m.value = raw.ValueAt(cx - d.x, cy - d.y);
+    const double s = 0.5 * (p.value + m.value);
+    const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
+    rss += r * r;
+    sum += p.value + m.value;
+    sum2 += double(p.value) * p.value + double(m.value) * m.value;
+  }
+  const double n = 2.0 * static_cast<double>(offsets.size());
+  const double sst = sum2 - sum * sum / n;
+  res.residual_rms = std::sqrt(rss / static_cast<double>(offsets.size()));
+  res.quality = sst > 0 ? std::clamp(1.0 - rss / sst, 0.0, 1.0) : 0.0;
+  return true;
+}
+
 }  // namespace
 
 std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& o) {
@@ -129,131 +273,41 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     res.inside = false;
     return res;
   }
-
-  // Float patch with gradients covering every sample the fit may take.
-  const int reach = static_cast<int>(std::ceil(options_.window_radius_px + options_.max_shift_px)) + 2;
-  const cv::Rect want(static_cast<int>(std::floor(start_px.x)) - reach,
-                      static_cast<int>(std::floor(start_px.y)) - reach, 2 * reach + 2, 2 * reach + 2);
-  const cv::Rect rect = want & cv::Rect(0, 0, grey.cols, grey.rows);
-  if (rect.width < 3 || rect.height < 3) {
+  Patch patch, raw;
+  if (!CutPatch(grey, start_px, options_, patch, raw)) {
     res.inside = false;
     return res;
   }
-  Patch patch;
-  patch.origin = rect.tl();
-  grey(rect).convertTo(patch.value, CV_32F);
-  Patch raw = patch;  // quality is judged on the unsmoothed samples
-  if (options_.presmooth_sigma_px > 0) {
-    raw.value = patch.value.clone();
-    cv::GaussianBlur(patch.value, patch.value, cv::Size(), options_.presmooth_sigma_px, 0, cv::BORDER_REPLICATE);
-  }
-  patch.gx.create(rect.size(), CV_32F);
-  patch.gy.create(rect.size(), CV_32F);
-  const int rows = rect.height, cols = rect.width;
-  for (int y = 0; y < rows; ++y) {
-    const float* v = patch.value.ptr<float>(y);
-    const float* up = patch.value.ptr<float>(std::max(y - 1, 0));
-    const float* dn = patch.value.ptr<float>(std::min(y + 1, rows - 1));
-    float* gx = patch.gx.ptr<float>(y);
-    float* gy = patch.gy.ptr<float>(y);
-    const float sy = (y == 0 || y == rows - 1) ? 1.0f : 0.5f;
-    for (int x = 0; x < cols; ++x) {
-      const int xl = std::max(x - 1, 0), xr = std::min(x + 1, cols - 1);
-      gx[x] = (v[xr] - v[xl]) * ((xr - xl) == 2 ? 0.5f : 1.0f);
-      gy[x] = (dn[x] - up[x]) * sy;
-    }
-  }
+  FitState state;
+  state.cx = start_px.x - patch.origin.x;  // patch coordinates
+  state.cy = start_px.y - patch.origin.y;
+  const auto image_centre = [&] { return cv::Point2d(state.cx + patch.origin.x, state.cy + patch.origin.y); };
 
-  const int n_params = options_.fit_light_gradient ? 6 : 2;
-  double cx = start_px.x - patch.origin.x, cy = start_px.y - patch.origin.y;  // patch coordinates
-  double a[2] = {0, 0}, b[2] = {0, 0};
-  // Samples of one iteration: c ± d for whole-pixel d, so the weights are made once per centre.
-  int base_x = 0, base_y = 0;
-  Weights weights(0.0f, 0.0f);
-  auto set_centre = [&] {
-    const double fx = std::floor(cx), fy = std::floor(cy);
-    base_x = static_cast<int>(fx);
-    base_y = static_cast<int>(fy);
-    weights = Weights(static_cast<float>(cx - fx), static_cast<float>(cy - fy));
-  };
-  auto sample_pair = [&](const cv::Point& d, Sample& plus, Sample& minus) {
-    const int xp = base_x + d.x, yp = base_y + d.y, xm = base_x - d.x, ym = base_y - d.y;
-    if (std::min({xp, yp, xm, ym}) < 0 || std::max(xp, xm) > cols - 2 || std::max(yp, ym) > rows - 2) return false;
-    plus = patch.At(xp, yp, weights);
-    minus = patch.At(xm, ym, weights);
-    return true;
-  };
-
-  double ssr = 0.0;
   for (int it = 0; it < options_.max_iterations; ++it) {
-    cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
-    cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
-    ssr = 0.0;
-    set_centre();
-    for (const cv::Point& d : offsets_) {
-      Sample p, m;
-      if (!sample_pair(d, p, m)) {
-        res.inside = false;
-        res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
-        return res;
-      }
-      const double s = 0.5 * (p.value + m.value);
-      const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
-      const double j[6] = {
-          p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
-      for (int i = 0; i < n_params; ++i) {
-        jtr[i] += j[i] * r;
-        for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
-      }
-      ssr += r * r;
-    }
-    for (int i = 0; i < n_params; ++i)
-      for (int k = i + 1; k < n_params; ++k) jtj(i, k) = jtj(k, i);
-    for (int i = n_params; i < 6; ++i) jtj(i, i) = 1.0;  // unused parameters stay at zero
-
-    cv::Vec<double, 6> step;
-    if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) break;
-    cx += step[0];
-    cy += step[1];
-    a[0] += step[2];
-    a[1] += step[3];
-    b[0] += step[4];
-    b[1] += step[5];
-    res.iterations = it + 1;
-    const double moved = std::hypot(cx + patch.origin.x - start_px.x, cy + patch.origin.y - start_px.y);
-    if (!std::isfinite(moved) || moved > options_.max_shift_px) {
-      res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
+    double step_px = 0.0;
+    const StepOutcome outcome = GaussNewtonStep(patch, offsets_, options_.fit_light_gradient, state, step_px);
+    if (outcome == StepOutcome::kOutside) {
+      res.inside = false;
+      res.centre_px = image_centre();
       return res;
     }
-    if (std::hypot(step[0], step[1]) < options_.tolerance_px) {
+    if (outcome == StepOutcome::kSingular) break;
+    res.iterations = it + 1;
+    const double moved = std::hypot(state.cx + patch.origin.x - start_px.x, state.cy + patch.origin.y - start_px.y);
+    if (!std::isfinite(moved) || moved > options_.max_shift_px) {
+      res.centre_px = image_centre();
+      return res;
+    }
+    if (step_px < options_.tolerance_px) {
       res.converged = true;
       break;
     }
   }
-  res.centre_px = {cx + patch.origin.x, cy + patch.origin.y};
-
-  // Quality and residual at the final centre, on the unsmoothed samples.
-  set_centre();
-  double sum = 0.0, sum2 = 0.0, rss = 0.0;
-  for (const cv::Point& d : offsets_) {
-    Sample p, m;
-    if (!sample_pair(d, p, m)) {
-      res.inside = false;
-      res.converged = false;
-      return res;
-    }
-    p.value = raw.ValueAt(cx + d.x, cy + d.y);
-    m.value = raw.ValueAt(cx - d.x, cy - d.y);
-    const double s = 0.5 * (p.value + m.value);
-    const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
-    rss += r * r;
-    sum += p.value + m.value;
-    sum2 += double(p.value) * p.value + double(m.value) * m.value;
+  res.centre_px = image_centre();
+  if (!MeasureQuality(patch, raw, offsets_, state, res)) {
+    res.inside = false;
+    res.converged = false;
   }
-  const double n = 2.0 * static_cast<double>(offsets_.size());
-  const double sst = sum2 - sum * sum / n;
-  res.residual_rms = std::sqrt(rss / static_cast<double>(offsets_.size()));
-  res.quality = sst > 0 ? std::clamp(1.0 - rss / sst, 0.0, 1.0) : 0.0;
   return res;
 }
 
