@@ -542,101 +542,69 @@ void PrintPlan(const std::vector<LawId>& laws, const std::vector<double>& height
   }
 }
 
-}  // namespace
-
-int main(int argc, char** argv) {
-  google::InitGoogleLogging(argv[0]);
-  FLAGS_minloglevel = 3;
+struct Args {
   fs::path cache = fs::temp_directory_path() / ("dropfit_law_recovery_" + std::to_string(::getpid()));
   std::vector<LawId> laws = analysis::AllLaws();
   std::vector<double> heights = {0.05, 0.10, 0.15};
   int bounces = 2, threads = 2;
   bool retrack = false, plan = false, verbose = false, white_control = false;
+};
+
+// Nothing when the arguments are not understood (usage printed).
+std::optional<Args> ParseArgs(int argc, char** argv) {
+  Args a;
   for (int i = 1; i < argc; ++i) {
-    const std::string a = argv[i];
+    const std::string arg = argv[i];
     const bool has_value = i + 1 < argc;
-    if (a == "--cache" && has_value) {
-      cache = argv[++i];
-    } else if (a == "--laws" && has_value) {
-      laws.clear();
-      for (const std::string& s : SplitList(argv[++i])) laws.push_back(analysis::LawIdFromString(s));
-    } else if (a == "--heights" && has_value) {
-      heights.clear();
-      for (const std::string& s : SplitList(argv[++i])) heights.push_back(std::stod(s));
-    } else if (a == "--bounces" && has_value) {
-      bounces = std::max(1, std::stoi(argv[++i]));
-    } else if (a == "--threads" && has_value) {
-      threads = std::clamp(std::stoi(argv[++i]), 1, 16);
-    } else if (a == "--retrack") {
-      retrack = true;
-    } else if (a == "--plan") {
-      plan = true;
-    } else if (a == "--verbose") {
-      verbose = true;
-    } else if (a == "--presmooth" && has_value) {
+    if (arg == "--cache" && has_value) {
+      a.cache = argv[++i];
+    } else if (arg == "--laws" && has_value) {
+      a.laws.clear();
+      for (const std::string& s : SplitList(argv[++i])) a.laws.push_back(analysis::LawIdFromString(s));
+    } else if (arg == "--heights" && has_value) {
+      a.heights.clear();
+      for (const std::string& s : SplitList(argv[++i])) a.heights.push_back(std::stod(s));
+    } else if (arg == "--bounces" && has_value) {
+      a.bounces = std::max(1, std::stoi(argv[++i]));
+    } else if (arg == "--threads" && has_value) {
+      a.threads = std::clamp(std::stoi(argv[++i]), 1, 16);
+    } else if (arg == "--retrack") {
+      a.retrack = true;
+    } else if (arg == "--plan") {
+      a.plan = true;
+    } else if (arg == "--verbose") {
+      a.verbose = true;
+    } else if (arg == "--presmooth" && has_value) {
       g_presmooth_px = std::stod(argv[++i]);
-    } else if (a == "--white-control") {
-      white_control = true;
+    } else if (arg == "--white-control") {
+      a.white_control = true;
     } else {
       std::fprintf(stderr,
                    "usage: law_recovery_bench [--cache DIR] [--laws a,b] [--heights h1,h2,h3] [--bounces N] "
                    "[--threads N] [--retrack] [--plan] [--verbose] [--white-control] [--presmooth S]\n");
-      return 2;
+      return std::nullopt;
     }
   }
-  if (plan) {
-    PrintPlan(laws, heights, bounces);
-    return 0;
-  }
-  const auto wall0 = std::chrono::steady_clock::now();
-  const std::clock_t cpu0 = std::clock();
+  return a;
+}
 
-  std::vector<ClipJob> clip_jobs;
-  for (LawId law : laws) {
-    for (size_t i = 0; i < heights.size(); ++i) {
-      ClipJob j;
-      j.law = law;
-      j.height_m = heights[i];
-      j.index = static_cast<int>(i);
-      j.dir = cache / analysis::ToString(law) / HeightTag(heights[i]);
-      clip_jobs.push_back(j);
-    }
-  }
-  std::printf("law_recovery_bench: cache %s, %zu clips, heights", cache.string().c_str(), clip_jobs.size());
-  for (double h : heights) std::printf(" %.3f", h);
-  std::printf(" m, %d complete bounces per clip, %d threads\n", bounces, threads);
-  if (white_control) {
-    std::printf(
-        "CONTROL RUN (--white-control): tracked heights replaced by truth + white noise of each clip's RMS "
-        "tracking error\n");
-  }
-  std::fflush(stdout);
-  RunPool(clip_jobs, threads, [&](ClipJob& j) { RunClipJob(j, bounces, retrack, white_control); });
-
-  std::vector<JointJob> joint_jobs;
-  for (LawId law : laws) {
-    JointJob j;
-    j.law = law;
-    for (ClipJob& c : clip_jobs)
-      if (c.law == law) j.clips.push_back(&c);
-    joint_jobs.push_back(j);
-  }
-  RunPool(joint_jobs, threads, [&](JointJob& j) { RunJointJob(j); });
-
+struct Tally {
   int passed = 0, failed = 0;
-  auto count = [&](bool ok) { ok ? ++passed : ++failed; };
+  void Count(bool ok) { ok ? ++passed : ++failed; }
+};
 
-  // ---- per-clip fits, geometry known
+// Per-clip fits with the geometry known: the true law's errors and the ranking of each clip.
+void ReportPerClipFits(const std::vector<ClipJob>& clip_jobs, bool verbose, Tally& tally, int& rank_ok,
+                       int& rank_total) {
   std::printf(
       "\n== per-clip fits, geometry known (floor + free radius): the true law's errors against truth, tolerance in "
       "brackets\n");
-  int rank_ok = 0, rank_total = 0;
   std::map<LawId, std::pair<int, int>> per_law_rank;
   for (const ClipJob& c : clip_jobs) {
     const std::string label = analysis::ToString(c.law) + " " + HeightTag(c.height_m);
     if (!c.error.empty()) {
       std::printf("%-22s ERROR %s\n", label.c_str(), c.error.c_str());
-      count(false);
+      tally.Count(false);
       ++rank_total;
       continue;
     }
@@ -646,7 +614,7 @@ int main(int argc, char** argv) {
     std::printf("%-22s  tracking error: RMS %.1f um, sub-pixel-phase bias up to %.1f um; %zu bounces fitted\n", "",
                 1e6 * c.track_rms_m, 1e6 * c.phase_bias_m,
                 c.fits[static_cast<size_t>(static_cast<int>(c.law))].figures.size());
-    for (const Check& k : checks) count(k.pass());
+    for (const Check& k : checks) tally.Count(k.pass());
     const RankVerdict v = JudgeRanking(c.law, c.fits);
     std::printf("%-22s  BIC: %s-> %s\n", "", v.ranking.c_str(), v.how.c_str());
     if (verbose || !v.ok) PrintFits(c.fits);
@@ -655,16 +623,21 @@ int main(int argc, char** argv) {
     per_law_rank[c.law].first += v.ok ? 1 : 0;
     per_law_rank[c.law].second += 1;
   }
+  std::printf("\n");
+  for (const auto& [law, ok] : per_law_rank)
+    std::printf("%-14s per-clip ranking %d/%d\n", analysis::ToString(law).c_str(), ok.first, ok.second);
+}
 
-  // ---- joint fits, geometry unknown
+// Joint fits with the geometry unknown: the true law's errors, the ranking and the holdout COR.
+void ReportJointFits(const std::vector<JointJob>& joint_jobs, bool verbose, Tally& tally, int& rank_ok,
+                     int& rank_total) {
   std::printf("\n== joint fits over the heights, geometry unknown (onset height fitted)\n");
-  int joint_rank_ok = 0, joint_rank_total = 0;
   for (const JointJob& j : joint_jobs) {
     const std::string label = analysis::ToString(j.law) + " joint";
     if (!j.error.empty()) {
       std::printf("%-22s ERROR %s\n", label.c_str(), j.error.c_str());
-      count(false);
-      ++joint_rank_total;
+      tally.Count(false);
+      ++rank_total;
       continue;
     }
     std::vector<analysis::LawFitResult> fits;
@@ -672,38 +645,38 @@ int main(int argc, char** argv) {
     const analysis::JointFitResult& tj = j.fit.laws[static_cast<size_t>(static_cast<int>(j.law))];
     const std::vector<Check> checks = ParameterChecks(j.law, tj.fit, j.impacts);
     std::printf("%-22s%s  (%.1f s)\n", label.c_str(), FormatChecks(checks).c_str(), j.seconds);
-    for (const Check& k : checks) count(k.pass());
+    for (const Check& k : checks) tally.Count(k.pass());
     const RankVerdict v = JudgeRanking(j.law, fits);
     std::printf("%-22s  BIC: %s-> %s\n", "", v.ranking.c_str(), v.how.c_str());
     if (verbose || !v.ok) PrintFits(fits);
-    ++joint_rank_total;
-    joint_rank_ok += v.ok ? 1 : 0;
+    ++rank_total;
+    rank_ok += v.ok ? 1 : 0;
     for (const analysis::HoldoutError& h : tj.holdout) {
       const double e = h.failure ? INFINITY : h.cor_error_max_abs;
       std::printf("%-22s  holdout %.3f m: COR error mean %+.4f, max |.| %.4f (<= %.2f) %s%s\n", "", h.drop_height_m,
                   h.cor_error, h.cor_error_max_abs, kHoldoutCorTol, e <= kHoldoutCorTol ? "PASS" : "FAIL",
                   h.failure ? (" " + *h.failure).c_str() : "");
-      count(e <= kHoldoutCorTol);
+      tally.Count(e <= kHoldoutCorTol);
     }
   }
+}
 
-  // ---- ranking share
+void ReportRankingShare(int rank_ok, int rank_total, int joint_rank_ok, int joint_rank_total, Tally& tally) {
   std::printf(
       "\n== BIC ranking: true law first, or within %.0f BIC of a law nesting it or describing the same bounces\n",
       kBicTol);
-  for (const auto& [law, ok] : per_law_rank)
-    std::printf("%-14s per-clip %d/%d\n", analysis::ToString(law).c_str(), ok.first, ok.second);
   const double share = rank_total > 0 ? static_cast<double>(rank_ok) / rank_total : 0.0;
   std::printf("per-clip fits: %d/%d = %.0f %% (target >= %.0f %%) %s\n", rank_ok, rank_total, 100 * share,
               100 * kRankShareTarget, share >= kRankShareTarget ? "PASS" : "FAIL");
-  count(share >= kRankShareTarget);
+  tally.Count(share >= kRankShareTarget);
   const double jshare = joint_rank_total > 0 ? static_cast<double>(joint_rank_ok) / joint_rank_total : 0.0;
   std::printf("joint fits:    %d/%d = %.0f %% (target >= %.0f %%) %s\n", joint_rank_ok, joint_rank_total, 100 * jshare,
               100 * kRankShareTarget, jshare >= kRankShareTarget ? "PASS" : "FAIL");
-  count(jshare >= kRankShareTarget);
+  tally.Count(jshare >= kRankShareTarget);
+}
 
-  const double wall = Since(wall0);
-  const double cpu = static_cast<double>(std::clock() - cpu0) / CLOCKS_PER_SEC;
+void ReportTimes(const std::vector<ClipJob>& clip_jobs, const std::vector<JointJob>& joint_jobs, double wall,
+                 double cpu) {
   double render_s = 0, track_s = 0, fit_s = 0;
   for (const ClipJob& c : clip_jobs) {
     render_s += c.render_s;
@@ -716,6 +689,61 @@ int main(int argc, char** argv) {
       "\ntime: wall %.1f s, CPU %.1f s (summed over jobs, wall: render %.1f s, track %.1f s, per-clip fits %.1f s, "
       "joint fits %.1f s)\n",
       wall, cpu, render_s, track_s, fit_s, joint_s);
-  std::printf("law_recovery_bench: %d passed, %d failed\n", passed, failed);
-  return failed == 0 ? 0 : 1;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  google::InitGoogleLogging(argv[0]);
+  FLAGS_minloglevel = 3;
+  const std::optional<Args> parsed = ParseArgs(argc, argv);
+  if (!parsed) return 2;
+  const Args& args = *parsed;
+  if (args.plan) {
+    PrintPlan(args.laws, args.heights, args.bounces);
+    return 0;
+  }
+  const auto wall0 = std::chrono::steady_clock::now();
+  const std::clock_t cpu0 = std::clock();
+
+  std::vector<ClipJob> clip_jobs;
+  for (LawId law : args.laws) {
+    for (size_t i = 0; i < args.heights.size(); ++i) {
+      ClipJob j;
+      j.law = law;
+      j.height_m = args.heights[i];
+      j.index = static_cast<int>(i);
+      j.dir = args.cache / analysis::ToString(law) / HeightTag(args.heights[i]);
+      clip_jobs.push_back(j);
+    }
+  }
+  std::printf("law_recovery_bench: cache %s, %zu clips, heights", args.cache.string().c_str(), clip_jobs.size());
+  for (double h : args.heights) std::printf(" %.3f", h);
+  std::printf(" m, %d complete bounces per clip, %d threads\n", args.bounces, args.threads);
+  if (args.white_control) {
+    std::printf(
+        "CONTROL RUN (--white-control): tracked heights replaced by truth + white noise of each clip's RMS "
+        "tracking error\n");
+  }
+  std::fflush(stdout);
+  RunPool(clip_jobs, args.threads, [&](ClipJob& j) { RunClipJob(j, args.bounces, args.retrack, args.white_control); });
+
+  std::vector<JointJob> joint_jobs;
+  for (LawId law : args.laws) {
+    JointJob j;
+    j.law = law;
+    for (ClipJob& c : clip_jobs)
+      if (c.law == law) j.clips.push_back(&c);
+    joint_jobs.push_back(j);
+  }
+  RunPool(joint_jobs, args.threads, [&](JointJob& j) { RunJointJob(j); });
+
+  Tally tally;
+  int rank_ok = 0, rank_total = 0, joint_rank_ok = 0, joint_rank_total = 0;
+  ReportPerClipFits(clip_jobs, args.verbose, tally, rank_ok, rank_total);
+  ReportJointFits(joint_jobs, args.verbose, tally, joint_rank_ok, joint_rank_total);
+  ReportRankingShare(rank_ok, rank_total, joint_rank_ok, joint_rank_total, tally);
+  ReportTimes(clip_jobs, joint_jobs, Since(wall0), static_cast<double>(std::clock() - cpu0) / CLOCKS_PER_SEC);
+  std::printf("law_recovery_bench: %d passed, %d failed\n", tally.passed, tally.failed);
+  return tally.failed == 0 ? 0 : 1;
 }

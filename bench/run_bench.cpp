@@ -202,9 +202,10 @@ std::string RunValue(const cli::Summary& s, const std::string& key) {
   return "";
 }
 
-void CheckSummary(const fs::path& out, const std::map<std::string, std::vector<cli::RenderTruth>>& truths,
-                  Tally& tally) {
-  const cli::Summary summary = cli::ReadSummaryJson(out / "summary.json");
+using Truths = std::map<std::string, std::vector<cli::RenderTruth>>;
+
+// The per-height summary groups against the truth of their clips' first complete impacts.
+void CheckSummaryGroups(const fs::path& out, const cli::Summary& summary, const Truths& truths, Tally& tally) {
   std::printf("\n== summary groups against truth (%s; truth = mean over the group's clips of the first impact)\n",
               out.filename().c_str());
   std::printf("%-8s %6s %4s | %-28s | %-28s | %-28s | %-28s | %-28s\n", "specimen", "h_m", "n",
@@ -244,7 +245,10 @@ void CheckSummary(const fs::path& out, const std::map<std::string, std::vector<c
         g.peak_force_n_mean, force, 100 * (g.peak_force_n_mean / force - 1), Verdict(ok_f));
   }
   std::printf("(columns: measured, truth, error, verdict)\n");
+}
 
+// Each specimen's joint fits against the law it was rendered with.
+void CheckJointFits(const fs::path& out, const cli::Summary& summary, const Truths& truths, Tally& tally) {
   std::printf("\n== joint fits per specimen against truth (%s)\n", out.filename().c_str());
   for (const cli::SpecimenSummary& sp : summary.specimens) {
     const cli::RenderTruth& t0 = truths.at(sp.specimen).front();
@@ -327,6 +331,12 @@ void CheckSummary(const fs::path& out, const std::map<std::string, std::vector<c
   }
 }
 
+void CheckSummary(const fs::path& out, const Truths& truths, Tally& tally) {
+  const cli::Summary summary = cli::ReadSummaryJson(out / "summary.json");
+  CheckSummaryGroups(out, summary, truths, tally);
+  CheckJointFits(out, summary, truths, tally);
+}
+
 struct StageTimes {
   double decode = 0, track = 0, fits = 0, joint = NAN, clip_stage_wall = NAN, clip_stage_cpu = NAN, run_wall = 0,
          run_cpu = 0;
@@ -353,6 +363,30 @@ StageTimes ReadStageTimes(const fs::path& out) {
   const std::string stage_cpu = RunValue(summary, "cpu_time_clip_stage_s");
   if (!stage_cpu.empty()) s.clip_stage_cpu = std::stod(stage_cpu);
   return s;
+}
+
+// Calibrates the rig (cache/rig.json) from the first unit's rendered checkerboard views through
+// `dropfit calibrate`'s own function, as a user would.
+bool CalibrateFromRenderedViews(const fs::path& cache, const std::vector<SpecimenPlan>& specimens,
+                                const std::map<std::string, std::vector<cli::RenderTruth>>& truths) {
+  const fs::path calib_unit = cache / "render" / UnitName(specimens[0], kHeightsM[0]);
+  const cli::RenderTruth& calib_truth = truths.at(specimens[0].name).front();
+  if (!calib_truth.calibration) {
+    std::fprintf(stderr, "run_bench: %s has no calibration views\n", calib_unit.c_str());
+    return false;
+  }
+  cli::CalibrateCommandOptions co;
+  co.inputs = {(calib_unit / "calib").string()};
+  co.board = calib_truth.calibration->board;
+  co.square_m = calib_truth.calibration->square_m;
+  co.plane_image = (calib_unit / "calib" / "plane.png").string();
+  co.corner_height_m = calib_truth.calibration->corner_height_m;
+  co.out_path = (cache / "rig.json").string();
+  const auto t0 = std::chrono::steady_clock::now();
+  std::ostringstream out, err;
+  const int status = cli::RunCalibrate(co, out, err);
+  std::printf("calibrate: exit %d in %.1f s\n%s%s", status, Seconds(t0), out.str().c_str(), err.str().c_str());
+  return status == 0;
 }
 
 }  // namespace
@@ -403,26 +437,7 @@ int main(int argc, char** argv) {
   }
 
   // 2. Calibrate from the rendered checkerboard views, as a user would.
-  const fs::path calib_unit = cache / "render" / UnitName(specimens[0], kHeightsM[0]);
-  const cli::RenderTruth& calib_truth = truths[specimens[0].name].front();
-  if (!calib_truth.calibration) {
-    std::fprintf(stderr, "run_bench: %s has no calibration views\n", calib_unit.c_str());
-    return 1;
-  }
-  cli::CalibrateCommandOptions co;
-  co.inputs = {(calib_unit / "calib").string()};
-  co.board = calib_truth.calibration->board;
-  co.square_m = calib_truth.calibration->square_m;
-  co.plane_image = (calib_unit / "calib" / "plane.png").string();
-  co.corner_height_m = calib_truth.calibration->corner_height_m;
-  co.out_path = (cache / "rig.json").string();
-  {
-    const auto t0 = std::chrono::steady_clock::now();
-    std::ostringstream out, err;
-    const int status = cli::RunCalibrate(co, out, err);
-    std::printf("calibrate: exit %d in %.1f s\n%s%s", status, Seconds(t0), out.str().c_str(), err.str().c_str());
-    if (status != 0) return 1;
-  }
+  if (!CalibrateFromRenderedViews(cache, specimens, truths)) return 1;
 
   // 3. Run the folder with each job count into a fresh output folder.
   Tally tally;

@@ -123,7 +123,7 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
                             (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
   const fs::path out_dir(options.out_dir);
 
-  // The start-up checks shared with analyze and run (cli/clip_pipeline.h). A set-up problem
+  // The start-up checks shared with analyze and run (pipeline/clip.h, OpenClip). A set-up problem
   // (no capture rate, a rig for another image size) stops the command; a clip that cannot be
   // read fails, with the files saying why.
   pipeline::ClipRequest request;

@@ -19,7 +19,7 @@
 //   x'' = x' (1 + k1 r^2 + k2 r^4 + k3 r^6) + 2 p1 x' y' + p2 (r^2 + 2 x'^2)
 //   y'' = y' (1 + k1 r^2 + k2 r^4 + k3 r^6) + p1 (r^2 + 2 y'^2) + 2 p2 x' y'
 //   u = fx x'' + cx,  v = fy y'' + cy
-// The projection below is our own code; tests/analysis/camera_test.cpp checks it against
+// The projection below is our own code; tests/synth/camera_test.cpp checks it against
 // cv::projectPoints.
 
 #include <opencv2/core.hpp>

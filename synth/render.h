@@ -30,7 +30,7 @@
 // edge are supersampled on a K x K grid (K = 4, and 8 near the marker) mapped through the local
 // Jacobian of the pixel-to-plane mapping, with w = pixel size / K. So no edge is displaced by
 // the drawing: the marker's drawn centre is its geometric centre to far better than 0.01 px
-// (tests/analysis/render_test.cpp measures it by intensity moments).
+// (tests/synth/render_test.cpp measures it by intensity moments).
 //
 // Exposure model per frame (common practice for sensor simulation, no source):
 //   mu = (radiance * PSF) x vignetting(u, v) x flicker(t)   [grey levels], PSF a Gaussian

@@ -82,7 +82,7 @@ void CheckManifest(const Manifest& m) {
         !PositiveFiniteOrAbsent(row.tread_width_m) || !PositiveFiniteOrAbsent(row.section_radius_m)) {
       Finding("usable row with a bad optional number", row.clip);
     }
-    // The path the pipeline opens (cli/clip_pipeline.cpp): lexically normalised, so
+    // The path the pipeline opens (cli/clip_records.cpp, ClipRequestFor): lexically normalised, so
     // "x/../a.avi" is a.avi even when no x/ exists.
     std::error_code ec;
     if (!fs::exists(m.folder / fs::path(row.clip).lexically_normal(), ec)) {

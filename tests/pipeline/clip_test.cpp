@@ -110,8 +110,8 @@ TEST(PipelineClip, ARebuiltClipReadAtTheSavedFittedOnsetGivesTheSameFiguresAsThe
   ASSERT_TRUE(a.onset_refitted);
   MeasureOptions rebuilt;
   rebuilt.fit_laws = false;
-  rebuilt.onset_from_fit = std::make_pair(a.kinematics.segmentation.onset_height_m,
-                                          a.kinematics.segmentation.onset_height_sd_m);
+  rebuilt.onset_from_fit =
+      std::make_pair(a.kinematics.segmentation.onset_height_m, a.kinematics.segmentation.onset_height_sd_m);
   const ClipMeasurement b = MeasureClip(Request(0.55), RigWithFloor(false), drop.series, kFps, rebuilt);
   ASSERT_EQ(a.kinematics.impacts.size(), b.kinematics.impacts.size());
   for (size_t i = 0; i < a.kinematics.impacts.size(); ++i) {
