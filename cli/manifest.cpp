@@ -180,24 +180,40 @@ std::string ClipIdOf(const std::filesystem::path& clip) {
   return p.stem().string();
 }
 
-Manifest ParseManifest(std::string_view text, const std::filesystem::path& folder, const std::string& display_name,
-                       bool check_files) {
-  Manifest manifest;
-  manifest.folder = folder;
-  manifest.display_name = display_name;
-  if (text.size() >= 3 && text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);
-  if (!IsValidUtf8(text)) {
-    throw ManifestStructureError(display_name + ": is not UTF-8 text; save the manifest as UTF-8 CSV");
-  }
-  const std::vector<CsvRecord> records = SplitRecords(text, display_name);
+namespace {
+
+// "<file>:<line>: ", the start of every row message.
+std::string Where(const std::string& display_name, int line) {
+  return display_name + ":" + std::to_string(line) + ": ";
+}
+
+// Records the first failure of a row (later ones are not reported).
+void Fail(ManifestRow& row, const std::string& where, const std::string& column, const std::string& what) {
+  if (row.error.empty()) row.error = where + "column '" + column + "': " + what;
+}
+
+// The header row: where it is among the records and where each known column is.
+struct Header {
+  size_t record = 0;  // index into the records
+  std::vector<std::string> fields;
+  int line = 0;
+  std::map<Column, size_t> index;
+};
+
+// Finds the header (the first record that is not a comment or blank), maps its columns, warns
+// about unknown ones and checks that the required ones are there. Throws ManifestStructureError.
+Header ReadHeader(const std::vector<CsvRecord>& records, const std::string& display_name,
+                  std::vector<std::string>& warnings) {
   auto header_it = std::find_if(records.begin(), records.end(), [](const CsvRecord& r) { return !r.comment_or_blank; });
   if (header_it == records.end()) {
     throw ManifestStructureError(display_name +
                                  ": has no header row; the first line must name the columns, e.g. "
                                  "clip,drop_height_m,mass_kg");
   }
-  const CsvRecord& header = *header_it;
-  std::map<Column, size_t> index;
+  Header header;
+  header.record = static_cast<size_t>(header_it - records.begin());
+  header.fields = header_it->fields;
+  header.line = header_it->line;
   std::map<std::string, int> seen;
   for (size_t c = 0; c < header.fields.size(); ++c) {
     const std::string& name = header.fields[c];
@@ -208,13 +224,13 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
     bool known = false;
     for (const auto& [known_name, column] : KnownColumns()) {
       if (name == known_name) {
-        index[column] = c;
+        header.index[column] = c;
         known = true;
       }
     }
     if (!known) {
-      manifest.warnings.push_back(display_name + ":" + std::to_string(header.line) + ": column '" + name +
-                                  "' is not one dropfit reads; it is ignored");
+      warnings.push_back(display_name + ":" + std::to_string(header.line) + ": column '" + name +
+                         "' is not one dropfit reads; it is ignored");
     }
   }
   std::string found;
@@ -226,77 +242,129 @@ Manifest ParseManifest(std::string_view text, const std::filesystem::path& folde
                                    "); the header needs clip, drop_height_m and mass_kg");
     }
   }
+  return header;
+}
 
+// A row whose field count differs from the header's: failed, with its clip when that column
+// is there, so that the failure can name the clip.
+ManifestRow RowWithWrongFieldCount(const CsvRecord& record, const Header& header, const std::filesystem::path& folder,
+                                   const std::string& display_name) {
+  ManifestRow row;
+  row.line = record.line;
+  const auto& f = record.fields;
+  row.error = Where(display_name, row.line) + "has " + std::to_string(f.size()) + " fields but the header has " +
+              std::to_string(header.fields.size()) + "; check for a missing or extra comma";
+  const auto clip = header.index.find(Column::kClip);
+  if (!f.empty() && clip != header.index.end() && clip->second < f.size()) {
+    row.clip = f[clip->second];
+    row.clip_id = ClipIdOf(folder / row.clip);
+  }
+  return row;
+}
+
+// The clip column of a full row: not empty, inside the folder, and (check_files) there.
+void ReadClipColumn(ManifestRow& row, const std::string& clip, const std::filesystem::path& folder, bool check_files,
+                    const std::string& where) {
+  row.clip = clip;
+  if (row.clip.empty()) {
+    Fail(row, where, "clip", "is empty; give the clip's file or folder name, relative to the manifest's folder");
+  } else if (LeavesFolder(row.clip)) {
+    Fail(row, where, "clip",
+         "'" + row.clip + "' leaves the clip folder; put the clip inside " + folder.string() +
+             " and give its path relative to it");
+  } else {
+    row.clip_id = ClipIdOf(folder / std::filesystem::path(row.clip).lexically_normal());
+    // The error_code form: a name the file system refuses (ENAMETOOLONG; found while writing
+    // tests/fuzz) fails this row instead of throwing out of the reader.
+    std::error_code ec;
+    if (check_files && !std::filesystem::exists(folder / std::filesystem::path(row.clip).lexically_normal(), ec)) {
+      Fail(row, where, "clip",
+           "'" + row.clip + "' does not exist in " + folder.string() +
+               (ec ? " (" + ec.message() + ")" : std::string()) + "; check the file name");
+    }
+  }
+}
+
+// The number columns of a full row: drop height and mass (required), capture rate and the
+// radii (optional, may be empty).
+void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, const Header& header,
+                       const std::string& where) {
+  auto get = [&](Column c) -> const std::string& { return f[header.index.at(c)]; };
+  double value = 0;
+  std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
+  if (err.empty())
+    row.drop_height_m = value;
+  else
+    Fail(row, where, "drop_height_m", err);
+  err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
+  if (err.empty())
+    row.mass_kg = value;
+  else
+    Fail(row, where, "mass_kg", err);
+  const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
+      {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
+      {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
+      {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
+      {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
+  };
+  for (const auto& [column, name, target, spec] : optional_numbers) {
+    if (!header.index.count(column) || get(column).empty()) continue;
+    err = ParsePositive(get(column), spec, value);
+    if (err.empty())
+      *target = value;
+    else
+      Fail(row, where, name, err + " (or leave it empty)");
+  }
+}
+
+// A row with as many fields as the header.
+ManifestRow ReadFullRow(const CsvRecord& record, const Header& header, const std::filesystem::path& folder,
+                        const std::string& display_name, bool check_files) {
+  ManifestRow row;
+  row.line = record.line;
+  const std::string where = Where(display_name, row.line);
+  ReadClipColumn(row, record.fields[header.index.at(Column::kClip)], folder, check_files, where);
+  ReadNumberColumns(row, record.fields, header, where);
+  const auto specimen = header.index.find(Column::kSpecimen);
+  if (specimen != header.index.end()) row.specimen = record.fields[specimen->second];
+  return row;
+}
+
+// Fails a row whose clip id an earlier full row already used (this failure replaces any other).
+void CheckClipIdUnique(ManifestRow& row, std::map<std::string, int>& first_line_of_id,
+                       const std::string& display_name) {
+  if (row.clip_id.empty()) return;
+  auto [pos, inserted] = first_line_of_id.emplace(row.clip_id, row.line);
+  if (!inserted) {
+    row.error = Where(display_name, row.line) + "column 'clip': clip id '" + row.clip_id +
+                "' is already used at line " + std::to_string(pos->second) +
+                "; remove the duplicate row or rename the clip";
+  }
+}
+
+}  // namespace
+
+Manifest ParseManifest(std::string_view text, const std::filesystem::path& folder, const std::string& display_name,
+                       bool check_files) {
+  Manifest manifest;
+  manifest.folder = folder;
+  manifest.display_name = display_name;
+  if (text.size() >= 3 && text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);
+  if (!IsValidUtf8(text)) {
+    throw ManifestStructureError(display_name + ": is not UTF-8 text; save the manifest as UTF-8 CSV");
+  }
+  const std::vector<CsvRecord> records = SplitRecords(text, display_name);
+  const Header header = ReadHeader(records, display_name, manifest.warnings);
   std::map<std::string, int> first_line_of_id;
-  for (auto it = std::next(header_it); it != records.end(); ++it) {
-    if (it->comment_or_blank) continue;
-    ManifestRow row;
-    row.line = it->line;
-    const std::string where = display_name + ":" + std::to_string(row.line) + ": ";
-    auto fail = [&](const std::string& column, const std::string& what) {
-      if (row.error.empty()) row.error = where + "column '" + column + "': " + what;
-    };
-    const auto& f = it->fields;
-    if (f.size() != header.fields.size()) {
-      row.error = where + "has " + std::to_string(f.size()) + " fields but the header has " +
-                  std::to_string(header.fields.size()) + "; check for a missing or extra comma";
-      if (!f.empty() && index.count(Column::kClip) && index[Column::kClip] < f.size()) {
-        row.clip = f[index[Column::kClip]];
-        row.clip_id = ClipIdOf(folder / row.clip);
-      }
-      manifest.rows.push_back(std::move(row));
+  for (size_t r = header.record + 1; r < records.size(); ++r) {
+    const CsvRecord& record = records[r];
+    if (record.comment_or_blank) continue;
+    if (record.fields.size() != header.fields.size()) {
+      manifest.rows.push_back(RowWithWrongFieldCount(record, header, folder, display_name));
       continue;
     }
-    auto get = [&](Column c) -> const std::string& { return f[index.at(c)]; };
-    row.clip = get(Column::kClip);
-    if (row.clip.empty()) {
-      fail("clip", "is empty; give the clip's file or folder name, relative to the manifest's folder");
-    } else if (LeavesFolder(row.clip)) {
-      fail("clip", "'" + row.clip + "' leaves the clip folder; put the clip inside " + folder.string() +
-                       " and give its path relative to it");
-    } else {
-      row.clip_id = ClipIdOf(folder / std::filesystem::path(row.clip).lexically_normal());
-      // The error_code form: a name the file system refuses (ENAMETOOLONG; found while writing
-      // tests/fuzz) fails this row instead of throwing out of the reader.
-      std::error_code ec;
-      if (check_files && !std::filesystem::exists(folder / std::filesystem::path(row.clip).lexically_normal(), ec)) {
-        fail("clip", "'" + row.clip + "' does not exist in " + folder.string() +
-                         (ec ? " (" + ec.message() + ")" : std::string()) + "; check the file name");
-      }
-    }
-    double value = 0;
-    std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
-    if (err.empty())
-      row.drop_height_m = value;
-    else
-      fail("drop_height_m", err);
-    err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
-    if (err.empty())
-      row.mass_kg = value;
-    else
-      fail("mass_kg", err);
-    const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
-        {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
-        {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
-        {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
-        {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
-    };
-    for (const auto& [column, name, target, spec] : optional_numbers) {
-      if (!index.count(column) || get(column).empty()) continue;
-      err = ParsePositive(get(column), spec, value);
-      if (err.empty())
-        *target = value;
-      else
-        fail(name, err + " (or leave it empty)");
-    }
-    if (index.count(Column::kSpecimen)) row.specimen = get(Column::kSpecimen);
-    if (!row.clip_id.empty()) {
-      auto [pos, inserted] = first_line_of_id.emplace(row.clip_id, row.line);
-      if (!inserted) {
-        row.error = where + "column 'clip': clip id '" + row.clip_id + "' is already used at line " +
-                    std::to_string(pos->second) + "; remove the duplicate row or rename the clip";
-      }
-    }
+    ManifestRow row = ReadFullRow(record, header, folder, display_name, check_files);
+    CheckClipIdUnique(row, first_line_of_id, display_name);
     manifest.rows.push_back(std::move(row));
   }
   if (manifest.rows.empty()) {

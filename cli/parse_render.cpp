@@ -5,15 +5,10 @@
 
 namespace dropfit::cli {
 
-void AddRenderCommand(CLI::App& app, CommandAction& action) {
-  auto o = std::make_shared<RenderCommandOptions>();
-  CLI::App* sub = app.add_subcommand(
-      "render",
-      "Synthetic drop clips with exact truth (clips, manifest.csv, truth.json, rig_exact.json) and "
-      "checkerboard calibration images, from the forward model of a wheel dropped onto a rigid floor");
-  sub->add_option("-o,--output", o->out_dir, "Output folder (created; files of the same names are replaced)")
-      ->required();
+namespace {
 
+// Contact law, mass, heights, repeats, seed and the motion around the drop.
+void AddPhysicsOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* physics = "Physics";
   sub->add_option("--law", o->law, "Contact law: kelvin-voigt|hunt-crossley|hertz|bilinear|volumetric")
       ->capture_default_str()
@@ -49,7 +44,10 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("--gravity", o->gravity_mps2, "Local gravity [m/s^2], [9.7, 9.9]")
       ->capture_default_str()
       ->group(physics);
+}
 
+// The wheel: name, radii, tread, marker.
+void AddSpecimenOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* specimen = "Specimen";
   sub->add_option("--specimen", o->specimen, "Specimen name written to manifest.csv")
       ->capture_default_str()
@@ -79,7 +77,10 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
                   "Marker diameter [m]; 0 = 0.030 for a quadrant, 0.018 for a dot")
       ->capture_default_str()
       ->group(specimen);
+}
 
+// Image size, lens, mounting.
+void AddCameraOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* camera = "Camera";
   sub->add_option("--image-size", o->image_size, "Image WIDTHxHEIGHT [px]")->capture_default_str()->group(camera);
   sub->add_option("--focal", o->focal_px,
@@ -107,7 +108,10 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("--floor-margin", o->floor_margin_px, "Floor line height above the image bottom [px]")
       ->capture_default_str()
       ->group(camera);
+}
 
+// Capture rate, exposure, noise, blur, flicker.
+void AddSensorOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* sensor = "Sensor";
   sub->add_option("--fps", o->fps, "Capture rate [frames/s], (0, 1e6]")->capture_default_str()->group(sensor);
   sub->add_option("--exposure", o->exposure_s, "Exposure time [s], (0, 1/fps]")->capture_default_str()->group(sensor);
@@ -134,7 +138,10 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
                 "No noise, no motion or lens blur, no flicker or vignetting, lossless frames (PNG unless "
                 "--format says otherwise)")
       ->group(sensor);
+}
 
+// Clip format and length, calibration images, threads.
+void AddOutputOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* output = "Output";
   sub->add_option("--format", o->format,
                   "Clip format: mjpg (JPEG frames in .avi, our own writer), ffv1 (lossless .mov), h264 "
@@ -170,6 +177,23 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
                   "the impacts of the full clip")
       ->capture_default_str()
       ->group(output);
+}
+
+}  // namespace
+
+void AddRenderCommand(CLI::App& app, CommandAction& action) {
+  auto o = std::make_shared<RenderCommandOptions>();
+  CLI::App* sub = app.add_subcommand(
+      "render",
+      "Synthetic drop clips with exact truth (clips, manifest.csv, truth.json, rig_exact.json) and "
+      "checkerboard calibration images, from the forward model of a wheel dropped onto a rigid floor");
+  sub->add_option("-o,--output", o->out_dir, "Output folder (created; files of the same names are replaced)")
+      ->required();
+  AddPhysicsOptions(sub, o.get());
+  AddSpecimenOptions(sub, o.get());
+  AddCameraOptions(sub, o.get());
+  AddSensorOptions(sub, o.get());
+  AddOutputOptions(sub, o.get());
 
   sub->footer(
       "Writes: the clips, manifest.csv, truth.json (per frame the drawn marker centre in pixels at\n"

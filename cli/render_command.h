@@ -12,89 +12,19 @@
 //   calib/lens_NN.png, calib/plane.png   checkerboard views (unless calibration is off)
 //   render_options.txt  the effective options, one "name = value" per line
 //
-// Scene: a wheel whose tyre's lowest point is drop_height_m above the floor at release; clips
-// start pre_release_s before release (or, when the hub is out of view at release, at the first
-// frame the marker is wholly in view) and by default hold three complete bounces.
-// Physics: analysis/forward_model.h (the renderer draws, it does not simulate).
+// The options, their validator and the plan of the set are synth/render_plan.h; the clips and
+// calibration images are drawn by synth/render_set.h. This command adds the files above that
+// are not images, the progress messages and the exit status.
 
-#include <cstdint>
-#include <optional>
-#include <string>
-#include <vector>
-
-#include "analysis/constants.h"
+#include "synth/render_plan.h"
 
 namespace dropfit::cli {
 
-// Every setting of a render run: default, meaning, unit, valid range.
-struct RenderCommandOptions {
-  std::string out_dir;  // folder to write into (created; files in it are replaced)
-  // Physics.
-  std::string law = "kelvin-voigt";     // contact law id (contract)
-  std::vector<std::string> params;      // "name=value" law parameters (contract names); unset ones
-                                        // take the law's default (RenderLawDefaults)
-  double mass_kg = 5.0;                 // dropped mass; (0, 1e4]
-  std::vector<double> heights_m{0.30};  // drop heights (tyre's lowest point at release); each (0, 5]
-  int repeats = 1;                      // clips per height; 1..100
-  uint64_t seed = 1;                    // master seed: noise, texture, repeat-to-repeat variation
-  double height_jitter_m = 0.001;       // repeat-to-repeat release height spread (uniform +-); [0, 0.05]
-  double drift_mps = 0.01;              // horizontal hub speed (decoration); [-1, 1]
-  double spin_radps = 1.5;              // wheel rotation rate, counter-clockwise on screen; [-100, 100]
-  double gravity_mps2 = analysis::kStandardGravityMps2;  // local gravity; [9.7, 9.9]
-  // Specimen.
-  std::string specimen = "synthetic-wheel";  // manifest's specimen column
-  double free_radius_m = 0.20;               // tyre outer radius; [0.02, 1]
-  double rim_radius_m = 0.0;                 // 0 = free radius - 2 x section radius (or 0.55 x free)
-  double tread_width_m = 0.0;                // cylinder tread width for the volumetric law; 0 = none
-  double section_radius_m = 0.045;           // torus cross-section radius (wins); 0 = none
-  std::string marker = "quadrant";           // "quadrant" or "dot"
-  double marker_diameter_m = 0.0;            // 0 = 0.030 (quadrant) or 0.018 (dot)
-  // Camera.
-  std::string image_size = "800x640";  // width x height [px]
-  double focal_px = 1200.0;            // focal length [px]; (10, 1e5)
-  double camera_distance_m = 1.2;      // camera to drop plane along the axis [m]; sets the scale
-  std::optional<double> cx_px, cy_px;  // principal point; default image centre + (3.2, -2.1) px
-  double k1 = -0.07, k2 = 0.02, p1 = 4e-4, p2 = -3e-4, k3 = 0.0;  // lens distortion (OpenCV)
-  double pitch_deg = 2.0, roll_deg = 1.5, yaw_deg = 0.8;          // mounting errors [deg]
-  double floor_margin_px = 40.0;  // the floor line sits this far above the bottom edge [px]
-  // Sensor.
-  double fps = 2000.0;               // capture rate [frames/s]; (0, 1e6]
-  double exposure_s = 2e-4;          // exposure time [s]; (0, 1/fps]
-  int subframes = 4;                 // renderings averaged per frame (motion blur); 1..64
-  double read_noise_grey = 2.0;      // read noise s.d. [grey levels]
-  double electrons_per_grey = 16.0;  // shot-noise gain [e-/grey level]; 0 = none
-  double vignetting = 0.2;           // brightness lost at the image corners; [0, 0.9]
-  double flicker = 0.02;             // lighting flicker amplitude (100 Hz); [0, 0.5]
-  double psf_sigma_px = 0.5;         // lens blur s.d. [px]; [0, 5]
-  bool clean = false;                // no noise, no motion blur, no lens blur, no flicker,
-                                     // no vignetting, lossless output
-  // Output.
-  std::string format = "auto";  // mjpg | ffv1 | h264 | png | auto (mjpg; png when clean)
-  int jpeg_quality = 90;        // MJPG quality; 1..100
-  double container_fps = 0.0;   // rate stored in the container; 0 = the capture rate
-  double duration_s = 0.0;      // clip length [s]; 0 = through 3 complete bounces (<= 3 s)
-  double pre_release_s = 0.01;  // clip start before release [s]; [0, 1]
-  bool calibration = true;      // write calib/ checkerboard images
-  std::string board = "9x6";    // checkerboard inner corners, columns x rows
-  double square_m = 0.05;       // checkerboard square [m]
-  int lens_views = 10;          // tilted checkerboard views; 1..12
-  int threads = 2;              // clips rendered at once; 1..64 (output is the same)
-  int first_frames = 0;         // render only the first N frames of each clip (quick
-                                // checks); 0 = all. Impacts in truth.json stay those of
-                                // the full clip.
-};
-
-// A message naming the first bad option, its value and its valid range, or nothing.
-std::optional<std::string> ValidateRenderOptions(const RenderCommandOptions& options);
-
-// The default parameters of each law for the default wheel (5 kg, free radius 0.2 m): a
-// pneumatic-tyre-like contact of ~25 mm deflection and COR ~0.7 from 0.3 m. "name=value" pairs.
-std::vector<std::string> RenderLawDefaults(const std::string& law);
-
-// The options a run recorded (truth.json "options", render_options.txt), back as a struct, so
-// that a clip set can be re-rendered exactly. Throws std::invalid_argument naming an unknown
-// option or a value that does not parse.
-RenderCommandOptions RenderOptionsFromRecord(const std::vector<std::pair<std::string, std::string>>& record);
+// Every setting of a render run: default, meaning, unit, valid range (synth/render_plan.h).
+using RenderCommandOptions = synth::RenderOptions;
+using synth::RenderLawDefaults;
+using synth::RenderOptionsFromRecord;
+using synth::ValidateRenderOptions;
 
 // Runs the render. Returns the contract's exit status: 0 done, 2 bad options (nothing written).
 int RunRender(const RenderCommandOptions& options);

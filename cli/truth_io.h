@@ -1,5 +1,6 @@
 #pragma once
-// truth.json: what `dropfit render` drew, for known-answer tests and benchmarks.
+// truth.json: what `dropfit render` drew (synth/render_truth.h), for known-answer tests and
+// benchmarks.
 //
 // Format: one JSON object, field names dropfit's own, numbers in the units their names carry,
 // NaN written as null. Top level:
@@ -29,64 +30,18 @@
 // (u_px[i], v_px[i]) at mid-exposure time t_s[i] = frame / capture_fps; positions are rounded
 // to 1e-9 px and 1e-12 m. Times are on the clip clock of the contract (frame 0 at t = 0).
 
-#include <cstdint>
 #include <filesystem>
-#include <optional>
 #include <string>
-#include <utility>
-#include <vector>
 
-#include "analysis/forward_model.h"
-#include "synth/camera.h"
-#include "synth/render.h"
+#include "synth/render_truth.h"
 
 namespace dropfit::cli {
 
-struct ClipTruth {
-  std::string clip;                    // file (or folder) name in the output folder
-  std::string clip_id;                 // contract clip id
-  double drop_height_m = 0.0;          // nominal (manifest)
-  double release_drop_height_m = 0.0;  // tyre's lowest point at release, as simulated
-  double release_time_s = 0.0;         // release instant on the clip clock
-  double capture_fps = 0.0;
-  double container_fps = 0.0;
-  uint64_t noise_seed = 0;
-  double onset_height_m = 0.0;  // hub height at first contact (= free radius)
-  double start_x_m = 0.0, start_spin_rad = 0.0, drift_mps = 0.0, spin_radps = 0.0;
-  std::vector<analysis::ImpactTruth> impacts;
-  std::vector<synth::FrameTruth> frames;
-};
-
-struct CalibrationViewTruth {
-  std::string file;  // relative to the output folder
-  bool drop_plane = false;
-  cv::Vec3d board_rvec_rad, board_tvec_m;
-  std::vector<cv::Point2d> inner_corners_px;
-};
-
-struct CalibrationTruth {
-  std::string board;  // "9x6"
-  double square_m = 0.0;
-  double corner_height_m = 0.0;
-  std::vector<CalibrationViewTruth> views;
-};
-
-struct RenderTruth {
-  std::string tool_version;
-  uint64_t seed = 0;
-  std::string specimen;
-  std::string law;
-  std::vector<std::pair<std::string, double>> params;  // contract names, in ParameterNames order
-  double mass_kg = 0.0;
-  double gravity_mps2 = 0.0;
-  analysis::TreadGeometry tread;
-  synth::PinholeCamera camera;
-  synth::WheelLook wheel;
-  synth::ExposureSettings exposure;
-  std::optional<CalibrationTruth> calibration;
-  std::vector<ClipTruth> clips;
-  std::vector<std::pair<std::string, std::string>> options;
-};
+// The truth itself is plain data (synth/render_truth.h); this file is its JSON form.
+using synth::CalibrationTruth;
+using synth::CalibrationViewTruth;
+using synth::ClipTruth;
+using synth::RenderTruth;
 
 // The JSON text (2-space indented).
 std::string TruthToJson(const RenderTruth& truth);
