@@ -6,6 +6,7 @@
 #include <functional>
 #include <iomanip>
 #include <iostream>
+#include <mutex>
 #include <sstream>
 #include <stdexcept>
 #include <string>
@@ -53,15 +54,15 @@ void WriteManifest(const fs::path& path, const RenderCommandOptions& o, const st
 }
 
 // The progress line of a rendered clip, and a warning when its marker left the view.
-void ReportClip(const ClipTruth& clip, double seconds) {
+void ReportClip(std::ostream& err, const ClipTruth& clip, double seconds) {
   int out_of_view = 0;
   for (const auto& f : clip.frames) out_of_view += f.marker_in_view ? 0 : 1;
   if (out_of_view > 0) {
-    std::cerr << "dropfit render: warning: " << clip.clip << ": the marker is not wholly in view in " << out_of_view
-              << " frames (marker_in_view = false in truth.json)\n";
+    err << "dropfit render: warning: " << clip.clip << ": the marker is not wholly in view in " << out_of_view
+        << " frames (marker_in_view = false in truth.json)\n";
   }
-  std::cerr << "dropfit render: " << clip.clip << ": " << clip.frames.size() << " frames, " << clip.impacts.size()
-            << " impacts, " << std::fixed << std::setprecision(1) << seconds << " s\n";
+  err << "dropfit render: " << clip.clip << ": " << clip.frames.size() << " frames, " << clip.impacts.size()
+      << " impacts, " << std::fixed << std::setprecision(1) << seconds << " s\n";
 }
 
 // The files of the set that are not images: manifest.csv, truth.json, rig_exact.json and
@@ -78,7 +79,7 @@ void WriteSetFiles(const fs::path& out, const synth::RenderSetPlan& set, const R
 
 }  // namespace
 
-int RunRender(const RenderCommandOptions& options) {
+int RunRender(const RenderCommandOptions& options, std::ostream& /*out*/, std::ostream& err) {
   const auto started = std::chrono::steady_clock::now();
   // Every clip is planned before anything is written, so that a set that cannot be made writes
   // nothing.
@@ -86,23 +87,29 @@ int RunRender(const RenderCommandOptions& options) {
   try {
     set = synth::PlanRenderSet(options);
   } catch (const std::invalid_argument& e) {
-    std::cerr << "dropfit render: " << e.what() << "; nothing was written\n";
+    err << "dropfit render: " << e.what() << "; nothing was written\n";
     return kExitBadUsage;
   }
   // Clips are independent (own generator, own file): render them on `threads` workers.
   const synth::ClipLoop loop = [&options](size_t count, const std::function<void(size_t)>& render_clip) {
     ParallelFor(count, options.threads, render_clip);
   };
-  RenderTruth truth = synth::RenderSet(set, loop, ReportClip);
+  std::mutex err_mutex;  // clips finish on several threads
+  RenderTruth truth = synth::RenderSet(set, loop, [&](const ClipTruth& clip, double seconds) {
+    std::lock_guard<std::mutex> lock(err_mutex);
+    ReportClip(err, clip, seconds);
+  });
   truth.tool_version = kVersion;
   const fs::path out(options.out_dir);
   WriteSetFiles(out, set, truth);
   long total_frames = 0;
   for (const ClipTruth& clip : truth.clips) total_frames += static_cast<long>(clip.frames.size());
   const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
-  std::cerr << "dropfit render: wrote " << truth.clips.size() << " clips (" << total_frames << " frames) to "
-            << out.string() << " in " << std::fixed << std::setprecision(1) << seconds << " s\n";
+  err << "dropfit render: wrote " << truth.clips.size() << " clips (" << total_frames << " frames) to " << out.string()
+      << " in " << std::fixed << std::setprecision(1) << seconds << " s\n";
   return kExitDone;
 }
+
+int RunRender(const RenderCommandOptions& options) { return RunRender(options, std::cout, std::cerr); }
 
 }  // namespace dropfit::cli

@@ -18,6 +18,8 @@
 
 #include "synth/render_plan.h"
 
+#include <iosfwd>
+
 namespace dropfit::cli {
 
 // Every setting of a render run: default, meaning, unit, valid range (synth/render_plan.h).
@@ -27,6 +29,9 @@ using synth::RenderOptionsFromRecord;
 using synth::ValidateRenderOptions;
 
 // Runs the render. Returns the contract's exit status: 0 done, 2 bad options (nothing written).
+// Progress and messages go to `err`.
+int RunRender(const RenderCommandOptions& options, std::ostream& out, std::ostream& err);
+// Same, on std::cout and std::cerr.
 int RunRender(const RenderCommandOptions& options);
 
 }  // namespace dropfit::cli
