@@ -130,11 +130,12 @@ TEST(SegmentationSteps, LowestPointOfAnUpwardParabolaIsItsVertex) {
     ts.valid[i] = true;
     if (ts.y_m[i] < ts.y_m[static_cast<size_t>(lowest)]) lowest = static_cast<int>(i);
   }
-  const LowestPoint p = FitLowestPoint(ts, lowest, kVertexM + 0.01, 1e-6);
+  constexpr double kNoiseM = 1e-6;  // the stated noise: only scales the sd
+  const LowestPoint p = FitLowestPoint(ts, lowest, kVertexM + 0.01, kNoiseM);
   EXPECT_NEAR(p.t_s, kVertexS, kTimeToleranceS);
   EXPECT_NEAR(p.y_m, kVertexM, kHeightToleranceM);
   EXPECT_GT(p.sd_m, 0.0);
-  EXPECT_LT(p.sd_m, 1e-6);  // better than one sample's noise: several samples fitted
+  EXPECT_LT(p.sd_m, kNoiseM);  // better than one sample's noise: several samples fitted
 }
 
 // Steps 4 and 5 on exact data: d = A (t - t0)^3 after t0 (onset) and its mirror image
@@ -153,11 +154,12 @@ TEST(SegmentationSteps, DepartureFitFindsTheStartOfACubicDepartureBothWays) {
     d_onset.push_back(x > 0.0 ? kAmplitude * x * x * x : 0.0);
     d_separation.push_back(x < 0.0 ? -kAmplitude * x * x * x : 0.0);
   }
-  const DepartureFit onset = FitDeparture(t, d_onset, true, t.front(), t.back(), kStepS, 1e-7);
+  constexpr double kNoiseM = 1e-7;  // only sets the sd's profile threshold
+  const DepartureFit onset = FitDeparture(t, d_onset, true, t.front(), t.back(), kStepS, kNoiseM);
   EXPECT_NEAR(onset.t0_s, kOnsetS, kT0ToleranceS);
   EXPECT_EQ(onset.power, 3.0);
   EXPECT_GT(onset.sd_s, 0.0);
-  const DepartureFit separation = FitDeparture(t, d_separation, false, t.front(), t.back(), kStepS, 1e-7);
+  const DepartureFit separation = FitDeparture(t, d_separation, false, t.front(), t.back(), kStepS, kNoiseM);
   EXPECT_NEAR(separation.t0_s, kOnsetS, kT0ToleranceS);
   EXPECT_EQ(separation.power, 3.0);
   EXPECT_TRUE(std::isnan(FitDeparture({0.0, 1.0}, {0.0, 1.0}, true, 0.0, 1.0, 0.1, 1e-3).t0_s));  // < 3 samples
