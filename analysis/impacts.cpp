@@ -8,6 +8,7 @@
 #include <stdexcept>
 
 #include "analysis/savgol.h"
+#include "analysis/segmentation_steps.h"
 
 namespace dropfit::analysis {
 namespace {
@@ -30,23 +31,6 @@ double Median(std::vector<double> v) {
   if (v.size() % 2 == 0) m = 0.5 * (m + *std::max_element(v.begin(), v.begin() + static_cast<long>(mid)));
   return m;
 }
-
-// Step 1: noise sd from the third differences (zero on a parabola; var = 20 s^2).
-double NoiseFromThirdDifferences(const TimeSeries& s) {
-  std::vector<double> d3;
-  for (int i = 0; i + 3 < s.size(); ++i) {
-    if (!(s.valid[U(i)] && s.valid[U(i + 1)] && s.valid[U(i + 2)] && s.valid[U(i + 3)])) continue;
-    d3.push_back(std::abs(s.y_m[U(i + 3)] - 3.0 * s.y_m[U(i + 2)] + 3.0 * s.y_m[U(i + 1)] - s.y_m[U(i)]));
-  }
-  if (d3.size() < 10) return kNaN;
-  return std::max(kNoiseFloorM, kMadToSd * Median(d3) / std::sqrt(20.0));
-}
-
-struct ContactRun {
-  int first = 0;  // coarse contact samples (inclusive)
-  int last = -1;
-  int lowest = 0;  // lowest valid raw sample in the run
-};
 
 // A flight fit over `use` (a mask of samples accepted into the flight).
 std::optional<PolynomialFit> FitMasked(const TimeSeries& s, const std::vector<bool>& use, int first, int last,
@@ -86,13 +70,57 @@ int GrowFlight(const TimeSeries& s, std::vector<bool>& use, int first, int last,
   return end;
 }
 
-// Step 4/5: the departure model d(t) = A (sign (t - t0))^p_+ fitted to (t_i, d_i);
-// `forward` = true for onset (d = 0 before t0), false for separation (d = 0 after t0).
-struct DepartureFit {
-  double t0_s = kNaN;
-  double sd_s = kNaN;
-  double power = kNaN;
-};
+std::optional<double> ClipOnsetFromBounces(const std::vector<Bounce>& bounces, double* sd_out) {
+  std::vector<double> values, sds;
+  for (bool complete_only : {true, false}) {
+    for (const Bounce& b : bounces) {
+      if (complete_only && !b.complete) continue;
+      if (std::isfinite(b.onset_height_track_m)) {
+        values.push_back(b.onset_height_track_m);
+        sds.push_back(b.onset_height_track_sd_m);
+      }
+    }
+    if (!values.empty()) break;
+  }
+  if (values.empty()) return std::nullopt;
+  const double median = Median(values);
+  double mean_var = 0.0, spread = 0.0;
+  for (size_t i = 0; i < values.size(); ++i) {
+    mean_var += sds[i] * sds[i];
+    spread += (values[i] - median) * (values[i] - median);
+  }
+  const double n = static_cast<double>(values.size());
+  mean_var /= n;
+  const double spread_sd = values.size() > 1 ? std::sqrt(spread / (n - 1.0)) : 0.0;
+  *sd_out = std::max(std::sqrt(mean_var / n), spread_sd / std::sqrt(n));
+  return median;
+}
+
+std::string FormatTime(double t_s) {
+  std::ostringstream out;
+  out << std::fixed << std::setprecision(4) << t_s;
+  return out.str();
+}
+
+}  // namespace
+
+// ---------------------------------------------------------------------------------------
+// The steps of SegmentBounces (analysis/segmentation_steps.h for the exported ones).
+
+namespace detail {
+
+// Step 1: noise sd from the third differences (zero on a parabola; var = 20 s^2).
+double NoiseFromThirdDifferences(const TimeSeries& s) {
+  std::vector<double> d3;
+  for (int i = 0; i + 3 < s.size(); ++i) {
+    if (!(s.valid[U(i)] && s.valid[U(i + 1)] && s.valid[U(i + 2)] && s.valid[U(i + 3)])) continue;
+    d3.push_back(std::abs(s.y_m[U(i + 3)] - 3.0 * s.y_m[U(i + 2)] + 3.0 * s.y_m[U(i + 1)] - s.y_m[U(i)]));
+  }
+  if (d3.size() < 10) return kNaN;
+  return std::max(kNoiseFloorM, kMadToSd * Median(d3) / std::sqrt(20.0));
+}
+
+// Steps 4 and 5: the departure model d(t) = A x^p_+ (analysis/segmentation_steps.h).
 DepartureFit FitDeparture(const std::vector<double>& t, const std::vector<double>& d, bool forward, double t_lo,
                           double t_hi, double step_s, double noise) {
   DepartureFit best;
@@ -141,39 +169,437 @@ DepartureFit FitDeparture(const std::vector<double>& t, const std::vector<double
   return best;
 }
 
-std::optional<double> ClipOnsetFromBounces(const std::vector<Bounce>& bounces, double* sd_out) {
-  std::vector<double> values, sds;
-  for (bool complete_only : {true, false}) {
-    for (const Bounce& b : bounces) {
-      if (complete_only && !b.complete) continue;
-      if (std::isfinite(b.onset_height_track_m)) {
-        values.push_back(b.onset_height_track_m);
-        sds.push_back(b.onset_height_track_sd_m);
-      }
-    }
-    if (!values.empty()) break;
-  }
-  if (values.empty()) return std::nullopt;
-  const double median = Median(values);
-  double mean_var = 0.0, spread = 0.0;
-  for (size_t i = 0; i < values.size(); ++i) {
-    mean_var += sds[i] * sds[i];
-    spread += (values[i] - median) * (values[i] - median);
-  }
-  const double n = static_cast<double>(values.size());
-  mean_var /= n;
-  const double spread_sd = values.size() > 1 ? std::sqrt(spread / (n - 1.0)) : 0.0;
-  *sd_out = std::max(std::sqrt(mean_var / n), spread_sd / std::sqrt(n));
-  return median;
+}  // namespace detail
+
+namespace {
+
+// Step 2's filtered track: the Savitzky-Golay acceleration, its noise and the flight's.
+struct FilteredAcceleration {
+  SavgolOptions sg{5, 2};
+  double sd_accel = 0.0;  // acceleration noise on a full window [m/s^2]
+  SmoothedSeries smooth;
+  double a_flight = 0.0;  // median acceleration [m/s^2]: the flight's
+};
+
+FilteredAcceleration FilterAcceleration(const TimeSeries& s, double noise, double g) {
+  const int n = s.size();
+  const double dt = s.frame_interval_s;
+  FilteredAcceleration f;
+  SavgolOptions& sg = f.sg;
+  while (sg.window < 41 && noise * SavgolNoiseGain(sg, 2) / (dt * dt) > g / 3.0) sg.window += 2;
+  f.sd_accel = noise * SavgolNoiseGain(sg, 2) / (dt * dt);
+  f.smooth = SavgolFilter(s.y_m, s.valid, dt, sg);
+  std::vector<double> accels;
+  for (int i = 0; i < n; ++i)
+    if (f.smooth.valid[U(i)]) accels.push_back(f.smooth.accel[U(i)]);
+  // Flight dominates a drop clip: the median acceleration is the flight's (about -g, or what
+  // a wrong rate or scale makes of it, so that the segmentation survives those).
+  f.a_flight = Median(accels);
+  return f;
 }
 
-std::string FormatTime(double t_s) {
-  std::ostringstream out;
-  out << std::fixed << std::setprecision(4) << t_s;
-  return out.str();
+// Per sample: the noise of the acceleration grows near the clip's ends and gaps.
+bool InContact(const FilteredAcceleration& f, double noise, int i) {
+  if (!f.smooth.valid[U(i)]) return false;
+  const double sd_i = std::max(f.sd_accel, noise * f.smooth.accel_noise_gain[U(i)]);
+  return f.smooth.accel[U(i)] > f.a_flight + std::max(5.0 * sd_i, 0.5 * std::abs(f.a_flight));
+}
+
+// Runs of in-contact samples, short interruptions bridged.
+std::vector<detail::ContactRun> ContactRuns(const FilteredAcceleration& f, double noise, int n) {
+  const int window = f.sg.window;
+  auto in_contact = [&](int i) { return InContact(f, noise, i); };
+  std::vector<detail::ContactRun> runs;
+  for (int i = 0; i < n;) {
+    if (!in_contact(i)) {
+      ++i;
+      continue;
+    }
+    detail::ContactRun run{i, i, i};
+    while (i < n) {
+      if (in_contact(i)) {
+        run.last = i;
+        ++i;
+        continue;
+      }
+      // Bridge a short interruption (noise, or a gap in the track) inside one contact.
+      int j = i;
+      while (j < n && j - run.last <= window && !in_contact(j)) ++j;
+      if (j < n && j - run.last <= window) {
+        i = j;
+        continue;
+      }
+      break;
+    }
+    runs.push_back(run);
+  }
+  return runs;
+}
+
+// Margin kept between a coarse contact and the core of its neighbouring flights.
+int ContactMargin(const detail::ContactRun& r, int half) { return std::max(half, (r.last - r.first + 1) / 2); }
+
+// Keeps the runs where the motion reverses (a bounce), with their lowest sample; sets
+// *release_end as CoarseContacts::release_end.
+std::vector<detail::ContactRun> BouncesAmongRuns(const TimeSeries& s, const FilteredAcceleration& f,
+                                                 const std::vector<detail::ContactRun>& runs, double noise,
+                                                 int* release_end) {
+  const int n = s.size();
+  const int window = f.sg.window;
+  const int half = window / 2;
+  std::vector<detail::ContactRun> contacts;
+  auto rate_near = [&](int i, int step) {
+    for (int j = i; j >= 0 && j < n && std::abs(j - i) <= 3 * window; j += step)
+      if (f.smooth.valid[U(j)]) return f.smooth.rate[U(j)];
+    return kNaN;
+  };
+  for (detail::ContactRun run : runs) {
+    int lowest = -1;
+    for (int i = std::max(0, run.first - half); i <= std::min(n - 1, run.last + half); ++i)
+      if (s.valid[U(i)] && (lowest < 0 || s.y_m[U(i)] < s.y_m[U(lowest)])) lowest = i;
+    if (lowest < 0) continue;
+    run.lowest = lowest;
+    const double before = rate_near(run.first - half - 1, -1);
+    const double after = rate_near(run.last + half + 1, +1);
+    const bool at_start = run.first - half <= 0 || !std::isfinite(before);
+    const bool at_end = run.last + half >= n - 1 || !std::isfinite(after);
+    const bool falls_in = at_start || before < 0.0;
+    const bool rises_out = at_end || after > 0.0;
+    if (at_start && at_end) continue;  // no flight at all around it
+    auto reject = [&] {
+      if (contacts.empty()) *release_end = std::min(n - 1, run.last + ContactMargin(run, half));
+    };
+    // A bounce has the hub clearly higher before (a fall) and after (a rise) its lowest point.
+    // A hub held and released at the clip's start, or still, has neither: after a release the
+    // hub never comes back up to its release height (COR < 1).
+    double highest_before = -std::numeric_limits<double>::infinity(), highest_after = highest_before;
+    for (int i = 0; i < run.first; ++i)
+      if (s.valid[U(i)]) highest_before = std::max(highest_before, s.y_m[U(i)]);
+    for (int i = run.last + 1; i < n; ++i)
+      if (s.valid[U(i)]) highest_after = std::max(highest_after, s.y_m[U(i)]);
+    const double clear_m = s.y_m[U(lowest)] + 10.0 * noise;
+    if ((!at_start && !(highest_before > clear_m)) || (!at_end && !(highest_after > clear_m)) ||
+        (at_start && !(after > 0.0 && highest_after > clear_m)) || !(falls_in && rises_out)) {
+      reject();
+      continue;
+    }
+    contacts.push_back(run);
+  }
+  return contacts;
 }
 
 }  // namespace
+
+namespace detail {
+
+CoarseContacts FindCoarseContacts(const TimeSeries& s, double noise, double g) {
+  CoarseContacts out;
+  const FilteredAcceleration f = FilterAcceleration(s, noise, g);
+  out.filter_window = f.sg.window;
+  if (!(f.a_flight < 0.0)) {
+    out.failure = "no free flight found: the median acceleration of the track is " + std::to_string(f.a_flight) +
+                  " m/s^2, not downward; check the rig's \"up\" direction and that the clip shows a drop";
+    return out;
+  }
+  const std::vector<ContactRun> runs = ContactRuns(f, noise, s.size());
+  out.contacts = BouncesAmongRuns(s, f, runs, noise, &out.release_end);
+  if (out.contacts.empty()) {
+    out.failure =
+        "no impact found: the track shows no contact (upward acceleration beyond the noise) with a fall before "
+        "and a rise after it; check that the clip covers an impact, that the capture rate is right, and the "
+        "rig's \"up\" direction";
+  }
+  return out;
+}
+
+std::vector<FlightWindow> FlightWindows(const CoarseContacts& coarse, int n) {
+  const std::vector<ContactRun>& contacts = coarse.contacts;
+  const int half = coarse.filter_window / 2;
+  const int k_contacts = static_cast<int>(contacts.size());
+  std::vector<FlightWindow> windows;
+  for (int k = 0; k <= k_contacts; ++k) {
+    FlightWindow w{};
+    w.cut_start = k == 0;
+    w.cut_end = k == k_contacts;
+    w.lo = w.cut_start ? 0 : contacts[U(k - 1)].lowest + 1;
+    w.hi = w.cut_end ? n - 1 : contacts[U(k)].lowest - 1;
+    w.core_lo =
+        w.cut_start ? coarse.release_end + 1 : contacts[U(k - 1)].last + ContactMargin(contacts[U(k - 1)], half) + 1;
+    w.core_hi = w.cut_end ? n - 1 : contacts[U(k)].first - ContactMargin(contacts[U(k)], half) - 1;
+    windows.push_back(w);
+  }
+  return windows;
+}
+
+}  // namespace detail
+
+namespace {
+
+// Step 3: the samples of one flight window accepted into its parabola.
+struct FlightSamples {
+  std::vector<bool> use;
+  int first = -1, last = -1;
+};
+
+// Onset height known: every valid sample above it; from the release on when the clip starts
+// with the hub held (grown back below).
+FlightSamples SamplesAboveOnset(const TimeSeries& s, const detail::FlightWindow& w, double onset_m, double noise,
+                                double sigmas) {
+  FlightSamples f{std::vector<bool>(U(s.size()), false)};
+  const int lo = w.cut_start ? std::max(w.lo, w.core_lo) : w.lo;
+  for (int i = lo; i <= w.hi; ++i) {
+    if (s.valid[U(i)] && s.y_m[U(i)] > onset_m) {
+      f.use[U(i)] = true;
+      if (f.first < 0) f.first = i;
+      f.last = i;
+    }
+  }
+  if (f.first >= 0 && lo > w.lo) f.first = GrowFlight(s, f.use, f.first, f.last, -1, w.lo - 1, noise, sigmas);
+  return f;
+}
+
+// Onset height unknown: the core, without its outliers, grown towards each contact while
+// the samples agree with the parabola. Nothing when the core is too short.
+std::optional<FlightSamples> SamplesGrownFromCore(const TimeSeries& s, const detail::FlightWindow& w,
+                                                  int min_flight_samples, double noise, double sigmas) {
+  if (w.core_hi - w.core_lo + 1 < min_flight_samples) return std::nullopt;
+  FlightSamples f{std::vector<bool>(U(s.size()), false)};
+  for (int i = w.core_lo; i <= w.core_hi; ++i) f.use[U(i)] = s.valid[U(i)];
+  f.first = w.core_lo;
+  f.last = w.core_hi;
+  // Outliers in the core (a mis-tracked frame) are left out before growing.
+  if (auto fit = FitMasked(s, f.use, f.first, f.last, s.y_m, noise)) {
+    for (int i = f.first; i <= f.last; ++i)
+      if (f.use[U(i)] && std::abs(s.y_m[U(i)] - fit->Value(s.t_s[U(i)])) > sigmas * noise * 1.5) f.use[U(i)] = false;
+  }
+  if (!w.cut_end) f.last = GrowFlight(s, f.use, f.first, f.last, +1, w.hi + 1, noise, sigmas);
+  if (!w.cut_start) f.first = GrowFlight(s, f.use, f.first, f.last, -1, w.lo - 1, noise, sigmas);
+  return f;
+}
+
+// The flight's parabolas in y and x; nothing when too few samples are used or the y
+// parabola does not open downward.
+std::optional<FlightPhase> FitFlightPhase(const TimeSeries& s, const detail::FlightWindow& w, const FlightSamples& f,
+                                          int min_flight_samples, std::optional<double> known_noise) {
+  if (f.first < 0) return std::nullopt;
+  int used = 0, missing = 0;
+  for (int i = f.first; i <= f.last; ++i) {
+    used += f.use[U(i)] ? 1 : 0;
+    missing += s.valid[U(i)] ? 0 : 1;
+  }
+  if (used < min_flight_samples) return std::nullopt;
+  auto y_fit = FitMasked(s, f.use, f.first, f.last, s.y_m, known_noise);
+  auto x_fit = FitMasked(s, f.use, f.first, f.last, s.x_m, std::nullopt);
+  if (!y_fit || !x_fit || !(y_fit->coef(2) < 0.0)) return std::nullopt;
+  FlightPhase phase;
+  phase.first_index = f.first;
+  phase.last_index = f.last;
+  phase.y_fit = *y_fit;
+  phase.x_fit = *x_fit;
+  phase.missing_samples = missing;
+  phase.cut_by_clip_start = w.cut_start;
+  phase.cut_by_clip_end = w.cut_end;
+  return phase;
+}
+
+// Step 3: one flight phase per window (nothing where none fits), in two passes: the second
+// with the noise measured from the first pass's flight residuals, which are measured again.
+struct FittedFlights {
+  std::vector<std::optional<FlightPhase>> phases;
+  double noise_sd_m = 0.0;
+};
+
+FittedFlights FitFlights(const TimeSeries& s, const std::vector<detail::FlightWindow>& windows,
+                         const SegmentationOptions& options, double noise) {
+  const double sigmas = options.departure_sigmas;
+  FittedFlights out{std::vector<std::optional<FlightPhase>>(windows.size()), noise};
+  for (int pass = 0; pass < 2; ++pass) {
+    double sum_sq = 0.0;
+    int dof = 0;
+    for (size_t k = 0; k < windows.size(); ++k) {
+      const detail::FlightWindow& w = windows[k];
+      out.phases[k].reset();
+      std::optional<FlightSamples> samples;
+      if (options.onset_height_m)
+        samples = SamplesAboveOnset(s, w, *options.onset_height_m, out.noise_sd_m, sigmas);
+      else
+        samples = SamplesGrownFromCore(s, w, options.min_flight_samples, out.noise_sd_m, sigmas);
+      if (!samples) continue;
+      out.phases[k] = FitFlightPhase(s, w, *samples, options.min_flight_samples,
+                                     pass == 0 ? std::optional<double>() : out.noise_sd_m);
+      if (!out.phases[k]) continue;
+      const double r = out.phases[k]->y_fit.rms_residual_m;
+      sum_sq += r * r * out.phases[k]->y_fit.samples;
+      dof += out.phases[k]->y_fit.samples - 3;
+    }
+    if (dof > 0) out.noise_sd_m = std::max(kNoiseFloorM, std::sqrt(sum_sq / dof));
+  }
+  return out;
+}
+
+// Bounce k (coarse contact `run`) with its flights (flight_of_window: window -> index into
+// seg.flights or -1), its contact samples and completeness.
+Bounce BounceBetweenFlights(int k, const detail::ContactRun& run, const std::vector<int>& flight_of_window,
+                            const Segmentation& seg, int n, int half) {
+  Bounce b;
+  b.index = k;
+  if (flight_of_window[U(k)] >= 0) b.flight_before = flight_of_window[U(k)];
+  if (flight_of_window[U(k + 1)] >= 0) b.flight_after = flight_of_window[U(k + 1)];
+  const FlightPhase* before = b.flight_before ? &seg.flights[U(*b.flight_before)] : nullptr;
+  const FlightPhase* after = b.flight_after ? &seg.flights[U(*b.flight_after)] : nullptr;
+  b.contact_first_index = before ? before->last_index + 1 : std::max(0, run.first - half);
+  b.contact_last_index = after ? after->first_index - 1 : std::min(n - 1, run.last + half);
+  if (!before)
+    b.incomplete_reason = "no falling flight to fit before the contact (cut by the clip's start or too short)";
+  else if (!after)
+    b.incomplete_reason =
+        "no rising flight to fit after the contact (cut by the clip's end, too short, or the specimen came to rest)";
+  else if (b.contact_first_index <= 0 || b.contact_last_index >= n - 1)
+    b.incomplete_reason = "the contact touches the clip's first or last frame";
+  b.complete = b.incomplete_reason.empty();
+  return b;
+}
+
+// Step 6: the height from which the contact's deflection is measured for the lowest tenth:
+// the known onset height, else a flight parabola at the contact's edge; NaN without either.
+double LowestPointReference(const TimeSeries& s, const Bounce& b, const FlightPhase* before, const FlightPhase* after,
+                            const std::optional<double>& known_onset_m) {
+  const int n = s.size();
+  double y_ref = kNaN;
+  if (known_onset_m)
+    y_ref = *known_onset_m;
+  else if (before)
+    y_ref = before->y_fit.Value(s.t_s[U(std::min(n - 1, b.contact_first_index))]);
+  else if (after)
+    y_ref = after->y_fit.Value(s.t_s[U(std::max(0, b.contact_last_index))]);
+  return y_ref;
+}
+
+// Step 4: this bounce's own onset estimate (falling side); NaN without a falling flight.
+void EstimateOnsetFromTrack(const TimeSeries& s, const detail::ContactRun& run, const FlightPhase* before, double noise,
+                            Bounce* b) {
+  const double dt = s.frame_interval_s;
+  b->onset_height_track_m = kNaN;
+  b->onset_height_track_sd_m = kNaN;
+  if (!before) return;
+  const double d_lowest_ref = before->y_fit.Value(b->t_lowest_s);
+  const double d_stop = std::max(30.0 * noise, 0.15 * std::max(0.0, b->y_lowest_m - d_lowest_ref));
+  std::vector<double> t, d;
+  for (int i = std::max(before->first_index, before->last_index - 4); i <= run.lowest; ++i) {
+    if (!s.valid[U(i)]) continue;
+    const double di = s.y_m[U(i)] - before->y_fit.Value(s.t_s[U(i)]);
+    t.push_back(s.t_s[U(i)]);
+    d.push_back(di);
+    if (di > d_stop && i > before->last_index) break;
+  }
+  if (t.size() >= 4) {
+    const detail::DepartureFit fit = detail::FitDeparture(t, d, true, t.front(), t.back(), dt / 20.0, noise);
+    if (std::isfinite(fit.t0_s)) {
+      const double rate = std::abs(before->y_fit.Derivative(fit.t0_s));
+      b->onset_height_track_m = before->y_fit.Value(fit.t0_s);
+      b->onset_height_track_sd_m = std::hypot(before->y_fit.ValueSd(fit.t0_s), rate * fit.sd_s);
+    }
+  }
+}
+
+// Step 5: track-only separation (rising side, backwards in time); NaN without a rising flight.
+void EstimateTrackSeparation(const TimeSeries& s, const detail::ContactRun& run, const FlightPhase* after, double noise,
+                             Bounce* b) {
+  const double dt = s.frame_interval_s;
+  b->t_separation_track_s = kNaN;
+  b->t_separation_track_sd_s = kNaN;
+  if (!after) return;
+  const double d_low = b->y_lowest_m - after->y_fit.Value(b->t_lowest_s);
+  const double d_stop = std::max(30.0 * noise, 0.15 * std::max(0.0, d_low));
+  std::vector<double> t, d;
+  for (int i = std::min(after->last_index, after->first_index + 4); i >= run.lowest; --i) {
+    if (!s.valid[U(i)]) continue;
+    const double di = s.y_m[U(i)] - after->y_fit.Value(s.t_s[U(i)]);
+    t.push_back(s.t_s[U(i)]);
+    d.push_back(di);
+    if (di > d_stop && i < after->first_index) break;
+  }
+  if (t.size() >= 4) {
+    const detail::DepartureFit fit = detail::FitDeparture(t, d, false, t.back(), t.front(), dt / 20.0, noise);
+    b->t_separation_track_s = fit.t0_s;
+    b->t_separation_track_sd_s = fit.sd_s;
+  }
+}
+
+// Contact instants: the falling parabola's crossing of the clip's onset height, with the sd
+// of the crossing time from the parabola's and the onset height's sds.
+void SetContactInstants(Segmentation* seg) {
+  for (Bounce& b : seg->bounces) {
+    b.t_contact_s = kNaN;
+    b.t_contact_sd_s = kNaN;
+    if (!b.flight_before || !std::isfinite(seg->onset_height_m)) continue;
+    const PolynomialFit& f = seg->flights[U(*b.flight_before)].y_fit;
+    if (auto t = CrossingTime(f, seg->onset_height_m, Branch::kFalling)) {
+      b.t_contact_s = *t;
+      const double rate = std::abs(f.Derivative(*t));
+      b.t_contact_sd_s = std::hypot(f.ValueSd(*t), seg->onset_height_sd_m) / rate;
+    }
+  }
+}
+
+// A note per gap of the track: where it is and what it means for the figures.
+void AddGapNotes(const TimeSeries& s, Segmentation* seg) {
+  const int n = s.size();
+  for (const Gap& gap : seg->gaps) {
+    std::ostringstream note;
+    note << "gap of " << gap.count << " frame" << (gap.count == 1 ? "" : "s")
+         << " at t = " << FormatTime(s.t_s[U(gap.first_index)]) << " s";
+    bool in_flight = false;
+    for (const FlightPhase& f : seg->flights)
+      in_flight |= gap.first_index > f.first_index && gap.first_index + gap.count - 1 < f.last_index;
+    bool at_end = gap.first_index == 0 || gap.first_index + gap.count == n;
+    note << (in_flight ? ": bridged by the flight fit"
+             : at_end  ? ": at the clip's edge"
+                       : ": in or near a contact (figures there are less certain)");
+    seg->notes.push_back(note.str());
+  }
+}
+
+}  // namespace
+
+namespace detail {
+
+LowestPoint FitLowestPoint(const TimeSeries& s, int lowest_index, double y_ref, double noise) {
+  const int n = s.size();
+  const int lowest = lowest_index;
+  LowestPoint out{s.t_s[U(lowest)], s.y_m[U(lowest)], noise};
+  const double y_min = s.y_m[U(lowest)];
+  const double band = std::isfinite(y_ref) ? 0.1 * std::max(0.0, y_ref - y_min) : 0.0;
+  int lo = lowest, hi = lowest;
+  auto below = [&](int i) { return !s.valid[U(i)] || s.y_m[U(i)] <= y_min + band; };
+  while (lo - 1 >= 0 && below(lo - 1) && lowest - lo < 200) --lo;
+  while (hi + 1 < n && below(hi + 1) && hi - lowest < 200) ++hi;
+  auto count_valid = [&]() {
+    int c = 0;
+    for (int i = lo; i <= hi; ++i) c += s.valid[U(i)] ? 1 : 0;
+    return c;
+  };
+  while (count_valid() < 5 && (lo > 0 || hi < n - 1)) {
+    if (lo > 0) --lo;
+    if (hi < n - 1) ++hi;
+  }
+  if (auto fit = FitPolynomial(s.t_s, s.y_m, s.valid, lo, hi, 2, noise)) {
+    if (fit->coef(2) > 0.0) {
+      const double tau = -fit->coef(1) / (2.0 * fit->coef(2));
+      const double t_v = fit->t_ref_s + tau;
+      if (t_v >= s.t_s[U(lo)] && t_v <= s.t_s[U(hi)]) {
+        out.t_s = t_v;
+        Eigen::VectorXd x = fit->coef;
+        out.y_m = fit->coef(0) - fit->coef(1) * fit->coef(1) / (4.0 * fit->coef(2));
+        out.sd_m = PropagatedSd([](const Eigen::VectorXd& c) { return c(0) - c(1) * c(1) / (4.0 * c(2)); }, x,
+                                fit->covariance);
+      }
+    }
+  }
+  return out;
+}
+
+}  // namespace detail
 
 std::string ToString(OnsetHeightSource source) {
   switch (source) {
@@ -224,24 +650,6 @@ std::optional<std::string> ValidateImpactOptions(const ImpactOptions& o) {
   return msg.str();
 }
 
-namespace {
-
-// Contact instants at the clip's onset height: where each falling flight's parabola reaches it.
-void SetContactInstants(Segmentation& seg) {
-  for (Bounce& b : seg.bounces) {
-    b.t_contact_s = kNaN;
-    b.t_contact_sd_s = kNaN;
-    if (!b.flight_before || !std::isfinite(seg.onset_height_m)) continue;
-    const PolynomialFit& f = seg.flights[U(*b.flight_before)].y_fit;
-    if (auto t = CrossingTime(f, seg.onset_height_m, Branch::kFalling)) {
-      b.t_contact_s = *t;
-      const double rate = std::abs(f.Derivative(*t));
-      b.t_contact_sd_s = std::hypot(f.ValueSd(*t), seg.onset_height_sd_m) / rate;
-    }
-  }
-}
-
-}  // namespace
 
 void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeightSource source,
                     Segmentation& segmentation) {
@@ -253,7 +661,7 @@ void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeight
   segmentation.onset_height_m = onset_height_m;
   segmentation.onset_height_sd_m = onset_height_sd_m;
   segmentation.onset_height_source = source;
-  SetContactInstants(segmentation);
+  SetContactInstants(&segmentation);
 }
 
 Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& options) {
@@ -262,8 +670,6 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
   Segmentation seg;
   seg.gaps = FindGaps(s);
   const int n = s.size();
-  const double dt = s.frame_interval_s;
-  const double sigmas = options.departure_sigmas;
   const bool onset_known = options.onset_height_m.has_value();
   if (onset_known) {
     seg.onset_height_m = *options.onset_height_m;
@@ -275,305 +681,47 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
     seg.onset_height_source = OnsetHeightSource::kTrack;
   }
 
-  double noise = NoiseFromThirdDifferences(s);
+  // Step 1: position noise from the third differences.
+  double noise = detail::NoiseFromThirdDifferences(s);
   if (!std::isfinite(noise)) {
     seg.failure = "too few tracked frames to analyse (" + std::to_string(s.CountValid()) + " of " + std::to_string(n) +
                   "): check that the marker is visible and tracked";
     return seg;
   }
-
-  // Step 2: coarse contact from the Savitzky-Golay acceleration.
-  const double g = options.gravity_mps2;
-  SavgolOptions sg{5, 2};
-  while (sg.window < 41 && noise * SavgolNoiseGain(sg, 2) / (dt * dt) > g / 3.0) sg.window += 2;
-  const double sd_accel = noise * SavgolNoiseGain(sg, 2) / (dt * dt);
-  const SmoothedSeries smooth = SavgolFilter(s.y_m, s.valid, dt, sg);
-  std::vector<double> accels;
-  for (int i = 0; i < n; ++i)
-    if (smooth.valid[U(i)]) accels.push_back(smooth.accel[U(i)]);
-  // Flight dominates a drop clip: the median acceleration is the flight's (about -g, or what
-  // a wrong rate or scale makes of it, so that the segmentation survives those).
-  const double a_flight = Median(accels);
-  if (!(a_flight < 0.0)) {
-    seg.failure = "no free flight found: the median acceleration of the track is " + std::to_string(a_flight) +
-                  " m/s^2, not downward; check the rig's \"up\" direction and that the clip shows a drop";
+  // Step 2: coarse contacts from the Savitzky-Golay acceleration.
+  const detail::CoarseContacts coarse = detail::FindCoarseContacts(s, noise, options.gravity_mps2);
+  if (coarse.failure) {
+    seg.failure = coarse.failure;
     return seg;
   }
-  // Per sample: the noise of the acceleration grows near the clip's ends and gaps.
-  auto in_contact = [&](int i) {
-    if (!smooth.valid[U(i)]) return false;
-    const double sd_i = std::max(sd_accel, noise * smooth.accel_noise_gain[U(i)]);
-    return smooth.accel[U(i)] > a_flight + std::max(5.0 * sd_i, 0.5 * std::abs(a_flight));
-  };
-  std::vector<ContactRun> runs;
-  const int half = sg.window / 2;
-  for (int i = 0; i < n;) {
-    if (!in_contact(i)) {
-      ++i;
-      continue;
-    }
-    ContactRun run{i, i, i};
-    while (i < n) {
-      if (in_contact(i)) {
-        run.last = i;
-        ++i;
-        continue;
-      }
-      // Bridge a short interruption (noise, or a gap in the track) inside one contact.
-      int j = i;
-      while (j < n && j - run.last <= sg.window && !in_contact(j)) ++j;
-      if (j < n && j - run.last <= sg.window) {
-        i = j;
-        continue;
-      }
-      break;
-    }
-    runs.push_back(run);
-  }
-  // Keep runs where the motion reverses (a bounce), find their lowest sample.
-  std::vector<ContactRun> contacts;
-  int release_end = -1;  // last sample of non-flight motion (held, pushed) before the first contact
-  auto rate_near = [&](int i, int step) {
-    for (int j = i; j >= 0 && j < n && std::abs(j - i) <= 3 * sg.window; j += step)
-      if (smooth.valid[U(j)]) return smooth.rate[U(j)];
-    return kNaN;
-  };
-  auto margin_of = [&](const ContactRun& r) { return std::max(half, (r.last - r.first + 1) / 2); };
-  for (ContactRun run : runs) {
-    int lowest = -1;
-    for (int i = std::max(0, run.first - half); i <= std::min(n - 1, run.last + half); ++i)
-      if (s.valid[U(i)] && (lowest < 0 || s.y_m[U(i)] < s.y_m[U(lowest)])) lowest = i;
-    if (lowest < 0) continue;
-    run.lowest = lowest;
-    const double before = rate_near(run.first - half - 1, -1);
-    const double after = rate_near(run.last + half + 1, +1);
-    const bool at_start = run.first - half <= 0 || !std::isfinite(before);
-    const bool at_end = run.last + half >= n - 1 || !std::isfinite(after);
-    const bool falls_in = at_start || before < 0.0;
-    const bool rises_out = at_end || after > 0.0;
-    if (at_start && at_end) continue;  // no flight at all around it
-    auto reject = [&] {
-      if (contacts.empty()) release_end = std::min(n - 1, run.last + margin_of(run));
-    };
-    // A bounce has the hub clearly higher before (a fall) and after (a rise) its lowest point.
-    // A hub held and released at the clip's start, or still, has neither: after a release the
-    // hub never comes back up to its release height (COR < 1).
-    double highest_before = -std::numeric_limits<double>::infinity(), highest_after = highest_before;
-    for (int i = 0; i < run.first; ++i)
-      if (s.valid[U(i)]) highest_before = std::max(highest_before, s.y_m[U(i)]);
-    for (int i = run.last + 1; i < n; ++i)
-      if (s.valid[U(i)]) highest_after = std::max(highest_after, s.y_m[U(i)]);
-    const double clear_m = s.y_m[U(lowest)] + 10.0 * noise;
-    if ((!at_start && !(highest_before > clear_m)) || (!at_end && !(highest_after > clear_m)) ||
-        (at_start && !(after > 0.0 && highest_after > clear_m)) || !(falls_in && rises_out)) {
-      reject();
-      continue;
-    }
-    contacts.push_back(run);
-  }
-  if (contacts.empty()) {
-    seg.failure =
-        "no impact found: the track shows no contact (upward acceleration beyond the noise) with a fall before "
-        "and a rise after it; check that the clip covers an impact, that the capture rate is right, and the "
-        "rig's \"up\" direction";
-    return seg;
-  }
-
-  // Step 3: flights between contacts (with a margin around the coarse contacts).
-  const int k_contacts = static_cast<int>(contacts.size());
-  auto margin = margin_of;
-  struct Window {
-    int lo, hi;  // allowed range (exclusive of the neighbouring contacts' lowest samples)
-    int core_lo, core_hi;
-    bool cut_start, cut_end;
-  };
-  std::vector<Window> windows;
-  for (int k = 0; k <= k_contacts; ++k) {
-    Window w{};
-    w.cut_start = k == 0;
-    w.cut_end = k == k_contacts;
-    w.lo = w.cut_start ? 0 : contacts[U(k - 1)].lowest + 1;
-    w.hi = w.cut_end ? n - 1 : contacts[U(k)].lowest - 1;
-    w.core_lo = w.cut_start ? release_end + 1 : contacts[U(k - 1)].last + margin(contacts[U(k - 1)]) + 1;
-    w.core_hi = w.cut_end ? n - 1 : contacts[U(k)].first - margin(contacts[U(k)]) - 1;
-    windows.push_back(w);
-  }
-
-  // Two passes: the second with the noise measured from the first pass's flight residuals.
-  std::vector<std::optional<FlightPhase>> phases(windows.size());
-  for (int pass = 0; pass < 2; ++pass) {
-    double sum_sq = 0.0;
-    int dof = 0;
-    for (size_t k = 0; k < windows.size(); ++k) {
-      const Window& w = windows[k];
-      phases[k].reset();
-      std::vector<bool> use(U(n), false);
-      int first = -1, last = -1;
-      if (onset_known) {
-        // From the release on when the clip starts with the hub held (grown back below).
-        const int lo = w.cut_start ? std::max(w.lo, w.core_lo) : w.lo;
-        for (int i = lo; i <= w.hi; ++i) {
-          if (s.valid[U(i)] && s.y_m[U(i)] > seg.onset_height_m) {
-            use[U(i)] = true;
-            if (first < 0) first = i;
-            last = i;
-          }
-        }
-        if (first >= 0 && lo > w.lo) first = GrowFlight(s, use, first, last, -1, w.lo - 1, noise, sigmas);
-      } else {
-        if (w.core_hi - w.core_lo + 1 < options.min_flight_samples) continue;
-        for (int i = w.core_lo; i <= w.core_hi; ++i) use[U(i)] = s.valid[U(i)];
-        first = w.core_lo;
-        last = w.core_hi;
-        // Outliers in the core (a mis-tracked frame) are left out before growing.
-        if (auto fit = FitMasked(s, use, first, last, s.y_m, noise)) {
-          for (int i = first; i <= last; ++i)
-            if (use[U(i)] && std::abs(s.y_m[U(i)] - fit->Value(s.t_s[U(i)])) > sigmas * noise * 1.5) use[U(i)] = false;
-        }
-        if (!w.cut_end) last = GrowFlight(s, use, first, last, +1, w.hi + 1, noise, sigmas);
-        if (!w.cut_start) first = GrowFlight(s, use, first, last, -1, w.lo - 1, noise, sigmas);
-      }
-      if (first < 0) continue;
-      int used = 0, missing = 0;
-      for (int i = first; i <= last; ++i) {
-        used += use[U(i)] ? 1 : 0;
-        missing += s.valid[U(i)] ? 0 : 1;
-      }
-      if (used < options.min_flight_samples) continue;
-      auto y_fit = FitMasked(s, use, first, last, s.y_m, pass == 0 ? std::optional<double>() : noise);
-      auto x_fit = FitMasked(s, use, first, last, s.x_m, std::nullopt);
-      if (!y_fit || !x_fit || !(y_fit->coef(2) < 0.0)) continue;
-      FlightPhase phase;
-      phase.first_index = first;
-      phase.last_index = last;
-      phase.y_fit = *y_fit;
-      phase.x_fit = *x_fit;
-      phase.missing_samples = missing;
-      phase.cut_by_clip_start = w.cut_start;
-      phase.cut_by_clip_end = w.cut_end;
-      phases[k] = phase;
-      const double r = y_fit->rms_residual_m;
-      sum_sq += r * r * y_fit->samples;
-      dof += y_fit->samples - 3;
-    }
-    if (dof > 0) noise = std::max(kNoiseFloorM, std::sqrt(sum_sq / dof));
-  }
+  // Step 3: flights between contacts; the noise from their residuals.
+  const std::vector<detail::FlightWindow> windows = detail::FlightWindows(coarse, n);
+  FittedFlights flights = FitFlights(s, windows, options, noise);
+  noise = flights.noise_sd_m;
   seg.noise_sd_m = noise;
   std::vector<int> flight_of_window(windows.size(), -1);
-  for (size_t k = 0; k < phases.size(); ++k) {
-    if (!phases[k]) continue;
+  for (size_t k = 0; k < flights.phases.size(); ++k) {
+    if (!flights.phases[k]) continue;
     flight_of_window[k] = static_cast<int>(seg.flights.size());
-    seg.flights.push_back(*phases[k]);
+    seg.flights.push_back(*flights.phases[k]);
   }
-
-  // Bounces.
-  for (int k = 0; k < k_contacts; ++k) {
-    const ContactRun& run = contacts[U(k)];
-    Bounce b;
-    b.index = k;
-    if (flight_of_window[U(k)] >= 0) b.flight_before = flight_of_window[U(k)];
-    if (flight_of_window[U(k + 1)] >= 0) b.flight_after = flight_of_window[U(k + 1)];
+  // Steps 4-6 per bounce, and its completeness.
+  const int half = coarse.filter_window / 2;
+  for (int k = 0; k < static_cast<int>(coarse.contacts.size()); ++k) {
+    const detail::ContactRun& run = coarse.contacts[U(k)];
+    Bounce b = BounceBetweenFlights(k, run, flight_of_window, seg, n, half);
     const FlightPhase* before = b.flight_before ? &seg.flights[U(*b.flight_before)] : nullptr;
     const FlightPhase* after = b.flight_after ? &seg.flights[U(*b.flight_after)] : nullptr;
-    b.contact_first_index = before ? before->last_index + 1 : std::max(0, run.first - half);
-    b.contact_last_index = after ? after->first_index - 1 : std::min(n - 1, run.last + half);
-    if (!before)
-      b.incomplete_reason = "no falling flight to fit before the contact (cut by the clip's start or too short)";
-    else if (!after)
-      b.incomplete_reason =
-          "no rising flight to fit after the contact (cut by the clip's end, too short, or the specimen came to rest)";
-    else if (b.contact_first_index <= 0 || b.contact_last_index >= n - 1)
-      b.incomplete_reason = "the contact touches the clip's first or last frame";
-    b.complete = b.incomplete_reason.empty();
-
-    // Step 6: lowest point.
-    b.t_lowest_s = s.t_s[U(run.lowest)];
-    b.y_lowest_m = s.y_m[U(run.lowest)];
-    b.y_lowest_sd_m = noise;
-    {
-      const double y_min = s.y_m[U(run.lowest)];
-      double y_ref = kNaN;
-      if (onset_known)
-        y_ref = seg.onset_height_m;
-      else if (before)
-        y_ref = before->y_fit.Value(s.t_s[U(std::min(n - 1, b.contact_first_index))]);
-      else if (after)
-        y_ref = after->y_fit.Value(s.t_s[U(std::max(0, b.contact_last_index))]);
-      const double band = std::isfinite(y_ref) ? 0.1 * std::max(0.0, y_ref - y_min) : 0.0;
-      int lo = run.lowest, hi = run.lowest;
-      auto below = [&](int i) { return !s.valid[U(i)] || s.y_m[U(i)] <= y_min + band; };
-      while (lo - 1 >= 0 && below(lo - 1) && run.lowest - lo < 200) --lo;
-      while (hi + 1 < n && below(hi + 1) && hi - run.lowest < 200) ++hi;
-      auto count_valid = [&]() {
-        int c = 0;
-        for (int i = lo; i <= hi; ++i) c += s.valid[U(i)] ? 1 : 0;
-        return c;
-      };
-      while (count_valid() < 5 && (lo > 0 || hi < n - 1)) {
-        if (lo > 0) --lo;
-        if (hi < n - 1) ++hi;
-      }
-      if (auto fit = FitPolynomial(s.t_s, s.y_m, s.valid, lo, hi, 2, noise)) {
-        if (fit->coef(2) > 0.0) {
-          const double tau = -fit->coef(1) / (2.0 * fit->coef(2));
-          const double t_v = fit->t_ref_s + tau;
-          if (t_v >= s.t_s[U(lo)] && t_v <= s.t_s[U(hi)]) {
-            b.t_lowest_s = t_v;
-            Eigen::VectorXd x = fit->coef;
-            b.y_lowest_m = fit->coef(0) - fit->coef(1) * fit->coef(1) / (4.0 * fit->coef(2));
-            b.y_lowest_sd_m = PropagatedSd([](const Eigen::VectorXd& c) { return c(0) - c(1) * c(1) / (4.0 * c(2)); },
-                                           x, fit->covariance);
-          }
-        }
-      }
-    }
-
-    // Step 4: this bounce's own onset estimate (falling side).
-    b.onset_height_track_m = kNaN;
-    b.onset_height_track_sd_m = kNaN;
-    const double d_lowest_ref = before ? before->y_fit.Value(b.t_lowest_s) : kNaN;
-    if (before) {
-      const double d_stop = std::max(30.0 * noise, 0.15 * std::max(0.0, b.y_lowest_m - d_lowest_ref));
-      std::vector<double> t, d;
-      for (int i = std::max(before->first_index, before->last_index - 4); i <= run.lowest; ++i) {
-        if (!s.valid[U(i)]) continue;
-        const double di = s.y_m[U(i)] - before->y_fit.Value(s.t_s[U(i)]);
-        t.push_back(s.t_s[U(i)]);
-        d.push_back(di);
-        if (di > d_stop && i > before->last_index) break;
-      }
-      if (t.size() >= 4) {
-        const DepartureFit fit = FitDeparture(t, d, true, t.front(), t.back(), dt / 20.0, noise);
-        if (std::isfinite(fit.t0_s)) {
-          const double rate = std::abs(before->y_fit.Derivative(fit.t0_s));
-          b.onset_height_track_m = before->y_fit.Value(fit.t0_s);
-          b.onset_height_track_sd_m = std::hypot(before->y_fit.ValueSd(fit.t0_s), rate * fit.sd_s);
-        }
-      }
-    }
-    // Step 5: track-only separation (rising side, backwards in time).
-    b.t_separation_track_s = kNaN;
-    b.t_separation_track_sd_s = kNaN;
-    if (after) {
-      const double d_low = b.y_lowest_m - after->y_fit.Value(b.t_lowest_s);
-      const double d_stop = std::max(30.0 * noise, 0.15 * std::max(0.0, d_low));
-      std::vector<double> t, d;
-      for (int i = std::min(after->last_index, after->first_index + 4); i >= run.lowest; --i) {
-        if (!s.valid[U(i)]) continue;
-        const double di = s.y_m[U(i)] - after->y_fit.Value(s.t_s[U(i)]);
-        t.push_back(s.t_s[U(i)]);
-        d.push_back(di);
-        if (di > d_stop && i < after->first_index) break;
-      }
-      if (t.size() >= 4) {
-        const DepartureFit fit = FitDeparture(t, d, false, t.back(), t.front(), dt / 20.0, noise);
-        b.t_separation_track_s = fit.t0_s;
-        b.t_separation_track_sd_s = fit.sd_s;
-      }
-    }
+    const double y_ref = LowestPointReference(s, b, before, after, options.onset_height_m);
+    const detail::LowestPoint lowest = detail::FitLowestPoint(s, run.lowest, y_ref, noise);
+    b.t_lowest_s = lowest.t_s;
+    b.y_lowest_m = lowest.y_m;
+    b.y_lowest_sd_m = lowest.sd_m;
+    EstimateOnsetFromTrack(s, run, before, noise, &b);
+    EstimateTrackSeparation(s, run, after, noise, &b);
     seg.bounces.push_back(b);
   }
-
+  // Step 4: the clip's provisional onset height from its bounces.
   if (!onset_known) {
     double sd = kNaN;
     if (auto onset = ClipOnsetFromBounces(seg.bounces, &sd)) {
@@ -581,22 +729,8 @@ Segmentation SegmentBounces(const TimeSeries& s, const SegmentationOptions& opti
       seg.onset_height_sd_m = sd;
     }
   }
-  SetContactInstants(seg);
-
-  // Notes on gaps.
-  for (const Gap& gap : seg.gaps) {
-    std::ostringstream note;
-    note << "gap of " << gap.count << " frame" << (gap.count == 1 ? "" : "s")
-         << " at t = " << FormatTime(s.t_s[U(gap.first_index)]) << " s";
-    bool in_flight = false;
-    for (const FlightPhase& f : seg.flights)
-      in_flight |= gap.first_index > f.first_index && gap.first_index + gap.count - 1 < f.last_index;
-    bool at_end = gap.first_index == 0 || gap.first_index + gap.count == n;
-    note << (in_flight ? ": bridged by the flight fit"
-             : at_end  ? ": at the clip's edge"
-                       : ": in or near a contact (figures there are less certain)");
-    seg.notes.push_back(note.str());
-  }
+  SetContactInstants(&seg);
+  AddGapNotes(s, &seg);
   return seg;
 }
 

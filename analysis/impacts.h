@@ -38,6 +38,8 @@
 //     deflection (at least 5 samples), its vertex.
 // A bounce whose falling or rising flight is missing or too short to fit, or whose contact
 // touches the clip's first or last sample, is complete = false, with the reason.
+// Steps 1-6 are separate functions, declared for their unit tests in
+// analysis/segmentation_steps.h.
 //
 // Impact figures (MeasureImpacts), definitions of the contract:
 //   t_contact_s        falling flight parabola reaches the onset height (sub-frame)

@@ -10,8 +10,11 @@
 #include <limits>
 #include <memory>
 #include <numeric>
+#include <optional>
 #include <sstream>
 #include <stdexcept>
+
+#include "analysis/law_fit_steps.h"
 
 namespace dropfit::analysis {
 
@@ -229,7 +232,582 @@ std::array<double, kPropagatedFigures> PropagatedFigures(const ImpactTruth& i) {
   return {i.t_separation_s, i.contact_duration_s, i.peak_force_n, i.max_deflection_m, i.cor};
 }
 
+// Residual unit for Ceres' tolerances [m]; cancels in the covariance.
+constexpr double kResidualScaleM = 1e-4;
+
+ContactSetup SetupOf(LawId law, const LawFitOptions& options, double mass_kg) {
+  ContactSetup setup;
+  setup.law = law;
+  setup.tread = options.tread;
+  setup.mass_kg = mass_kg;
+  setup.gravity_mps2 = options.gravity_mps2;
+  return setup;
+}
+
+// ---------------------------------------------------------------------------------------
+// The steps of FitLaw, in order (the linear algebra is in analysis/law_fit_steps.h).
+
+// The windows with samples to fit, in clip order; (*bounces)[clip] gets the bounce indices
+// used. Throws std::invalid_argument for a clip without a positive mass.
+std::vector<WindowRef> CollectWindows(const std::vector<FitClip>& clips, std::vector<std::vector<int>>* bounces) {
+  std::vector<WindowRef> windows;
+  for (size_t c = 0; c < clips.size(); ++c) {
+    if (!(clips[c].mass_kg > 0.0) || !std::isfinite(clips[c].mass_kg)) {
+      throw std::invalid_argument("FitLaw: clip '" + clips[c].clip + "' has mass " + std::to_string(clips[c].mass_kg) +
+                                  " kg; give the dropped mass (> 0)");
+    }
+    bounces->emplace_back();
+    for (const FitWindow& w : clips[c].windows) {
+      if (w.t_s.size() < 3 || w.t_s.size() != w.y_m.size()) continue;
+      windows.push_back({static_cast<int>(c), &w});
+      bounces->back().push_back(w.bounce_index);
+    }
+  }
+  return windows;
+}
+
+// Where the solver starts.
+//   onset_free     some clip has no known onset height: one shared unknown;
+//   onset_guess_m  its starting value (the clips' guesses, else lowest point + deflection);
+//   delta_ref_m    hunt-crossley's reference deflection (median maximum deflection, 1 cm
+//                  when unknown);
+//   starts, note   GuessLawParameters' starts (contract units; the first only without
+//                  multi_start) and how they were obtained;
+//   failure        set when no start can be made.
+struct StartingValues {
+  bool onset_free = false;
+  double onset_guess_m = kNaN;
+  double delta_ref_m = 0.0;
+  std::vector<std::vector<double>> starts;
+  std::string note;
+  std::optional<std::string> failure;
+};
+
+StartingValues ChooseStartingValues(LawId law, const std::vector<FitClip>& clips, const std::vector<WindowRef>& windows,
+                                    const LawFitOptions& options) {
+  StartingValues out;
+  // Onset height: fixed per clip where known, else one shared unknown.
+  std::vector<double> onset_guesses;
+  for (const FitClip& clip : clips) {
+    if (clip.known_onset_height_m) continue;
+    out.onset_free = true;
+    if (std::isfinite(clip.onset_height_guess_m)) onset_guesses.push_back(clip.onset_height_guess_m);
+  }
+  // Starting figures: the median over bounces of each figure.
+  std::vector<double> v_in, cor, t_c, defl, rest_guess;
+  for (const WindowRef& ref : windows) {
+    const ImpactGuessFigures& f = ref.window->figures;
+    v_in.push_back(f.impact_speed_mps);
+    cor.push_back(f.cor);
+    t_c.push_back(f.contact_duration_s);
+    defl.push_back(f.max_deflection_m);
+    if (out.onset_free && !clips[ref.clip].known_onset_height_m && std::isfinite(f.max_deflection_m)) {
+      const auto lowest = std::min_element(ref.window->y_m.begin(), ref.window->y_m.end());
+      rest_guess.push_back(*lowest + f.max_deflection_m);
+    }
+  }
+  ImpactGuessFigures median_figures{Median(v_in), Median(cor), Median(t_c), Median(defl)};
+  double onset_guess = Median(onset_guesses);
+  if (out.onset_free && !std::isfinite(onset_guess)) onset_guess = Median(rest_guess);
+  if (out.onset_free && !std::isfinite(onset_guess)) {
+    out.failure = "the onset height is neither known nor estimated, and no deflection gives a start for it";
+    return out;
+  }
+  out.onset_guess_m = onset_guess;
+  const double mass_ref = clips[windows.front().clip].mass_kg;
+  const InitialGuessResult guess = GuessLawParameters(law, median_figures, mass_ref, options.tread);
+  if (!guess.guess) {
+    out.failure = "no starting values: " + guess.failure;
+    return out;
+  }
+  out.note = guess.guess->note;
+  double delta_ref = median_figures.max_deflection_m;
+  if (!(delta_ref > 0.0) || !std::isfinite(delta_ref)) delta_ref = 0.01;  // any positive value works; 1 cm is typical
+  out.delta_ref_m = delta_ref;
+  out.starts = guess.guess->starts;
+  if (!options.multi_start) out.starts.resize(1);
+  return out;
+}
+
+// The fixed inputs of one fit, shared by its steps.
+struct FitInputs {
+  LawId law;
+  const std::vector<FitClip>& clips;
+  const std::vector<WindowRef>& windows;
+  const LawFitOptions& options;
+  const StartingValues& start;
+};
+
+// Bounds keep the integrator away from absurd laws; they are far from any real value.
+void SetBounds(LawId law, double delta_ref, Unknowns& u, ceres::Problem* problem) {
+  const int dim = InternalDim(law);
+  for (int j = 0; j < dim; ++j) {
+    const bool is_exponent = law == LawId::kHuntCrossley && j == 1;
+    if (is_exponent) {
+      problem->SetParameterLowerBound(u.x.data(), j, 1.0);
+      problem->SetParameterUpperBound(u.x.data(), j, 4.0);
+    } else {
+      problem->SetParameterLowerBound(u.x.data(), j, u.x[j] - 25.0);
+      problem->SetParameterUpperBound(u.x.data(), j, u.x[j] + 12.0);
+    }
+  }
+  if (law == LawId::kBilinear) problem->SetParameterUpperBound(u.x.data(), 2, std::log(20.0 * delta_ref));
+}
+
+// The problem of one start: the unknowns at their starting values (law parameters
+// `start_params` in contract units), one residual block per window, the bounds.
+Solved BuildProblem(const FitInputs& in, const std::vector<double>& start_params) {
+  Solved s;
+  s.unknowns = std::make_unique<Unknowns>();
+  Unknowns& u = *s.unknowns;
+  u.x = FromLawParams(in.law, start_params, in.start.delta_ref_m);
+  u.onset = in.start.onset_free ? in.start.onset_guess_m : 0.0;
+  for (const FitClip& clip : in.clips) u.known_onsets.push_back(clip.known_onset_height_m.value_or(kNaN));
+  for (const WindowRef& ref : in.windows)
+    u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
+  s.problem = std::make_unique<ceres::Problem>();
+  for (size_t i = 0; i < in.windows.size(); ++i) {
+    const WindowRef& ref = in.windows[i];
+    WindowData d;
+    d.setup = SetupOf(in.law, in.options, in.clips[ref.clip].mass_kg);
+    d.model = in.options.model;
+    d.delta_ref_m = in.start.delta_ref_m;
+    d.inv_scale = 1.0 / kResidualScaleM;
+    d.window = ref.window;
+    const bool known = in.clips[ref.clip].known_onset_height_m.has_value();
+    double* onset_block = known ? &u.known_onsets[ref.clip] : &u.onset;
+    s.problem->AddResidualBlock(MakeWindowCost(d), nullptr, u.x.data(), onset_block, u.states[i].data());
+    if (known) s.problem->SetParameterBlockConstant(onset_block);
+  }
+  SetBounds(in.law, in.start.delta_ref_m, u, s.problem.get());
+  return s;
+}
+
+ceres::Solver::Options SolverOptions(const LawFitOptions& options) {
+  ceres::Solver::Options solver;
+  solver.linear_solver_type = ceres::DENSE_QR;
+  solver.max_num_iterations = options.max_iterations;
+  solver.function_tolerance = options.function_tolerance;
+  solver.parameter_tolerance = options.parameter_tolerance;
+  solver.gradient_tolerance = 1e-16;
+  solver.num_threads = 1;
+  solver.logging_type = ceres::SILENT;
+  solver.minimizer_progress_to_stdout = false;
+  return solver;
+}
+
+// The multi-start solve: with several starts, each gets kScreeningIterations first and only
+// the lowest final cost is run to the end. Adds the iterations and starts to *result.
+// Nothing when no start gives a usable solution.
+std::optional<Solved> SolveMultiStart(const FitInputs& in, LawFitResult* result) {
+  const std::vector<std::vector<double>>& starts = in.start.starts;
+  const ceres::Solver::Options solver = SolverOptions(in.options);
+  std::optional<Solved> best;
+  for (const std::vector<double>& start : starts) {
+    Solved s = BuildProblem(in, start);
+    ceres::Solver::Options first = solver;
+    if (starts.size() > 1) first.max_num_iterations = std::min(solver.max_num_iterations, kScreeningIterations);
+    ceres::Solve(first, s.problem.get(), &s.summary);
+    result->iterations += static_cast<int>(s.summary.iterations.size()) - 1;
+    ++result->starts;
+    if (!s.summary.IsSolutionUsable()) continue;
+    if (!best || s.summary.final_cost < best->summary.final_cost) best = std::move(s);
+  }
+  if (!best) return best;
+  if (starts.size() > 1 && best->summary.termination_type == ceres::NO_CONVERGENCE) {
+    ceres::Solver::Options rest = solver;
+    rest.max_num_iterations = std::max(1, solver.max_num_iterations - kScreeningIterations);
+    ceres::Solve(rest, best->problem.get(), &best->summary);
+    result->iterations += static_cast<int>(best->summary.iterations.size()) - 1;
+  }
+  return best;
+}
+
+// Convergence, parameters, residuals and BIC of the kept solution.
+void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* result) {
+  const Unknowns& u = *best.unknowns;
+  const ceres::Solver::Summary& summary = best.summary;
+  result->converged = summary.termination_type == ceres::CONVERGENCE;
+  result->termination = summary.message;
+  if (!result->converged) result->warnings.push_back("the fit did not converge: " + summary.message);
+
+  std::vector<double> x_params(kMaxLawParameters);
+  ToLawParams(in.law, u.x.data(), in.start.delta_ref_m, x_params.data());
+  x_params.resize(ParameterCount(in.law));
+  result->params = x_params;
+  result->onset_height_fitted = in.start.onset_free;
+  result->onset_height_m =
+      in.start.onset_free ? u.onset : in.clips[in.windows.front().clip].known_onset_height_m.value();
+  for (const WindowRef& ref : in.windows) result->samples += static_cast<int>(ref.window->t_s.size());
+  result->free_parameters =
+      InternalDim(in.law) + (in.start.onset_free ? 1 : 0) + 2 * static_cast<int>(in.windows.size());
+  const double rss = 2.0 * summary.final_cost * kResidualScaleM * kResidualScaleM;
+  const int n = result->samples;
+  result->rms_residual_m = std::sqrt(rss / n);
+  result->bic = detail::BayesianInformationCriterion(rss, n, result->free_parameters);
+}
+
+// Covariance of the internal unknowns, in the order law x, onset (if free), then each
+// window's state (height, velocity) from state_offset on; NaN where unknown, and, where
+// undetermined, NaN rows and columns with an infinite variance.
+struct InternalCovariance {
+  Eigen::MatrixXd cov;
+  std::vector<bool> undetermined;
+  bool have = false;
+  int state_offset = 0;
+};
+
+// s2 (J^T J)^-1 by ceres::Covariance (dense SVD) into *cov; false when J^T J is
+// rank-deficient (or the computation fails).
+bool CeresCovariance(ceres::Problem* problem, const std::vector<const double*>& blocks, int total, double s2,
+                     Eigen::MatrixXd* cov) {
+  ceres::Covariance::Options copt;
+  copt.algorithm_type = ceres::DENSE_SVD;
+  copt.min_reciprocal_condition_number = 1e-14;
+  copt.null_space_rank = 0;
+  copt.apply_loss_function = false;
+  copt.num_threads = 1;
+  ceres::Covariance covariance(copt);
+  Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> c(total, total);
+  if (!(covariance.Compute(blocks, problem) && covariance.GetCovarianceMatrix(blocks, c.data()))) return false;
+  *cov = s2 * c;
+  return true;
+}
+
+// The Jacobian of all residuals at the current unknowns, columns in the order of `blocks`;
+// nothing when the evaluation fails.
+std::optional<Eigen::MatrixXd> JacobianAt(ceres::Problem* problem, const std::vector<const double*>& blocks) {
+  ceres::Problem::EvaluateOptions eo;
+  std::vector<double*> mutable_blocks;
+  for (const double* b : blocks) mutable_blocks.push_back(const_cast<double*>(b));
+  eo.parameter_blocks = mutable_blocks;
+  ceres::CRSMatrix crs;
+  if (!problem->Evaluate(eo, nullptr, nullptr, nullptr, &crs)) return std::nullopt;
+  Eigen::MatrixXd j = Eigen::MatrixXd::Zero(crs.num_rows, crs.num_cols);
+  for (int r = 0; r < crs.num_rows; ++r)
+    for (int k = crs.rows[r]; k < crs.rows[r + 1]; ++k) j(r, crs.cols[k]) = crs.values[k];
+  return j;
+}
+
+// The covariance step: s^2 (J^T J)^-1 with s^2 = RSS / dof (law_fit.h, "Uncertainty"), or,
+// when J^T J is rank-deficient, its pseudo-inverse with the undetermined unknowns marked.
+// Warnings for the fallback and for dof <= 0 (no covariance) go to *warnings.
+InternalCovariance ComputeInternalCovariance(Solved& best, int dim, bool onset_free, int dof,
+                                             std::vector<std::string>* warnings) {
+  Unknowns& u = *best.unknowns;
+  std::vector<const double*> blocks{u.x.data()};
+  int total = dim;
+  if (onset_free) {
+    blocks.push_back(&u.onset);
+    total += 1;
+  }
+  InternalCovariance out;
+  out.state_offset = total;
+  for (auto& st : u.states) {
+    blocks.push_back(st.data());
+    total += 2;
+  }
+  out.cov = Eigen::MatrixXd::Constant(total, total, kNaN);
+  out.undetermined.assign(total, false);
+  if (dof <= 0) {
+    warnings->push_back("no more samples than unknowns: no uncertainty can be estimated");
+    return out;
+  }
+  // s2 is in units of scale_m^2 and the Jacobian in 1/scale_m: the covariance is in metres.
+  const double s2 = 2.0 * best.summary.final_cost / dof;
+  if (CeresCovariance(best.problem.get(), blocks, total, s2, &out.cov)) {
+    out.have = true;
+    return out;
+  }
+  if (const std::optional<Eigen::MatrixXd> j = JacobianAt(best.problem.get(), blocks)) {
+    detail::PseudoInverseCovariance p = detail::CovarianceByPseudoInverse(*j, s2);
+    out.cov = std::move(p.covariance);
+    out.undetermined = std::move(p.undetermined);
+    out.have = true;
+    warnings->push_back(
+        "the data do not determine every unknown (rank-deficient Jacobian): "
+        "their SDs are reported as infinite");
+  }
+  return out;
+}
+
+// The law parameters' covariance and SDs, and the onset height's SD, from the internal
+// covariance (first-order propagation, law_fit.h).
+void ReportParameterUncertainty(const FitInputs& in, const InternalCovariance& ic, LawFitResult* result) {
+  const LawId law = in.law;
+  const int dim = InternalDim(law);
+  const int np = ParameterCount(law);
+  const Eigen::MatrixXd g = LawParamJacobian(law, result->params, in.start.delta_ref_m);
+  const Eigen::MatrixXd cov_x = ic.cov.topLeftCorner(dim, dim);
+  const Eigen::MatrixXd cov_p = detail::LawParameterCovariance(g, cov_x, ic.undetermined, ic.have);
+  result->param_sd.resize(np);
+  result->param_covariance.assign(np, std::vector<double>(np, kNaN));
+  for (int i = 0; i < np; ++i) {
+    result->param_sd[i] = ic.have ? std::sqrt(std::max(0.0, cov_p(i, i))) : kInf;
+    if (std::isnan(cov_p(i, i))) result->param_sd[i] = kInf;
+    for (int j = 0; j < np; ++j) result->param_covariance[i][j] = cov_p(i, j);
+  }
+  if (law == LawId::kHertz) result->param_sd[1] = 0.0;  // fixed exponent
+  result->onset_height_sd_m = in.start.onset_free ? (ic.have ? std::sqrt(ic.cov(dim, dim)) : kInf) : 0.0;
+}
+
+// The force against deflection over the contact of a simulated window.
+ForceDeflectionCurve ContactCurve(const WindowSimulation& sim, double onset, int curve_points, int clip_index,
+                                  int bounce_index) {
+  const ImpactTruth& t = sim.impact;
+  ForceDeflectionCurve curve;
+  curve.clip_index = clip_index;
+  curve.bounce_index = bounce_index;
+  const double t_end = std::isfinite(t.t_separation_s) ? t.t_separation_s : t.t_contact_s + 0.0;
+  for (int k = 0; k < curve_points && t_end > t.t_contact_s; ++k) {
+    const double tk = t.t_contact_s + (t_end - t.t_contact_s) * k / (curve_points - 1);
+    const HubState st = sim.trajectory.At(tk);
+    curve.t_s.push_back(tk);
+    curve.deflection_m.push_back(onset - st.y_m);
+    curve.force_n.push_back(st.contact_force_n);
+  }
+  return curve;
+}
+
+// What one window's figure SDs are propagated from: the indices of (law x, onset if fitted
+// for this clip, this window's state) in the internal covariance, and their sub-matrix.
+struct FigureUnknowns {
+  std::vector<int> idx;
+  Eigen::MatrixXd sub;
+  bool finite = true;
+  bool onset_unknown = false;
+};
+
+FigureUnknowns UnknownsOfWindow(const FitInputs& in, const InternalCovariance& ic, size_t i) {
+  const int dim = InternalDim(in.law);
+  FigureUnknowns out;
+  out.onset_unknown = in.start.onset_free && !in.clips[in.windows[i].clip].known_onset_height_m;
+  for (int j = 0; j < dim; ++j) out.idx.push_back(j);
+  if (out.onset_unknown) out.idx.push_back(dim);
+  out.idx.push_back(ic.state_offset + 2 * static_cast<int>(i));
+  out.idx.push_back(ic.state_offset + 2 * static_cast<int>(i) + 1);
+  const int m = static_cast<int>(out.idx.size());
+  out.sub.resize(m, m);
+  for (int a = 0; a < m; ++a)
+    for (int b = 0; b < m; ++b) {
+      out.sub(a, b) = ic.cov(out.idx[a], out.idx[b]);
+      out.finite = out.finite && std::isfinite(out.sub(a, b));
+    }
+  return out;
+}
+
+// d (PropagatedFigures) / d (the unknowns of `fu`) by central differences with steps of
+// 1e-3 SD (an unknown with zero variance keeps a zero column); nothing when a perturbed
+// model run has no complete impact.
+std::optional<Eigen::MatrixXd> FigureJacobian(const FitInputs& in, const Unknowns& u, size_t i,
+                                              const FigureUnknowns& fu, const ContactSetup& setup, double onset,
+                                              double end_s) {
+  const int dim = InternalDim(in.law);
+  const int np = ParameterCount(in.law);
+  const FitWindow& w = *in.windows[i].window;
+  const std::vector<int>& idx = fu.idx;
+  const int m = static_cast<int>(idx.size());
+  Eigen::MatrixXd jac = Eigen::MatrixXd::Zero(kPropagatedFigures, m);
+  for (int a = 0; a < m; ++a) {
+    const double h = 1e-3 * std::sqrt(std::max(fu.sub(a, a), 0.0));
+    if (!(h > 0.0)) continue;
+    std::array<std::array<double, kPropagatedFigures>, 2> val{};
+    for (int side = 0; side < 2; ++side) {
+      std::vector<double> xx = u.x;
+      double on = onset;
+      double y0 = u.states[i][0], v0 = u.states[i][1];
+      const double step = side == 0 ? h : -h;
+      const int k = idx[a];
+      if (k < dim)
+        xx[k] += step;
+      else if (k == dim && fu.onset_unknown)
+        on += step;
+      else if (k == idx[m - 2])
+        y0 += step;
+      else
+        v0 += step;
+      std::vector<double> pp(kMaxLawParameters);
+      ToLawParams(in.law, xx.data(), in.start.delta_ref_m, pp.data());
+      pp.resize(np);
+      const WindowSimulation sp = SimulateWindow(setup, pp, on, w.start_time_s, y0, v0, end_s, in.options.model);
+      if (!sp.ok) return std::nullopt;
+      val[side] = PropagatedFigures(sp.impact);
+    }
+    for (int q = 0; q < kPropagatedFigures; ++q) jac(q, a) = (val[0][q] - val[1][q]) / (2.0 * h);
+  }
+  return jac;
+}
+
+// The SDs of the propagated figures of window i, sd^2 = J C J^T (GUM 2008 eq. 13,
+// docs/methods.md §10); infinite when an unknown of the window is undetermined, left NaN
+// when a perturbed run fails.
+void PropagateFigureSds(const FitInputs& in, const Unknowns& u, const InternalCovariance& ic, size_t i,
+                        const ContactSetup& setup, double onset, double end_s, BounceFitFigures* f) {
+  const FigureUnknowns fu = UnknownsOfWindow(in, ic, i);
+  if (!fu.finite) {
+    f->t_separation_sd_s = f->contact_duration_sd_s = f->peak_force_sd_n = f->max_deflection_sd_m = f->cor_sd = kInf;
+    return;
+  }
+  const std::optional<Eigen::MatrixXd> jac = FigureJacobian(in, u, i, fu, setup, onset, end_s);
+  if (!jac) return;
+  const Eigen::MatrixXd fc = *jac * fu.sub * jac->transpose();
+  f->t_separation_sd_s = std::sqrt(std::max(0.0, fc(0, 0)));
+  f->contact_duration_sd_s = std::sqrt(std::max(0.0, fc(1, 1)));
+  f->peak_force_sd_n = std::sqrt(std::max(0.0, fc(2, 2)));
+  f->max_deflection_sd_m = std::sqrt(std::max(0.0, fc(3, 3)));
+  f->cor_sd = std::sqrt(std::max(0.0, fc(4, 4)));
+}
+
+// The per-bounce figures of window i from a run of the fitted law, their SDs, its
+// force-deflection curve (into result->curves) and its warnings; the maximum deflection goes
+// to *max_deflections.
+BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const InternalCovariance& ic, size_t i,
+                                 LawFitResult* result, std::vector<double>* max_deflections) {
+  const WindowRef& ref = in.windows[i];
+  const FitClip& clip = in.clips[ref.clip];
+  const FitWindow& w = *ref.window;
+  const ContactSetup setup = SetupOf(in.law, in.options, clip.mass_kg);
+  const double onset = clip.known_onset_height_m.value_or(u.onset);
+  const double end_s = w.t_s.back() + 0.05;
+  const WindowSimulation sim = SimulateWindow(setup, result->params, onset, w.start_time_s, u.states[i][0],
+                                              u.states[i][1], end_s, in.options.model);
+  BounceFitFigures f;
+  f.clip_index = ref.clip;
+  f.bounce_index = w.bounce_index;
+  f.start_height_m = u.states[i][0];
+  f.start_velocity_mps = u.states[i][1];
+  f.samples = static_cast<int>(w.t_s.size());
+  double ss = 0.0;
+  for (size_t k = 0; k < w.t_s.size(); ++k) {
+    if (w.y_m[k] < onset) ++f.contact_samples;
+    if (sim.ok) {
+      const double r = sim.trajectory.HeightAt(w.t_s[k]) - w.y_m[k];
+      ss += r * r;
+    }
+  }
+  f.rms_residual_m = sim.ok ? std::sqrt(ss / f.samples) : kNaN;
+  if (sim.ok) {
+    const ImpactTruth& t = sim.impact;
+    f.t_contact_s = t.t_contact_s;
+    f.t_separation_s = t.t_separation_s;
+    f.contact_duration_s = t.contact_duration_s;
+    f.peak_force_n = t.peak_force_n;
+    f.max_deflection_m = t.max_deflection_m;
+    f.impact_speed_mps = t.impact_speed_mps;
+    f.rebound_speed_mps = t.rebound_speed_mps;
+    f.cor = t.cor;
+    f.separation_speed_mps = t.separation_speed_mps;
+    max_deflections->push_back(t.max_deflection_m);
+    result->curves.push_back(ContactCurve(sim, onset, in.options.curve_points, ref.clip, w.bounce_index));
+  } else {
+    f.t_contact_s = f.t_separation_s = f.contact_duration_s = f.peak_force_n = f.max_deflection_m = kNaN;
+    f.impact_speed_mps = f.rebound_speed_mps = f.cor = f.separation_speed_mps = kNaN;
+    result->warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip +
+                               "': the fitted law gives no complete impact in the window");
+  }
+  f.t_separation_sd_s = f.contact_duration_sd_s = f.peak_force_sd_n = f.max_deflection_sd_m = f.cor_sd = kNaN;
+  if (sim.ok && ic.have && in.options.figure_uncertainties) PropagateFigureSds(in, u, ic, i, setup, onset, end_s, &f);
+  if (f.contact_samples < in.options.min_contact_samples) {
+    result->warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip + "' has only " +
+                               std::to_string(f.contact_samples) +
+                               " samples in contact (below the onset height): the law is poorly determined by it");
+  }
+  return f;
+}
+
+// Warnings for data that do not determine the law (law_fit.h, "Failure is data").
+void AddDegenerateDataWarnings(const FitInputs& in, const std::vector<double>& max_deflections, LawFitResult* result) {
+  const LawId law = in.law;
+  if (law == LawId::kHuntCrossley && (result->params[1] < 1.0 + 1e-6 || result->params[1] > 4.0 - 1e-6)) {
+    result->warnings.push_back("the exponent n = " + FormatG(result->params[1]) +
+                               " sits on its bound [1, 4]: the law does not describe these data well");
+  }
+  if (in.start.onset_free && in.windows.size() == 1) {
+    result->warnings.push_back(
+        "a single bounce with a fitted onset height: stiffness, exponent and onset height trade off "
+        "(an exponent is pinned only to a few tenths); read the SDs, or give free_radius_m with a floor");
+  }
+  const double typical_deflection = Median(max_deflections);
+  if (std::isfinite(typical_deflection) && result->rms_residual_m > 0.2 * typical_deflection) {
+    result->warnings.push_back("the residual RMS (" + FormatG(result->rms_residual_m) +
+                               " m) is comparable with the deflection (" + FormatG(typical_deflection) +
+                               " m): the law is not determined by these data");
+  }
+  for (int i = 0; i < ParameterCount(law); ++i) {
+    if (law == LawId::kHertz && i == 1) continue;
+    const double rel = result->param_sd[i] / std::abs(result->params[i]);
+    if (!(rel <= 0.5)) {
+      result->warnings.push_back(result->param_names[i] + " = " + FormatG(result->params[i]) + " has an SD of " +
+                                 FormatG(result->param_sd[i]) + ": not determined by the data");
+    }
+  }
+}
+
 }  // namespace
+
+namespace detail {
+
+double BayesianInformationCriterion(double rss_m2, int samples, int free_parameters) {
+  const int n = samples;
+  return n * std::log(std::max(rss_m2, 1e-300) / n) + free_parameters * std::log(static_cast<double>(n));
+}
+
+PseudoInverseCovariance CovarianceByPseudoInverse(const Eigen::MatrixXd& j, double s2) {
+  const int total = static_cast<int>(j.cols());
+  PseudoInverseCovariance out;
+  out.undetermined.assign(total, false);
+  // Pseudo-inverse of the column-scaled J^T J, with the parameters that have weight in the
+  // null space marked undetermined (infinite SD).
+  Eigen::VectorXd norms = j.colwise().norm();
+  for (int i = 0; i < total; ++i) norms[i] = norms[i] > 0.0 ? norms[i] : 1.0;
+  const Eigen::MatrixXd js = j * norms.cwiseInverse().asDiagonal();
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(js.transpose() * js);
+  const Eigen::VectorXd& ev = eig.eigenvalues();
+  const double cutoff = 1e-12 * ev.maxCoeff();
+  Eigen::MatrixXd pinv = Eigen::MatrixXd::Zero(total, total);
+  for (int k = 0; k < total; ++k) {
+    const Eigen::VectorXd vk = eig.eigenvectors().col(k);
+    if (ev[k] > cutoff) {
+      pinv += vk * vk.transpose() / ev[k];
+    } else {
+      for (int i = 0; i < total; ++i)
+        if (vk[i] * vk[i] > 1e-6) out.undetermined[i] = true;
+    }
+  }
+  Eigen::MatrixXd& cov = out.covariance;
+  cov = s2 * norms.cwiseInverse().asDiagonal() * pinv * norms.cwiseInverse().asDiagonal();
+  for (int i = 0; i < total; ++i) {
+    if (!out.undetermined[i]) continue;
+    cov.row(i).setConstant(kNaN);
+    cov.col(i).setConstant(kNaN);
+    cov(i, i) = kInf;
+  }
+  return out;
+}
+
+Eigen::MatrixXd LawParameterCovariance(const Eigen::MatrixXd& g, const Eigen::MatrixXd& cov_x,
+                                       const std::vector<bool>& undetermined, bool have_cov) {
+  const int np = static_cast<int>(g.rows());
+  const int dim = static_cast<int>(g.cols());
+  Eigen::MatrixXd cov_p = Eigen::MatrixXd::Constant(np, np, kNaN);
+  if (!have_cov) return cov_p;
+  bool any_undetermined = false;
+  for (int i = 0; i < dim; ++i) any_undetermined = any_undetermined || undetermined[i];
+  if (!any_undetermined) {
+    cov_p = g * cov_x * g.transpose();
+    return cov_p;
+  }
+  for (int i = 0; i < np; ++i) {
+    bool touches = false;
+    for (int j = 0; j < dim; ++j) touches = touches || (g(i, j) != 0.0 && undetermined[j]);
+    cov_p(i, i) = touches ? kInf : (g.row(i) * cov_x.unaryExpr([](double v) {
+      return std::isfinite(v) ? v : 0.0;
+    }) * g.row(i).transpose())(0, 0);
+  }
+  return cov_p;
+}
+
+}  // namespace detail
 
 // ---------------------------------------------------------------------------------------
 
@@ -384,417 +962,33 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   result.param_names = ParameterNames(law);
   result.formula = LawFormula(law, options.tread);
 
-  std::vector<WindowRef> windows;
-  for (size_t c = 0; c < clips.size(); ++c) {
-    if (!(clips[c].mass_kg > 0.0) || !std::isfinite(clips[c].mass_kg)) {
-      throw std::invalid_argument("FitLaw: clip '" + clips[c].clip + "' has mass " + std::to_string(clips[c].mass_kg) +
-                                  " kg; give the dropped mass (> 0)");
-    }
-    result.bounces.emplace_back();
-    for (const FitWindow& w : clips[c].windows) {
-      if (w.t_s.size() < 3 || w.t_s.size() != w.y_m.size()) continue;
-      windows.push_back({static_cast<int>(c), &w});
-      result.bounces.back().push_back(w.bounce_index);
-    }
-  }
+  const std::vector<WindowRef> windows = CollectWindows(clips, &result.bounces);
   if (windows.empty()) {
     result.failure = "no complete bounce with samples to fit";
     return result;
   }
-
-  // Onset height: fixed per clip where known, else one shared unknown.
-  bool onset_free = false;
-  std::vector<double> onset_guesses;
-  for (const FitClip& clip : clips) {
-    if (clip.known_onset_height_m) continue;
-    onset_free = true;
-    if (std::isfinite(clip.onset_height_guess_m)) onset_guesses.push_back(clip.onset_height_guess_m);
-  }
-  // Starting figures: the median over bounces of each figure.
-  std::vector<double> v_in, cor, t_c, defl, rest_guess;
-  for (const WindowRef& ref : windows) {
-    const ImpactGuessFigures& f = ref.window->figures;
-    v_in.push_back(f.impact_speed_mps);
-    cor.push_back(f.cor);
-    t_c.push_back(f.contact_duration_s);
-    defl.push_back(f.max_deflection_m);
-    if (onset_free && !clips[ref.clip].known_onset_height_m && std::isfinite(f.max_deflection_m)) {
-      const auto lowest = std::min_element(ref.window->y_m.begin(), ref.window->y_m.end());
-      rest_guess.push_back(*lowest + f.max_deflection_m);
-    }
-  }
-  ImpactGuessFigures median_figures{Median(v_in), Median(cor), Median(t_c), Median(defl)};
-  double onset_guess = Median(onset_guesses);
-  if (onset_free && !std::isfinite(onset_guess)) onset_guess = Median(rest_guess);
-  if (onset_free && !std::isfinite(onset_guess)) {
-    result.failure = "the onset height is neither known nor estimated, and no deflection gives a start for it";
+  const StartingValues start = ChooseStartingValues(law, clips, windows, options);
+  if (start.failure) {
+    result.failure = start.failure;
     return result;
   }
-  const double mass_ref = clips[windows.front().clip].mass_kg;
-  const InitialGuessResult guess = GuessLawParameters(law, median_figures, mass_ref, options.tread);
-  if (!guess.guess) {
-    result.failure = "no starting values: " + guess.failure;
-    return result;
-  }
-  result.start_note = guess.guess->note;
-  double delta_ref = median_figures.max_deflection_m;
-  if (!(delta_ref > 0.0) || !std::isfinite(delta_ref)) delta_ref = 0.01;  // any positive value works; 1 cm is typical
-
-  const int dim = InternalDim(law);
-  const double scale_m = 1e-4;  // residual unit for Ceres' tolerances; cancels in the covariance
-  std::vector<std::vector<double>> starts = guess.guess->starts;
-  if (!options.multi_start) starts.resize(1);
-
-  ceres::Solver::Options solver;
-  solver.linear_solver_type = ceres::DENSE_QR;
-  solver.max_num_iterations = options.max_iterations;
-  solver.function_tolerance = options.function_tolerance;
-  solver.parameter_tolerance = options.parameter_tolerance;
-  solver.gradient_tolerance = 1e-16;
-  solver.num_threads = 1;
-  solver.logging_type = ceres::SILENT;
-  solver.minimizer_progress_to_stdout = false;
-
-  std::optional<Solved> best;
-  for (const std::vector<double>& start : starts) {
-    Solved s;
-    s.unknowns = std::make_unique<Unknowns>();
-    Unknowns& u = *s.unknowns;
-    u.x = FromLawParams(law, start, delta_ref);
-    u.onset = onset_free ? onset_guess : 0.0;
-    for (const FitClip& clip : clips) u.known_onsets.push_back(clip.known_onset_height_m.value_or(kNaN));
-    for (const WindowRef& ref : windows)
-      u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
-    s.problem = std::make_unique<ceres::Problem>();
-    for (size_t i = 0; i < windows.size(); ++i) {
-      const WindowRef& ref = windows[i];
-      WindowData d;
-      d.setup.law = law;
-      d.setup.tread = options.tread;
-      d.setup.mass_kg = clips[ref.clip].mass_kg;
-      d.setup.gravity_mps2 = options.gravity_mps2;
-      d.model = options.model;
-      d.delta_ref_m = delta_ref;
-      d.inv_scale = 1.0 / scale_m;
-      d.window = ref.window;
-      double* onset_block = clips[ref.clip].known_onset_height_m ? &u.known_onsets[ref.clip] : &u.onset;
-      s.problem->AddResidualBlock(MakeWindowCost(d), nullptr, u.x.data(), onset_block, u.states[i].data());
-      if (clips[ref.clip].known_onset_height_m) s.problem->SetParameterBlockConstant(onset_block);
-    }
-    // Bounds keep the integrator away from absurd laws; they are far from any real value.
-    for (int j = 0; j < dim; ++j) {
-      const bool is_exponent = law == LawId::kHuntCrossley && j == 1;
-      if (is_exponent) {
-        s.problem->SetParameterLowerBound(u.x.data(), j, 1.0);
-        s.problem->SetParameterUpperBound(u.x.data(), j, 4.0);
-      } else {
-        s.problem->SetParameterLowerBound(u.x.data(), j, u.x[j] - 25.0);
-        s.problem->SetParameterUpperBound(u.x.data(), j, u.x[j] + 12.0);
-      }
-    }
-    if (law == LawId::kBilinear) s.problem->SetParameterUpperBound(u.x.data(), 2, std::log(20.0 * delta_ref));
-    // With several starts, each gets a short budget first; only the best is run to the end.
-    ceres::Solver::Options first = solver;
-    if (starts.size() > 1) first.max_num_iterations = std::min(solver.max_num_iterations, kScreeningIterations);
-    ceres::Solve(first, s.problem.get(), &s.summary);
-    result.iterations += static_cast<int>(s.summary.iterations.size()) - 1;
-    ++result.starts;
-    if (!s.summary.IsSolutionUsable()) continue;
-    if (!best || s.summary.final_cost < best->summary.final_cost) best = std::move(s);
-  }
+  result.start_note = start.note;
+  const FitInputs in{law, clips, windows, options, start};
+  std::optional<Solved> best = SolveMultiStart(in, &result);
   if (!best) {
     result.failure = "no start of the solver gave a usable solution";
     return result;
   }
-  if (starts.size() > 1 && best->summary.termination_type == ceres::NO_CONVERGENCE) {
-    ceres::Solver::Options rest = solver;
-    rest.max_num_iterations = std::max(1, solver.max_num_iterations - kScreeningIterations);
-    ceres::Solve(rest, best->problem.get(), &best->summary);
-    result.iterations += static_cast<int>(best->summary.iterations.size()) - 1;
-  }
-  Unknowns& u = *best->unknowns;
-  const ceres::Solver::Summary& summary = best->summary;
-  result.converged = summary.termination_type == ceres::CONVERGENCE;
-  result.termination = summary.message;
-  if (!result.converged) result.warnings.push_back("the fit did not converge: " + summary.message);
-
-  // Parameters, residuals, BIC.
-  std::vector<double> x_params(kMaxLawParameters);
-  ToLawParams(law, u.x.data(), delta_ref, x_params.data());
-  x_params.resize(ParameterCount(law));
-  result.params = x_params;
-  result.onset_height_fitted = onset_free;
-  result.onset_height_m = onset_free ? u.onset : clips[windows.front().clip].known_onset_height_m.value();
-  for (const WindowRef& ref : windows) result.samples += static_cast<int>(ref.window->t_s.size());
-  result.free_parameters = dim + (onset_free ? 1 : 0) + 2 * static_cast<int>(windows.size());
-  const double rss = 2.0 * summary.final_cost * scale_m * scale_m;
-  const int n = result.samples;
-  result.rms_residual_m = std::sqrt(rss / n);
-  result.bic = n * std::log(std::max(rss, 1e-300) / n) + result.free_parameters * std::log(static_cast<double>(n));
-  const int dof = n - result.free_parameters;
-
-  // Covariance of the internal unknowns: law x, onset (if free), states.
-  std::vector<const double*> blocks{u.x.data()};
-  std::vector<int> offsets{0};
-  int total = dim;
-  if (onset_free) {
-    blocks.push_back(&u.onset);
-    offsets.push_back(total);
-    total += 1;
-  }
-  const int state_offset = total;
-  for (auto& st : u.states) {
-    blocks.push_back(st.data());
-    offsets.push_back(total);
-    total += 2;
-  }
-  Eigen::MatrixXd cov = Eigen::MatrixXd::Constant(total, total, kNaN);
-  std::vector<bool> undetermined(total, false);
-  bool have_cov = false;
-  if (dof > 0) {
-    const double s2 = 2.0 * summary.final_cost / dof;  // in units of scale_m^2, as the Jacobian
-    ceres::Covariance::Options copt;
-    copt.algorithm_type = ceres::DENSE_SVD;
-    copt.min_reciprocal_condition_number = 1e-14;
-    copt.null_space_rank = 0;
-    copt.apply_loss_function = false;
-    copt.num_threads = 1;
-    ceres::Covariance covariance(copt);
-    Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> c(total, total);
-    if (covariance.Compute(blocks, best->problem.get()) && covariance.GetCovarianceMatrix(blocks, c.data())) {
-      cov = s2 * c;
-      have_cov = true;
-    } else {
-      // Rank-deficient: pseudo-inverse of the column-scaled J^T J, with the parameters that
-      // have weight in the null space marked undetermined (infinite SD).
-      ceres::Problem::EvaluateOptions eo;
-      std::vector<double*> mutable_blocks;
-      for (const double* b : blocks) mutable_blocks.push_back(const_cast<double*>(b));
-      eo.parameter_blocks = mutable_blocks;
-      ceres::CRSMatrix crs;
-      if (best->problem->Evaluate(eo, nullptr, nullptr, nullptr, &crs)) {
-        Eigen::MatrixXd j = Eigen::MatrixXd::Zero(crs.num_rows, crs.num_cols);
-        for (int r = 0; r < crs.num_rows; ++r)
-          for (int k = crs.rows[r]; k < crs.rows[r + 1]; ++k) j(r, crs.cols[k]) = crs.values[k];
-        Eigen::VectorXd norms = j.colwise().norm();
-        for (int i = 0; i < total; ++i) norms[i] = norms[i] > 0.0 ? norms[i] : 1.0;
-        const Eigen::MatrixXd js = j * norms.cwiseInverse().asDiagonal();
-        Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(js.transpose() * js);
-        const Eigen::VectorXd& ev = eig.eigenvalues();
-        const double cutoff = 1e-12 * ev.maxCoeff();
-        Eigen::MatrixXd pinv = Eigen::MatrixXd::Zero(total, total);
-        for (int k = 0; k < total; ++k) {
-          const Eigen::VectorXd vk = eig.eigenvectors().col(k);
-          if (ev[k] > cutoff) {
-            pinv += vk * vk.transpose() / ev[k];
-          } else {
-            for (int i = 0; i < total; ++i)
-              if (vk[i] * vk[i] > 1e-6) undetermined[i] = true;
-          }
-        }
-        cov = s2 * norms.cwiseInverse().asDiagonal() * pinv * norms.cwiseInverse().asDiagonal();
-        for (int i = 0; i < total; ++i) {
-          if (!undetermined[i]) continue;
-          cov.row(i).setConstant(kNaN);
-          cov.col(i).setConstant(kNaN);
-          cov(i, i) = kInf;
-        }
-        have_cov = true;
-        result.warnings.push_back(
-            "the data do not determine every unknown (rank-deficient Jacobian): "
-            "their SDs are reported as infinite");
-      }
-    }
-    // s2 is in units of scale_m^2 and the Jacobian in 1/scale_m: the product is in metres.
-  } else {
-    result.warnings.push_back("no more samples than unknowns: no uncertainty can be estimated");
-  }
-
-  // Law parameter covariance by propagation.
-  const int np = ParameterCount(law);
-  const Eigen::MatrixXd g = LawParamJacobian(law, result.params, delta_ref);
-  Eigen::MatrixXd cov_x = cov.topLeftCorner(dim, dim);
-  Eigen::MatrixXd cov_p = Eigen::MatrixXd::Constant(np, np, kNaN);
-  if (have_cov) {
-    bool any_undetermined = false;
-    for (int i = 0; i < dim; ++i) any_undetermined = any_undetermined || undetermined[i];
-    if (!any_undetermined) {
-      cov_p = g * cov_x * g.transpose();
-    } else {
-      for (int i = 0; i < np; ++i) {
-        bool touches = false;
-        for (int j = 0; j < dim; ++j) touches = touches || (g(i, j) != 0.0 && undetermined[j]);
-        cov_p(i, i) = touches ? kInf : (g.row(i) * cov_x.unaryExpr([](double v) {
-          return std::isfinite(v) ? v : 0.0;
-        }) * g.row(i).transpose())(0, 0);
-      }
-    }
-  }
-  result.param_sd.resize(np);
-  result.param_covariance.assign(np, std::vector<double>(np, kNaN));
-  for (int i = 0; i < np; ++i) {
-    result.param_sd[i] = have_cov ? std::sqrt(std::max(0.0, cov_p(i, i))) : kInf;
-    if (std::isnan(cov_p(i, i))) result.param_sd[i] = kInf;
-    for (int j = 0; j < np; ++j) result.param_covariance[i][j] = cov_p(i, j);
-  }
-  if (law == LawId::kHertz) result.param_sd[1] = 0.0;  // fixed exponent
-  result.onset_height_sd_m = onset_free ? (have_cov ? std::sqrt(cov(dim, dim)) : kInf) : 0.0;
-
-  // Per-bounce figures, curves, and their SDs.
+  ReportSolution(in, *best, &result);
+  const int dof = result.samples - result.free_parameters;
+  const InternalCovariance cov =
+      ComputeInternalCovariance(*best, InternalDim(law), start.onset_free, dof, &result.warnings);
+  ReportParameterUncertainty(in, cov, &result);
   std::vector<double> max_deflections;
   for (size_t i = 0; i < windows.size(); ++i) {
-    const WindowRef& ref = windows[i];
-    const FitClip& clip = clips[ref.clip];
-    const FitWindow& w = *ref.window;
-    ContactSetup setup;
-    setup.law = law;
-    setup.tread = options.tread;
-    setup.mass_kg = clip.mass_kg;
-    setup.gravity_mps2 = options.gravity_mps2;
-    const double onset = clip.known_onset_height_m.value_or(u.onset);
-    const double end_s = w.t_s.back() + 0.05;
-    const WindowSimulation sim = SimulateWindow(setup, result.params, onset, w.start_time_s, u.states[i][0],
-                                                u.states[i][1], end_s, options.model);
-    BounceFitFigures f;
-    f.clip_index = ref.clip;
-    f.bounce_index = w.bounce_index;
-    f.start_height_m = u.states[i][0];
-    f.start_velocity_mps = u.states[i][1];
-    f.samples = static_cast<int>(w.t_s.size());
-    double ss = 0.0;
-    for (size_t k = 0; k < w.t_s.size(); ++k) {
-      if (w.y_m[k] < onset) ++f.contact_samples;
-      if (sim.ok) {
-        const double r = sim.trajectory.HeightAt(w.t_s[k]) - w.y_m[k];
-        ss += r * r;
-      }
-    }
-    f.rms_residual_m = sim.ok ? std::sqrt(ss / f.samples) : kNaN;
-    if (sim.ok) {
-      const ImpactTruth& t = sim.impact;
-      f.t_contact_s = t.t_contact_s;
-      f.t_separation_s = t.t_separation_s;
-      f.contact_duration_s = t.contact_duration_s;
-      f.peak_force_n = t.peak_force_n;
-      f.max_deflection_m = t.max_deflection_m;
-      f.impact_speed_mps = t.impact_speed_mps;
-      f.rebound_speed_mps = t.rebound_speed_mps;
-      f.cor = t.cor;
-      f.separation_speed_mps = t.separation_speed_mps;
-      max_deflections.push_back(t.max_deflection_m);
-      // Force-deflection curve over the contact.
-      ForceDeflectionCurve curve;
-      curve.clip_index = ref.clip;
-      curve.bounce_index = w.bounce_index;
-      const double t_end = std::isfinite(t.t_separation_s) ? t.t_separation_s : t.t_contact_s + 0.0;
-      for (int k = 0; k < options.curve_points && t_end > t.t_contact_s; ++k) {
-        const double tk = t.t_contact_s + (t_end - t.t_contact_s) * k / (options.curve_points - 1);
-        const HubState st = sim.trajectory.At(tk);
-        curve.t_s.push_back(tk);
-        curve.deflection_m.push_back(onset - st.y_m);
-        curve.force_n.push_back(st.contact_force_n);
-      }
-      result.curves.push_back(std::move(curve));
-    } else {
-      f.t_contact_s = f.t_separation_s = f.contact_duration_s = f.peak_force_n = f.max_deflection_m = kNaN;
-      f.impact_speed_mps = f.rebound_speed_mps = f.cor = f.separation_speed_mps = kNaN;
-      result.warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip +
-                                "': the fitted law gives no complete impact in the window");
-    }
-    f.t_separation_sd_s = f.contact_duration_sd_s = f.peak_force_sd_n = f.max_deflection_sd_m = f.cor_sd = kNaN;
-    // SDs by central differences over (law x, onset if free, state of this window).
-    if (sim.ok && have_cov && options.figure_uncertainties) {
-      std::vector<int> idx;
-      for (int j = 0; j < dim; ++j) idx.push_back(j);
-      if (onset_free && !clip.known_onset_height_m) idx.push_back(dim);
-      idx.push_back(state_offset + 2 * static_cast<int>(i));
-      idx.push_back(state_offset + 2 * static_cast<int>(i) + 1);
-      const int m = static_cast<int>(idx.size());
-      Eigen::MatrixXd sub(m, m);
-      bool finite = true;
-      for (int a = 0; a < m; ++a)
-        for (int b = 0; b < m; ++b) {
-          sub(a, b) = cov(idx[a], idx[b]);
-          finite = finite && std::isfinite(sub(a, b));
-        }
-      if (finite) {
-        Eigen::MatrixXd jac = Eigen::MatrixXd::Zero(kPropagatedFigures, m);
-        bool ok = true;
-        for (int a = 0; a < m && ok; ++a) {
-          const double h = 1e-3 * std::sqrt(std::max(sub(a, a), 0.0));
-          if (!(h > 0.0)) continue;
-          std::array<std::array<double, kPropagatedFigures>, 2> val{};
-          for (int side = 0; side < 2; ++side) {
-            std::vector<double> xx = u.x;
-            double on = onset;
-            double y0 = u.states[i][0], v0 = u.states[i][1];
-            const double step = side == 0 ? h : -h;
-            const int k = idx[a];
-            if (k < dim)
-              xx[k] += step;
-            else if (k == dim && onset_free && !clip.known_onset_height_m)
-              on += step;
-            else if (k == idx[m - 2])
-              y0 += step;
-            else
-              v0 += step;
-            std::vector<double> pp(kMaxLawParameters);
-            ToLawParams(law, xx.data(), delta_ref, pp.data());
-            pp.resize(np);
-            const WindowSimulation sp = SimulateWindow(setup, pp, on, w.start_time_s, y0, v0, end_s, options.model);
-            if (!sp.ok) {
-              ok = false;
-              break;
-            }
-            val[side] = PropagatedFigures(sp.impact);
-          }
-          if (!ok) break;
-          for (int q = 0; q < kPropagatedFigures; ++q) jac(q, a) = (val[0][q] - val[1][q]) / (2.0 * h);
-        }
-        if (ok) {
-          const Eigen::MatrixXd fc = jac * sub * jac.transpose();
-          f.t_separation_sd_s = std::sqrt(std::max(0.0, fc(0, 0)));
-          f.contact_duration_sd_s = std::sqrt(std::max(0.0, fc(1, 1)));
-          f.peak_force_sd_n = std::sqrt(std::max(0.0, fc(2, 2)));
-          f.max_deflection_sd_m = std::sqrt(std::max(0.0, fc(3, 3)));
-          f.cor_sd = std::sqrt(std::max(0.0, fc(4, 4)));
-        }
-      } else {
-        f.t_separation_sd_s = f.contact_duration_sd_s = f.peak_force_sd_n = f.max_deflection_sd_m = f.cor_sd = kInf;
-      }
-    }
-    if (f.contact_samples < options.min_contact_samples) {
-      result.warnings.push_back("bounce " + std::to_string(w.bounce_index) + " of clip '" + clip.clip + "' has only " +
-                                std::to_string(f.contact_samples) +
-                                " samples in contact (below the onset height): the law is poorly determined by it");
-    }
-    result.figures.push_back(f);
+    result.figures.push_back(FiguresOfWindow(in, *best->unknowns, cov, i, &result, &max_deflections));
   }
-
-  if (law == LawId::kHuntCrossley && (result.params[1] < 1.0 + 1e-6 || result.params[1] > 4.0 - 1e-6)) {
-    result.warnings.push_back("the exponent n = " + FormatG(result.params[1]) +
-                              " sits on its bound [1, 4]: the law does not describe these data well");
-  }
-  // Degenerate-data warnings.
-  if (onset_free && windows.size() == 1) {
-    result.warnings.push_back(
-        "a single bounce with a fitted onset height: stiffness, exponent and onset height trade off "
-        "(an exponent is pinned only to a few tenths); read the SDs, or give free_radius_m with a floor");
-  }
-  const double typical_deflection = Median(max_deflections);
-  if (std::isfinite(typical_deflection) && result.rms_residual_m > 0.2 * typical_deflection) {
-    result.warnings.push_back("the residual RMS (" + FormatG(result.rms_residual_m) +
-                              " m) is comparable with the deflection (" + FormatG(typical_deflection) +
-                              " m): the law is not determined by these data");
-  }
-  for (int i = 0; i < np; ++i) {
-    if (law == LawId::kHertz && i == 1) continue;
-    const double rel = result.param_sd[i] / std::abs(result.params[i]);
-    if (!(rel <= 0.5)) {
-      result.warnings.push_back(result.param_names[i] + " = " + FormatG(result.params[i]) + " has an SD of " +
-                                FormatG(result.param_sd[i]) + ": not determined by the data");
-    }
-  }
+  AddDegenerateDataWarnings(in, max_deflections, &result);
   result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
   return result;
 }

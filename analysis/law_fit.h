@@ -33,6 +33,8 @@
 // nonlinear least squares, e.g. Seber & Wild, Nonlinear Regression, 1989, §2.1; common
 // practice). When J^T J is rank-deficient (a parameter the data do not determine, e.g. the
 // knee of a bilinear law that never bends), that parameter's SD is infinite, with a warning.
+// The linear-algebra steps (this fallback, the propagation, BIC) are declared for their
+// unit tests in analysis/law_fit_steps.h.
 //
 // Model choice. BIC = N ln(RSS / N) + p ln N (Schwarz 1978, Ann. Statist. 6:461-464, for
 // Gaussian errors with unknown variance), N the samples, p every fitted unknown (law
