@@ -650,7 +650,6 @@ std::optional<std::string> ValidateImpactOptions(const ImpactOptions& o) {
   return msg.str();
 }
 
-
 void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeightSource source,
                     Segmentation& segmentation) {
   if (!std::isfinite(onset_height_m) || !(onset_height_sd_m >= 0.0) || !std::isfinite(onset_height_sd_m))
