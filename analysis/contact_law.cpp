@@ -64,7 +64,7 @@ bool IsMultiplicativeDamping(LawId law) {
   return law == LawId::kHuntCrossley || law == LawId::kHertz || law == LawId::kVolumetric;
 }
 
-std::string ValidateLawParameters(LawId law, const std::vector<double>& params) {
+std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<double>& params) {
   const auto& names = ParameterNames(law);
   std::ostringstream message;
   message << ToString(law) << ": ";
@@ -78,7 +78,7 @@ std::string ValidateLawParameters(LawId law, const std::vector<double>& params) 
       return message.str();
     }
   }
-  auto fail = [&](std::size_t i, const char* requirement) {
+  auto fail = [&](std::size_t i, const char* requirement) -> std::optional<std::string> {
     message << names[i] << " = " << params[i] << " " << requirement;
     return message.str();
   };
@@ -108,7 +108,7 @@ std::string ValidateLawParameters(LawId law, const std::vector<double>& params) 
       if (!(params[1] >= 0.0)) return fail(1, "must not be negative");
       break;
   }
-  return "";
+  return std::nullopt;
 }
 
 }  // namespace dropfit::analysis

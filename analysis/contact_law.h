@@ -16,6 +16,7 @@
 //   volumetric     F = kv V(delta) (1 + a delta_dot)               kv_n_per_m3, a_s_per_m
 //                  (Gonthier et al. 2004; V the interpenetration volume of the tread)
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -68,7 +69,7 @@ int ParameterCount(LawId law);
 
 // Empty string when the parameters are valid for the law; otherwise a message naming the
 // law, the parameter and its value, e.g. "hunt-crossley: n = 7 is outside [1, 4]".
-std::string ValidateLawParameters(LawId law, const std::vector<double>& params);
+std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<double>& params);
 
 // The law's force before clamping, F_raw(delta, delta_dot) in newtons, for delta > 0.
 // For delta <= 0 it returns a smooth odd continuation (the power-law and volumetric terms

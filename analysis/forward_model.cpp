@@ -7,7 +7,7 @@
 
 namespace dropfit::analysis {
 
-std::string Validate(const ContactSetup& setup) {
+std::optional<std::string> Validate(const ContactSetup& setup) {
   std::ostringstream message;
   if (!(setup.mass_kg > 0.0 && setup.mass_kg <= 1e4)) {
     message << "mass_kg = " << setup.mass_kg << " is outside (0, 1e4] kg";
@@ -16,10 +16,11 @@ std::string Validate(const ContactSetup& setup) {
   } else if (setup.law == LawId::kVolumetric) {
     return Validate(setup.tread);
   }
+  if (message.str().empty()) return std::nullopt;
   return message.str();
 }
 
-std::string Validate(const ForwardModelOptions& options) {
+std::optional<std::string> Validate(const ForwardModelOptions& options) {
   std::ostringstream message;
   if (!(options.relative_tolerance >= 1e-14 && options.relative_tolerance <= 1e-3)) {
     message << "relative_tolerance = " << options.relative_tolerance << " is outside [1e-14, 1e-3]";
@@ -34,14 +35,13 @@ std::string Validate(const ForwardModelOptions& options) {
   } else if (options.max_impacts < 1) {
     message << "max_impacts = " << options.max_impacts << " is below 1";
   }
+  if (message.str().empty()) return std::nullopt;
   return message.str();
 }
 
-std::string Validate(const DropScenario& scenario) {
-  std::string message = Validate(scenario.setup);
-  if (!message.empty()) return message;
-  message = ValidateLawParameters(scenario.setup.law, scenario.law_params);
-  if (!message.empty()) return message;
+std::optional<std::string> Validate(const DropScenario& scenario) {
+  if (auto message = Validate(scenario.setup)) return message;
+  if (auto message = ValidateLawParameters(scenario.setup.law, scenario.law_params)) return message;
   std::ostringstream out;
   const double values[] = {scenario.onset_height_m,     scenario.start_time_s,         scenario.start_height_m,
                            scenario.start_velocity_mps, scenario.end_time_s,           scenario.start_x_m,
@@ -59,6 +59,7 @@ std::string Validate(const DropScenario& scenario) {
     out << "drop scenario: end_time_s = " << scenario.end_time_s
         << " must be after start_time_s = " << scenario.start_time_s;
   }
+  if (out.str().empty()) return std::nullopt;
   return out.str();
 }
 
@@ -278,9 +279,9 @@ HubState Trajectory::At(double t_s) const {
 }
 
 Trajectory SimulateDrop(const DropScenario& scenario, const ForwardModelOptions& options) {
-  std::string message = Validate(scenario);
-  if (message.empty()) message = Validate(options);
-  if (!message.empty()) throw std::invalid_argument(message + "; fix the drop scenario");
+  std::optional<std::string> message = Validate(scenario);
+  if (!message) message = Validate(options);
+  if (message) throw std::invalid_argument(*message + "; fix the drop scenario");
   Trajectory trajectory;
   trajectory.scenario_ = scenario;
   trajectory.start_time_s_ = scenario.start_time_s;

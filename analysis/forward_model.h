@@ -41,6 +41,7 @@
 //     differentiable with ceres::Jet through flights, contact and separation.
 
 #include <limits>
+#include <optional>
 #include <string>
 #include <type_traits>
 #include <vector>
@@ -64,7 +65,7 @@ struct ContactSetup {
 };
 
 // Empty when valid, else a message naming the offending field and value.
-std::string Validate(const ContactSetup& setup);
+std::optional<std::string> Validate(const ContactSetup& setup);
 
 // Numerical settings.
 //   relative_tolerance         DP5(4) local error tolerance relative to |state|; [1e-14, 1e-3].
@@ -94,7 +95,7 @@ struct ForwardModelOptions {
 };
 
 // Empty when valid, else a message naming the offending field and value.
-std::string Validate(const ForwardModelOptions& options);
+std::optional<std::string> Validate(const ForwardModelOptions& options);
 
 // ---------------------------------------------------------------------------------------
 // Double API: a whole drop.
@@ -127,7 +128,7 @@ struct DropScenario {
 };
 
 // Empty when valid (setup, params, finite numbers, end after start), else a message.
-std::string Validate(const DropScenario& scenario);
+std::optional<std::string> Validate(const DropScenario& scenario);
 
 // Truth figures of one impact (contract "Impact figures"); NaN where not defined.
 //   t_contact_s          the hub falls through the onset height (closed form).

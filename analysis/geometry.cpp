@@ -73,7 +73,7 @@ TreadShape TreadShapeFromString(const std::string& text) {
   throw std::invalid_argument("unknown tread shape '" + text + "'; valid: cylinder, torus");
 }
 
-std::string Validate(const TreadGeometry& geometry) {
+std::optional<std::string> Validate(const TreadGeometry& geometry) {
   std::ostringstream message;
   if (!(geometry.free_radius_m > 0.0 && geometry.free_radius_m <= 10.0)) {
     message << "tread geometry: free_radius_m = " << geometry.free_radius_m << " is outside (0, 10] m";
@@ -85,6 +85,7 @@ std::string Validate(const TreadGeometry& geometry) {
     message << "tread geometry: section_radius_m = " << geometry.section_radius_m
             << " must be positive and below free_radius_m = " << geometry.free_radius_m;
   }
+  if (message.str().empty()) return std::nullopt;
   return message.str();
 }
 
@@ -93,8 +94,8 @@ void AttachTorusTable(TreadGeometry& geometry) {
     geometry.torus_table.reset();
     return;
   }
-  const std::string problem = Validate(geometry);
-  if (!problem.empty()) throw std::invalid_argument(problem + "; fix the tread geometry before tabulating it");
+  if (const auto problem = Validate(geometry))
+    throw std::invalid_argument(*problem + "; fix the tread geometry before tabulating it");
   constexpr int kIntervals = 64;
   auto table = std::make_shared<TorusVolumeTable>();
   table->centre_radius_m = geometry.free_radius_m - geometry.section_radius_m;

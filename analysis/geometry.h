@@ -29,6 +29,7 @@
 
 #include <cmath>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -73,7 +74,7 @@ struct TreadGeometry {
 void AttachTorusTable(TreadGeometry& geometry);
 
 // Empty string when valid, otherwise a message naming the offending field and value.
-std::string Validate(const TreadGeometry& geometry);
+std::optional<std::string> Validate(const TreadGeometry& geometry);
 
 // The geometry the volumetric law uses for a manifest row, following the contract:
 // a torus when section_radius_m > 0 (wins over the width), else a cylinder of the given

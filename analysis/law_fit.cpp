@@ -210,7 +210,7 @@ WindowSimulation SimulateWindow(const ContactSetup& setup, const std::vector<dou
   scenario.start_height_m = y0_m;
   scenario.start_velocity_mps = v0_mps;
   scenario.end_time_s = end_s;
-  if (!Validate(scenario).empty()) return out;
+  if (Validate(scenario)) return out;
   try {
     out.trajectory = SimulateDrop(scenario, model);
   } catch (const std::exception&) {
@@ -832,10 +832,10 @@ std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& o) {
     m << "curve_points = " << o.curve_points << " is outside [2, 10000]";
   else if (o.min_contact_samples < 1 || o.min_contact_samples > 1000)
     m << "min_contact_samples = " << o.min_contact_samples << " is outside [1, 1000]";
-  else if (const std::string e = Validate(o.model); !e.empty())
-    m << e;
-  else if (const std::string e2 = Validate(o.tread); !e2.empty())
-    m << "tread: " << e2;
+  else if (const auto e = Validate(o.model))
+    m << *e;
+  else if (const auto e2 = Validate(o.tread))
+    m << "tread: " << *e2;
   if (m.str().empty()) return std::nullopt;
   return m.str();
 }

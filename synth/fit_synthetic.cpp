@@ -86,7 +86,7 @@ analysis::TimeSeries MakeSyntheticTrack(const analysis::Trajectory& truth, int f
 SyntheticClip MakeSyntheticClip(const std::string& name, const analysis::DropScenario& scenario,
                                 const SyntheticClipOptions& options) {
   if (const auto e = ValidateSyntheticClipOptions(options)) throw std::invalid_argument("MakeSyntheticClip: " + *e);
-  if (const std::string e = Validate(scenario); !e.empty()) throw std::invalid_argument("MakeSyntheticClip: " + e);
+  if (const auto e = analysis::Validate(scenario)) throw std::invalid_argument("MakeSyntheticClip: " + *e);
   SyntheticClip out{analysis::FitClip{}, analysis::SimulateDrop(scenario)};
   const analysis::Trajectory& truth = out.truth;
   const double g = scenario.setup.gravity_mps2;

@@ -351,8 +351,7 @@ std::optional<std::string> ValidateRenderOptions(const RenderOptions& o) {
   if (auto msg = ValidateWheelLook(plan.wheel)) return "wheel: " + *msg;
   if (auto msg = ValidateExposure(plan.exposure, o.fps)) return "sensor: " + *msg;
   if (auto msg = ValidateCheckerboard(plan.board)) return "--board/--square: " + *msg;
-  const std::string tread = analysis::Validate(plan.tread);
-  if (!tread.empty()) return "tread: " + tread;
+  if (const auto tread = analysis::Validate(plan.tread)) return "tread: " + *tread;
   return std::nullopt;
 }
 

@@ -88,7 +88,7 @@ TEST(ContactLaw, ForceIsDifferentiableWithJetsIncludingTheExponent) {
 }
 
 TEST(ContactLaw, InvalidParametersAreNamedWithTheirValue) {
-  EXPECT_EQ(ValidateLawParameters(LawId::kKelvinVoigt, {2e5, 300}), "");
+  EXPECT_EQ(ValidateLawParameters(LawId::kKelvinVoigt, {2e5, 300}), std::nullopt);
   EXPECT_EQ(ValidateLawParameters(LawId::kHuntCrossley, {1e7, 7, 0.2}), "hunt-crossley: n = 7 is outside [1, 4]");
   EXPECT_EQ(ValidateLawParameters(LawId::kHertz, {1e7, 1.4, 0.2}),
             "hertz: n = 1.4 must be 1.5 (fixed for the hertz law)");

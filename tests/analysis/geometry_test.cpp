@@ -116,7 +116,7 @@ TEST(Geometry, ManifestGeometryFollowsTheContract) {
   EXPECT_EQ(unit.shape, TreadShape::kCylinder);
   EXPECT_DOUBLE_EQ(unit.tread_width_m, 1.0);
   EXPECT_NE(unit.note.find("assumed a cylinder of unit width"), std::string::npos) << unit.note;
-  EXPECT_TRUE(Validate(unit).empty());
+  EXPECT_FALSE(Validate(unit).has_value());
   EXPECT_THROW(MakeTreadGeometry(0.3, 0.0, 0.4), std::invalid_argument);
   EXPECT_EQ(TreadShapeFromString(ToString(TreadShape::kTorus)), TreadShape::kTorus);
   try {
