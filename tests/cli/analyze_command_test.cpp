@@ -5,10 +5,8 @@
 
 #include <gtest/gtest.h>
 
-#include <chrono>
 #include <cmath>
 #include <filesystem>
-#include <random>
 #include <string>
 
 #include "cli/clip_records.h"
@@ -18,6 +16,7 @@
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
 #include "synth/camera.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -36,17 +35,6 @@ constexpr double kLawPeakForceRelTolerance = 0.03;
 
 class AnalyzeCommandTest : public ::testing::Test {
  protected:
-  void SetUp() override {
-    const auto stamp = std::chrono::steady_clock::now().time_since_epoch().count();
-    dir_ = fs::temp_directory_path() /
-           ("dropfit_analyze_test_" + std::to_string(stamp) + "_" + std::to_string(std::random_device{}()));
-    fs::create_directories(dir_);
-  }
-  void TearDown() override {
-    std::error_code ec;
-    fs::remove_all(dir_, ec);
-  }
-
   // A short, small clip of one drop from 0.08 m (the fall, the first contact and the rebound
   // to its apex) under the renderer's reference noise and blur; half the default image size
   // and focal length (same view, 2x larger pixels) to keep the test to seconds.
@@ -78,7 +66,8 @@ class AnalyzeCommandTest : public ::testing::Test {
     return o;
   }
 
-  fs::path dir_;
+  const test::TempDir tmp_{"analyze_test"};
+  const fs::path dir_ = tmp_.path();
 };
 
 TEST_F(AnalyzeCommandTest, AReferenceClipGivesTheTrueFiguresWithinTheReferenceTolerances) {

@@ -4,9 +4,11 @@
 
 #include <gtest/gtest.h>
 
+#include <filesystem>
 #include <fstream>
-#include <random>
 #include <sstream>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -20,16 +22,11 @@ std::string ReadAll(const std::filesystem::path& p) {
 
 class AtomicWriteTest : public ::testing::Test {
  protected:
-  void SetUp() override {
-    std::random_device rd;
-    dir_ = std::filesystem::temp_directory_path() / ("dropfit_atomic_" + std::to_string(rd()));
-    std::filesystem::create_directories(dir_);
-  }
-  void TearDown() override { std::filesystem::remove_all(dir_); }
   size_t FilesInFolder() const {
     return static_cast<size_t>(std::distance(std::filesystem::directory_iterator(dir_), {}));
   }
-  std::filesystem::path dir_;
+  const test::TempDir tmp_{"atomic"};
+  const std::filesystem::path dir_ = tmp_.path();
 };
 
 TEST_F(AtomicWriteTest, WritesAndReplacesAFile) {

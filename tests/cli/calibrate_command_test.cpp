@@ -6,7 +6,6 @@
 #include <gtest/gtest.h>
 #include <opencv2/imgcodecs.hpp>
 
-#include <chrono>
 #include <filesystem>
 #include <fstream>
 #include <iostream>
@@ -19,6 +18,7 @@
 #include "media/files.h"
 #include "synth/render_calibration.h"
 #include "tests/support/synthetic_board.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -40,13 +40,19 @@ struct Fixture {
   cv::Vec3d plane_rvec, plane_tvec;
 };
 
+// The fixture's folder, shared by all tests and removed when the test program ends.
+const fs::path& FixtureFolder() {
+  static const test::TempDir dir("calibrate_command_test");
+  return dir.path();
+}
+
 // Renders 5 lens views into <dir>/views and the plane view into <dir>/plane.png, once.
 const Fixture& TheFixture() {
   static const Fixture f = [] {
     Fixture fx;
     std::mt19937_64 rng(7);
-    fx.dir = fs::temp_directory_path() / ("dropfit_calibrate_command_test_" + std::to_string(rng()) + "_" +
-                                          std::to_string(std::chrono::steady_clock::now().time_since_epoch().count()));
+    rng.discard(1);  // the first draw once named the folder; skipping it keeps the rendered views' noise
+    fx.dir = FixtureFolder();
     fs::create_directories(fx.dir / "views");
     const double poses[][6] = {{300, 230, 0.5, 0.45, -0.35, 0.1},
                                {720, 230, 0.5, 0.45, 0.35, -0.1},
@@ -70,17 +76,6 @@ const Fixture& TheFixture() {
   }();
   return f;
 }
-
-// Removes the fixture's folder after the last test (gtest owns the environment object).
-class RemoveFixtureFolder : public ::testing::Environment {
- public:
-  void TearDown() override {
-    std::error_code ec;
-    fs::remove_all(TheFixture().dir, ec);
-  }
-};
-[[maybe_unused]] ::testing::Environment* const kRemoveFixtureFolder =
-    ::testing::AddGlobalTestEnvironment(new RemoveFixtureFolder);
 
 struct CommandRun {
   int status;

@@ -19,13 +19,11 @@
 #include <opencv2/imgproc.hpp>
 #include <opencv2/videoio.hpp>
 
-#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
 #include <map>
-#include <random>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -38,6 +36,7 @@
 #include "cli/run_command.h"
 #include "cli/truth_io.h"
 #include "synth/camera.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -139,10 +138,16 @@ struct Corpus {
   Summary summary;
 };
 
+// The corpus's folder, shared by all tests and removed when the test program ends.
+const fs::path& CorpusFolder() {
+  static const test::TempDir dir("fault_corpus");
+  return dir.path();
+}
+
 const Corpus& TheCorpus() {
   static const Corpus corpus = [] {
     Corpus c;
-    c.dir = fs::temp_directory_path() / ("dropfit_fault_corpus_" + std::to_string(std::random_device{}()));
+    c.dir = CorpusFolder();
     c.clips = c.dir / "clips";
     c.rig = c.dir / "rig.json";
     c.out = c.dir / "out";
@@ -239,16 +244,6 @@ const Corpus& TheCorpus() {
   }();
   return corpus;
 }
-
-class RemoveCorpusFolder : public ::testing::Environment {
- public:
-  void TearDown() override {
-    std::error_code ec;
-    fs::remove_all(TheCorpus().dir, ec);
-  }
-};
-[[maybe_unused]] ::testing::Environment* const kRemoveCorpusFolder =
-    ::testing::AddGlobalTestEnvironment(new RemoveCorpusFolder);
 
 std::vector<std::string> MessagesOf(const std::vector<ClipMessage>& list, const std::string& clip) {
   std::vector<std::string> out;

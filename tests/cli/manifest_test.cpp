@@ -6,8 +6,10 @@
 
 #include <gtest/gtest.h>
 
+#include <filesystem>
 #include <fstream>
-#include <random>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -15,13 +17,9 @@ namespace {
 class ManifestTest : public ::testing::Test {
  protected:
   void SetUp() override {
-    std::random_device rd;
-    dir_ = std::filesystem::temp_directory_path() / ("dropfit_manifest_" + std::to_string(rd()));
-    std::filesystem::create_directories(dir_);
     for (const char* name : {"a.avi", "b.avi", "c.mov"}) std::ofstream(dir_ / name) << "x";
     std::filesystem::create_directories(dir_ / "seq_01");
   }
-  void TearDown() override { std::filesystem::remove_all(dir_); }
   Manifest Parse(const std::string& text) { return ParseManifest(text, dir_, "m.csv"); }
   std::string StructureError(const std::string& text) {
     try {
@@ -31,7 +29,8 @@ class ManifestTest : public ::testing::Test {
     }
     return "(no error)";
   }
-  std::filesystem::path dir_;
+  const test::TempDir tmp_{"manifest"};
+  const std::filesystem::path dir_ = tmp_.path();
 };
 
 TEST_F(ManifestTest, ReadsEveryColumnOfAGoodManifest) {

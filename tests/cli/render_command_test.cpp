@@ -11,25 +11,18 @@
 
 #include <filesystem>
 #include <fstream>
-#include <random>
 #include <sstream>
 
 #include "cli/exit_status.h"
 #include "cli/manifest.h"
 #include "cli/rig_io.h"
 #include "cli/truth_io.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
 
 namespace fs = std::filesystem;
-
-fs::path MakeTempDir(const std::string& name) {
-  std::random_device rd;
-  const fs::path dir = fs::temp_directory_path() / ("dropfit_render_cmd_" + name + "_" + std::to_string(rd()));
-  fs::create_directories(dir);
-  return dir;
-}
 
 std::string ReadAll(const fs::path& path) {
   std::ifstream in(path, std::ios::binary);
@@ -55,7 +48,8 @@ RenderCommandOptions Quick(const fs::path& out) {
 }
 
 TEST(RenderCommand, WritesAContractManifestAndMjpgClipsThatReadBackFrameByFrame) {
-  const fs::path dir = MakeTempDir("manifest");
+  const test::TempDir tmp("render_cmd_manifest");
+  const fs::path& dir = tmp.path();
   RenderCommandOptions o = Quick(dir);
   o.repeats = 2;
   ASSERT_EQ(RunRender(o), kExitDone);
@@ -97,11 +91,11 @@ TEST(RenderCommand, WritesAContractManifestAndMjpgClipsThatReadBackFrameByFrame)
   const cv::Point2d p = calib::PlaneFromImage(rig, {f.u_px, f.v_px});
   EXPECT_NEAR(p.x, f.x_m, 1e-8);
   EXPECT_NEAR(p.y, f.y_m, 1e-8);
-  fs::remove_all(dir);
 }
 
 TEST(RenderCommand, SameSeedWritesIdenticalFilesAndAnotherSeedDoesNot) {
-  const fs::path a = MakeTempDir("seed_a"), b = MakeTempDir("seed_b"), c = MakeTempDir("seed_c");
+  const test::TempDir tmp_a("render_cmd_seed_a"), tmp_b("render_cmd_seed_b"), tmp_c("render_cmd_seed_c");
+  const fs::path &a = tmp_a.path(), &b = tmp_b.path(), &c = tmp_c.path();
   RenderCommandOptions o = Quick(a);
   o.heights_m = {0.15};
   ASSERT_EQ(RunRender(o), kExitDone);
@@ -114,11 +108,11 @@ TEST(RenderCommand, SameSeedWritesIdenticalFilesAndAnotherSeedDoesNot) {
   EXPECT_EQ(ReadAll(a / clip), ReadAll(b / clip));
   EXPECT_EQ(ReadAll(a / "truth.json"), ReadAll(b / "truth.json"));
   EXPECT_NE(ReadAll(a / clip), ReadAll(c / clip));
-  for (const fs::path& d : {a, b, c}) fs::remove_all(d);
 }
 
 TEST(RenderCommand, BadOptionsWriteNothingAndSayWhatIsWrong) {
-  const fs::path dir = MakeTempDir("bad") / "out";
+  const test::TempDir tmp("render_cmd_bad");
+  const fs::path dir = tmp.path() / "out";
   RenderCommandOptions o = Quick(dir);
   o.params = {"k_n_per_m=4e4", "stiffness=3"};
   EXPECT_EQ(*ValidateRenderOptions(o),
@@ -132,7 +126,6 @@ TEST(RenderCommand, BadOptionsWriteNothingAndSayWhatIsWrong) {
   o = Quick(dir);
   o.format = "gif";
   EXPECT_EQ(*ValidateRenderOptions(o), "unknown video format 'gif'; valid: mjpg, ffv1, h264, png, auto");
-  fs::remove_all(dir.parent_path());
 }
 
 TEST(RenderCommand, CommittedDemoSetIsWhatItsRecordedCommandRenders) {
@@ -143,7 +136,8 @@ TEST(RenderCommand, CommittedDemoSetIsWhatItsRecordedCommandRenders) {
   // Re-render every clip's first frames (and none of the calibration images) from the recorded
   // options; the clips' planning (release, impacts) is the full one.
   RenderCommandOptions o = RenderOptionsFromRecord(committed.options);
-  const fs::path dir = MakeTempDir("demo");
+  const test::TempDir tmp("render_cmd_demo");
+  const fs::path& dir = tmp.path();
   o.out_dir = dir.string();
   o.first_frames = 3;
   o.calibration = false;
@@ -182,7 +176,6 @@ TEST(RenderCommand, CommittedDemoSetIsWhatItsRecordedCommandRenders) {
     ASSERT_TRUE(capture.isOpened()) << b.clip;
     EXPECT_EQ(static_cast<size_t>(capture.get(cv::CAP_PROP_FRAME_COUNT)), b.frames.size()) << b.clip;
   }
-  fs::remove_all(dir);
 }
 
 }  // namespace

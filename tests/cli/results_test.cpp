@@ -5,9 +5,11 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <filesystem>
 #include <fstream>
-#include <random>
 #include <sstream>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -21,13 +23,8 @@ std::string ReadAll(const std::filesystem::path& p) {
 
 class ResultsTest : public ::testing::Test {
  protected:
-  void SetUp() override {
-    std::random_device rd;
-    dir_ = std::filesystem::temp_directory_path() / ("dropfit_results_" + std::to_string(rd()));
-    std::filesystem::create_directories(dir_);
-  }
-  void TearDown() override { std::filesystem::remove_all(dir_); }
-  std::filesystem::path dir_;
+  const test::TempDir tmp_{"results"};
+  const std::filesystem::path dir_ = tmp_.path();
 };
 
 TEST_F(ResultsTest, TrackCsvRoundTripsAndLeavesLostFramesEmpty) {

@@ -4,12 +4,12 @@
 
 #include <gtest/gtest.h>
 
-#include <chrono>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
-#include <random>
 #include <string>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -18,13 +18,6 @@ namespace fs = std::filesystem;
 
 // The JSON writer prints doubles with 17 significant digits, so a round trip is exact.
 constexpr double kExactTol = 0.0;
-
-fs::path MakeTempDir() {
-  std::mt19937_64 rng(static_cast<unsigned long>(std::chrono::steady_clock::now().time_since_epoch().count()));
-  const fs::path dir = fs::temp_directory_path() / ("dropfit_rig_io_test_" + std::to_string(rng()));
-  fs::create_directories(dir);
-  return dir;
-}
 
 calib::Rig MakeRig() {
   calib::Rig rig;
@@ -65,7 +58,8 @@ std::string ErrorOf(const std::string& text) {
 }
 
 TEST(RigIo, AWrittenRigReadsBackWithTheSameMappingAndFields) {
-  const fs::path dir = MakeTempDir();
+  const test::TempDir tmp("rig_io_test");
+  const fs::path& dir = tmp.path();
   const calib::Rig rig = MakeRig();
   WriteRigFile(dir / "rig.json", rig);
   const calib::Rig back = ReadRigFile(dir / "rig.json");
@@ -94,7 +88,6 @@ TEST(RigIo, AWrittenRigReadsBackWithTheSameMappingAndFields) {
   // The mapping itself: same plane point for the same pixel.
   const cv::Point2d a = calib::PlaneFromImage(rig, {100, 700}), b = calib::PlaneFromImage(back, {100, 700});
   EXPECT_EQ(a, b);
-  fs::remove_all(dir);
 }
 
 TEST(RigIo, ARigWithoutLensOrFloorRoundTrips) {
@@ -210,7 +203,8 @@ TEST(RigIo, JsonNestedDeeperThanARigFileIsRefused) {
 }
 
 TEST(RigIo, AMissingFileIsNamed) {
-  const fs::path dir = MakeTempDir();
+  const test::TempDir tmp("rig_io_test");
+  const fs::path& dir = tmp.path();
   try {
     ReadRigFile(dir / "none.json");
     FAIL() << "no exception";
@@ -219,16 +213,15 @@ TEST(RigIo, AMissingFileIsNamed) {
         std::string(e.what()),
         (dir / "none.json").string() + ": cannot open the rig file (no such file); make one with `dropfit calibrate`");
   }
-  fs::remove_all(dir);
 }
 
 TEST(RigIo, AnInvalidRigIsNotWritten) {
-  const fs::path dir = MakeTempDir();
+  const test::TempDir tmp("rig_io_test");
+  const fs::path& dir = tmp.path();
   calib::Rig rig = MakeRig();
   rig.plane_from_undistorted = cv::Matx33d::zeros();
   EXPECT_THROW(WriteRigFile(dir / "rig.json", rig), std::invalid_argument);
   EXPECT_FALSE(fs::exists(dir / "rig.json"));
-  fs::remove_all(dir);
 }
 
 }  // namespace

@@ -5,7 +5,6 @@
 #include <opencv2/imgproc.hpp>
 #include <opencv2/videoio.hpp>
 
-#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -16,6 +15,7 @@
 #include "cli/results.h"
 #include "cli/rig_io.h"
 #include "tests/support/synthetic_marker.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
 namespace {
@@ -36,20 +36,6 @@ std::string Name(const char* prefix, int n, const char* ext) {
   std::snprintf(buf, sizeof buf, "%s%d%s", prefix, n, ext);
   return buf;
 }
-
-struct TempDir {
-  fs::path path;
-  explicit TempDir(const std::string& name) {
-    const auto stamp = std::chrono::steady_clock::now().time_since_epoch().count();
-    path = fs::temp_directory_path() / ("dropfit_track_cmd_" + name);
-    path += Name("_", static_cast<int>(stamp % 1000000007), "");
-    fs::create_directories(path);
-  }
-  ~TempDir() {
-    std::error_code ec;
-    fs::remove_all(path, ec);
-  }
-};
 
 cv::Point2d PathAt(int f) { return {40.0 + 1.3 * f, 40.0 + 0.5 * f + 0.02 * f * f}; }
 
@@ -102,14 +88,14 @@ bool Contains(const std::vector<std::string>& list, const std::string& text) {
 }
 
 TEST(TrackCommand, VideoClipIsTrackedIntoTheContractsFiles) {
-  TempDir tmp("video");
-  WriteVideo(tmp.path / "drop_a.avi", Frames(40, 31));
-  TrackCommandOptions o = Options(tmp.path / "drop_a.avi", WriteRig(tmp.path), tmp.path / "out");
+  const test::TempDir tmp("track_cmd_video");
+  WriteVideo(tmp.path() / "drop_a.avi", Frames(40, 31));
+  TrackCommandOptions o = Options(tmp.path() / "drop_a.avi", WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
-  o.overlay_path = (tmp.path / "out" / "overlay.avi").string();
+  o.overlay_path = (tmp.path() / "out" / "overlay.avi").string();
   ASSERT_EQ(RunTrack(o), kExitDone);
 
-  const std::vector<TrackRow> rows = ReadTrackCsv(tmp.path / "out" / "track.csv");
+  const std::vector<TrackRow> rows = ReadTrackCsv(tmp.path() / "out" / "track.csv");
   ASSERT_EQ(rows.size(), 40u);
   double s2 = 0;
   for (const TrackRow& r : rows) {
@@ -123,7 +109,7 @@ TEST(TrackCommand, VideoClipIsTrackedIntoTheContractsFiles) {
   }
   EXPECT_LT(std::sqrt(s2 / 40), kRmsTargetPx);
 
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.clip, "drop_a");
   EXPECT_DOUBLE_EQ(res.capture_fps, kCaptureFps);
   EXPECT_EQ(res.capture_fps_source, "option");
@@ -131,16 +117,16 @@ TEST(TrackCommand, VideoClipIsTrackedIntoTheContractsFiles) {
   EXPECT_EQ(res.tracked_frames, 40);
   EXPECT_TRUE(res.errors.empty());
 
-  cv::VideoCapture overlay((tmp.path / "out" / "overlay.avi").string(), cv::CAP_FFMPEG);
+  cv::VideoCapture overlay((tmp.path() / "out" / "overlay.avi").string(), cv::CAP_FFMPEG);
   ASSERT_TRUE(overlay.isOpened());
   EXPECT_EQ(static_cast<int>(overlay.get(cv::CAP_PROP_FRAME_COUNT)), 40);
 }
 
 TEST(TrackCommand, ContainerPlaybackRateIsUsedWithAWarning) {
-  TempDir tmp("playback");
-  WriteVideo(tmp.path / "clip.avi", Frames(12, 32), 30.0);
-  ASSERT_EQ(RunTrack(Options(tmp.path / "clip.avi", WriteRig(tmp.path), tmp.path / "out")), kExitDone);
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const test::TempDir tmp("track_cmd_playback");
+  WriteVideo(tmp.path() / "clip.avi", Frames(12, 32), 30.0);
+  ASSERT_EQ(RunTrack(Options(tmp.path() / "clip.avi", WriteRig(tmp.path()), tmp.path() / "out")), kExitDone);
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.capture_fps_source, "container");
   EXPECT_NEAR(res.capture_fps, 30.0, 1e-6);
   EXPECT_TRUE(Contains(res.warnings, "looks like a playback rate")) << (res.warnings.empty() ? "" : res.warnings[0]);
@@ -148,14 +134,14 @@ TEST(TrackCommand, ContainerPlaybackRateIsUsedWithAWarning) {
 
 // Issue 9: a truncated file is used as far as it decodes, with a warning naming the last good frame.
 TEST(TrackCommand, TruncatedVideoIsTrackedAsFarAsItDecodesAndTheBreakIsReported) {
-  TempDir tmp("truncated");
-  const fs::path clip = tmp.path / "cut.avi";
+  const test::TempDir tmp("track_cmd_truncated");
+  const fs::path clip = tmp.path() / "cut.avi";
   WriteVideo(clip, Frames(60, 33));
   fs::resize_file(clip, fs::file_size(clip) * 6 / 10);
-  TrackCommandOptions o = Options(clip, WriteRig(tmp.path), tmp.path / "out");
+  TrackCommandOptions o = Options(clip, WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
   EXPECT_EQ(RunTrack(o), kExitDone);
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_TRUE(res.errors.empty()) << res.errors[0];
   EXPECT_TRUE(Contains(res.warnings, "cut.avi: decoding stopped at frame " + std::to_string(res.frames) +
                                          " of the 60 frames the container announces (truncated or damaged file); "
@@ -164,24 +150,24 @@ TEST(TrackCommand, TruncatedVideoIsTrackedAsFarAsItDecodesAndTheBreakIsReported)
       << (res.warnings.empty() ? "" : res.warnings[0]);
   EXPECT_GT(res.tracked_frames, 10);
   EXPECT_LT(res.frames, 60);
-  EXPECT_EQ(ReadTrackCsv(tmp.path / "out" / "track.csv").size(), static_cast<size_t>(res.frames));
+  EXPECT_EQ(ReadTrackCsv(tmp.path() / "out" / "track.csv").size(), static_cast<size_t>(res.frames));
 }
 
 TEST(TrackCommand, FileWithNoFramesFailsTheClipWithItsName) {
-  TempDir tmp("empty");
-  std::ofstream(tmp.path / "empty.avi").put('x');
-  TrackCommandOptions o = Options(tmp.path / "empty.avi", WriteRig(tmp.path), tmp.path / "out");
+  const test::TempDir tmp("track_cmd_empty");
+  std::ofstream(tmp.path() / "empty.avi").put('x');
+  TrackCommandOptions o = Options(tmp.path() / "empty.avi", WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
   EXPECT_EQ(RunTrack(o), kExitPartial);
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.frames, 0);
   EXPECT_TRUE(Contains(res.errors, "empty.avi: ")) << (res.errors.empty() ? "" : res.errors[0]);
-  EXPECT_TRUE(ReadTrackCsv(tmp.path / "out" / "track.csv").empty());
+  EXPECT_TRUE(ReadTrackCsv(tmp.path() / "out" / "track.csv").empty());
 }
 
 TEST(TrackCommand, FrameOfAnotherSizeIsSkippedAndNamed) {
-  TempDir tmp("sizes");
-  const fs::path clip = tmp.path / "seq";
+  const test::TempDir tmp("track_cmd_sizes");
+  const fs::path clip = tmp.path() / "seq";
   fs::create_directories(clip);
   const auto frames = Frames(20, 34);
   for (int f = 0; f < 20; ++f) {
@@ -189,25 +175,25 @@ TEST(TrackCommand, FrameOfAnotherSizeIsSkippedAndNamed) {
     if (f == 9) cv::resize(img, img, {80, 64});
     cv::imwrite((clip / Name("img", 500 + f, ".png")).string(), img);
   }
-  TrackCommandOptions o = Options(clip, WriteRig(tmp.path), tmp.path / "out");
+  TrackCommandOptions o = Options(clip, WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
   EXPECT_EQ(RunTrack(o), kExitDone);  // a frame left empty is no failure of the clip (issue 9)
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.clip, "seq");
   EXPECT_EQ(res.frames, 20);
   EXPECT_EQ(res.tracked_frames, 19);
   EXPECT_TRUE(res.errors.empty());
   EXPECT_TRUE(Contains(res.warnings, "img509.png: frame 9 is 80x64 but the clip's first frame is 160x128"))
       << (res.warnings.empty() ? "" : res.warnings[0]);
-  const auto rows = ReadTrackCsv(tmp.path / "out" / "track.csv");
+  const auto rows = ReadTrackCsv(tmp.path() / "out" / "track.csv");
   ASSERT_EQ(rows.size(), 20u);
   EXPECT_FALSE(rows[9].u_px.has_value());
   EXPECT_EQ(rows[9].quality, 0.0);
 }
 
 TEST(TrackCommand, MarkerNeverFoundFailsTheClipAndSaysWhatToTry) {
-  TempDir tmp("nomarker");
-  const fs::path clip = tmp.path / "blank";
+  const test::TempDir tmp("track_cmd_nomarker");
+  const fs::path clip = tmp.path() / "blank";
   fs::create_directories(clip);
   cv::RNG rng(35);
   for (int f = 0; f < 5; ++f) {
@@ -215,52 +201,52 @@ TEST(TrackCommand, MarkerNeverFoundFailsTheClipAndSaysWhatToTry) {
     rng.fill(img, cv::RNG::NORMAL, 90, 2);
     cv::imwrite((clip / Name("f", f, ".png")).string(), img);
   }
-  TrackCommandOptions o = Options(clip, WriteRig(tmp.path), tmp.path / "out");
+  TrackCommandOptions o = Options(clip, WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
   EXPECT_EQ(RunTrack(o), kExitPartial);
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.tracked_frames, 0);
   EXPECT_TRUE(Contains(res.errors, "no quadrant disc or dot marker found"));
   EXPECT_TRUE(Contains(res.errors, "Try: --seed U,V"));
-  EXPECT_EQ(ReadTrackCsv(tmp.path / "out" / "track.csv").size(), 5u);
+  EXPECT_EQ(ReadTrackCsv(tmp.path() / "out" / "track.csv").size(), 5u);
 }
 
 TEST(TrackCommand, MarkerLeavingTheViewLeavesEmptyRowsAndAWarning) {
-  TempDir tmp("leaving");
-  const fs::path clip = tmp.path / "away";
+  const test::TempDir tmp("track_cmd_leaving");
+  const fs::path clip = tmp.path() / "away";
   fs::create_directories(clip);
   const auto frames = Frames(40, 36, [](int f) { return cv::Point2d(100.0 + 3.0 * f, 64.0); });
   for (int f = 0; f < 40; ++f) cv::imwrite((clip / Name("f", f, ".bmp")).string(), frames[size_t(f)]);
-  TrackCommandOptions o = Options(clip, WriteRig(tmp.path), tmp.path / "out");
+  TrackCommandOptions o = Options(clip, WriteRig(tmp.path()), tmp.path() / "out");
   o.fps = kCaptureFps;
   EXPECT_EQ(RunTrack(o), kExitDone);
-  const ClipResult res = ReadClipResult(tmp.path / "out" / "result.json");
+  const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_TRUE(Contains(res.warnings, "marker left the view at frame"));
-  const auto rows = ReadTrackCsv(tmp.path / "out" / "track.csv");
+  const auto rows = ReadTrackCsv(tmp.path() / "out" / "track.csv");
   EXPECT_TRUE(rows[0].u_px.has_value());
   EXPECT_FALSE(rows[39].u_px.has_value());  // at u = 217, outside the 160 px frame
 }
 
 TEST(TrackCommand, BadUsageWritesNothingAndExitsTwo) {
-  TempDir tmp("usage");
-  WriteVideo(tmp.path / "c.avi", Frames(5, 37));
-  const fs::path rig = WriteRig(tmp.path);
+  const test::TempDir tmp("track_cmd_usage");
+  WriteVideo(tmp.path() / "c.avi", Frames(5, 37));
+  const fs::path rig = WriteRig(tmp.path());
   auto expect_bad = [&](TrackCommandOptions o) {
     EXPECT_EQ(RunTrack(o), kExitBadUsage);
-    EXPECT_FALSE(fs::exists(tmp.path / "out" / "result.json"));
+    EXPECT_FALSE(fs::exists(tmp.path() / "out" / "result.json"));
   };
-  TrackCommandOptions o = Options(tmp.path / "c.avi", rig, tmp.path / "out");
+  TrackCommandOptions o = Options(tmp.path() / "c.avi", rig, tmp.path() / "out");
   o.marker = "circle";
   expect_bad(o);
-  o = Options(tmp.path / "c.avi", rig, tmp.path / "out");
+  o = Options(tmp.path() / "c.avi", rig, tmp.path() / "out");
   o.seed = "12;4";
   expect_bad(o);
-  o = Options(tmp.path / "c.avi", rig, tmp.path / "out");
+  o = Options(tmp.path() / "c.avi", rig, tmp.path() / "out");
   o.marker = "template";  // needs a seed
   expect_bad(o);
-  expect_bad(Options(tmp.path / "c.avi", tmp.path / "missing_rig.json", tmp.path / "out"));
-  expect_bad(Options(tmp.path / "nothing.avi", rig, tmp.path / "out"));
-  expect_bad(Options(tmp.path / "c.avi", WriteRig(tmp.path, {640, 480}), tmp.path / "out"));
+  expect_bad(Options(tmp.path() / "c.avi", tmp.path() / "missing_rig.json", tmp.path() / "out"));
+  expect_bad(Options(tmp.path() / "nothing.avi", rig, tmp.path() / "out"));
+  expect_bad(Options(tmp.path() / "c.avi", WriteRig(tmp.path(), {640, 480}), tmp.path() / "out"));
 }
 
 TEST(TrackCommand, SeedTextIsParsedOrRejectedWithAnExample) {

@@ -5,24 +5,15 @@
 #include <opencv2/imgproc.hpp>
 #include <opencv2/videoio.hpp>
 
-#include <chrono>
-#include <cstdio>
 #include <filesystem>
 #include <fstream>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::media {
 namespace {
 
 namespace fs = std::filesystem;
-
-fs::path MakeTempDir(const char* name) {
-  char buf[96];
-  std::snprintf(buf, sizeof buf, "dropfit_frame_source_%s_%lld", name,
-                static_cast<long long>(std::chrono::steady_clock::now().time_since_epoch().count()));
-  fs::path dir = fs::temp_directory_path() / buf;
-  fs::create_directories(dir);
-  return dir;
-}
 
 cv::Mat Pattern(int f, int type = CV_8UC1) {
   cv::Mat img(48, 64, CV_8UC1, cv::Scalar(10 + 3 * f));
@@ -33,7 +24,8 @@ cv::Mat Pattern(int f, int type = CV_8UC1) {
 }
 
 TEST(FrameSource, NumberedImagesAreOrderedByTheirLastNumberFromAnyStart) {
-  const fs::path dir = MakeTempDir("order");
+  const test::TempDir tmp("frame_source_order");
+  const fs::path& dir = tmp.path();
   // Colour TIFF, grey PNG and 16-bit PNG mixed; names hold other numbers before the frame number.
   cv::imwrite((dir / "cam2_take7_0099.tif").string(), Pattern(0, CV_8UC3));
   cv::imwrite((dir / "cam2_take7_0100.png").string(), Pattern(1));
@@ -56,11 +48,11 @@ TEST(FrameSource, NumberedImagesAreOrderedByTheirLastNumberFromAnyStart) {
   bool warned16 = false;
   for (const auto& w : src->info().warnings) warned16 |= w.find("16-bit images were scaled") != std::string::npos;
   EXPECT_TRUE(warned16);
-  fs::remove_all(dir);
 }
 
 TEST(FrameSource, DamagedImageIsAnErrorForItsFrameAndReadingGoesOn) {
-  const fs::path dir = MakeTempDir("damaged");
+  const test::TempDir tmp("frame_source_damaged");
+  const fs::path& dir = tmp.path();
   cv::imwrite((dir / "f1.png").string(), Pattern(0));
   std::ofstream(dir / "f2.png") << "garbage";
   cv::imwrite((dir / "f3.png").string(), Pattern(2));
@@ -71,11 +63,11 @@ TEST(FrameSource, DamagedImageIsAnErrorForItsFrameAndReadingGoesOn) {
   EXPECT_EQ(bad.status, ReadStatus::kError);
   EXPECT_NE(bad.message.find("f2.png: frame 1 could not be decoded"), std::string::npos) << bad.message;
   EXPECT_EQ(src->Read(g).status, ReadStatus::kFrame);
-  fs::remove_all(dir);
 }
 
 TEST(FrameSource, VideoFramesComeBackGreyWithTheContainersCountAndRate) {
-  const fs::path dir = MakeTempDir("video");
+  const test::TempDir tmp("frame_source_video");
+  const fs::path& dir = tmp.path();
   const fs::path file = dir / "clip.mov";
   {
     cv::VideoWriter w(file.string(), cv::CAP_FFMPEG, cv::VideoWriter::fourcc('F', 'F', 'V', '1'), 500.0, {64, 48},
@@ -96,11 +88,11 @@ TEST(FrameSource, VideoFramesComeBackGreyWithTheContainersCountAndRate) {
     ++n;
   }
   EXPECT_EQ(n, 7);
-  fs::remove_all(dir);
 }
 
 TEST(FrameSource, ClipThatCannotBeOpenedIsRejectedWithItsName) {
-  const fs::path dir = MakeTempDir("bad");
+  const test::TempDir tmp("frame_source_bad");
+  const fs::path& dir = tmp.path();
   try {
     FrameSource::Open(dir / "missing.avi");
     FAIL() << "no exception";
@@ -122,7 +114,6 @@ TEST(FrameSource, ClipThatCannotBeOpenedIsRejectedWithItsName) {
   } catch (const std::runtime_error& e) {
     EXPECT_NE(std::string(e.what()).find("holds no numbered image files"), std::string::npos);
   }
-  fs::remove_all(dir);
 }
 
 }  // namespace

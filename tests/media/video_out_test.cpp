@@ -12,17 +12,12 @@
 #include <filesystem>
 #include <random>
 
+#include "tests/support/temp_dir.h"
+
 namespace dropfit::media {
 namespace {
 
 namespace fs = std::filesystem;
-
-fs::path MakeTempDir(const std::string& name) {
-  std::random_device rd;
-  const fs::path dir = fs::temp_directory_path() / ("dropfit_video_out_" + name + "_" + std::to_string(rd()));
-  fs::create_directories(dir);
-  return dir;
-}
 
 // A frame with a moving disc, a gradient and sensor-like noise (what the renderer writes).
 cv::Mat TestFrame(int i, cv::Size size, std::mt19937_64& rng) {
@@ -44,7 +39,8 @@ constexpr double kIdctRoundingGrey = 1.0;
 constexpr double kJpegMaxErrorGrey = 20.0;
 
 TEST(VideoOut, EveryMjpgFrameReadsBackThroughOpenCvAndDecodesCleanly) {
-  const fs::path dir = MakeTempDir("mjpg");
+  const test::TempDir tmp("video_out_mjpg");
+  const fs::path& dir = tmp.path();
   const cv::Size size(160, 120);
   const int frames = 37;  // odd sizes and counts exercise the chunk padding
   std::mt19937_64 rng(11);
@@ -76,11 +72,11 @@ TEST(VideoOut, EveryMjpgFrameReadsBackThroughOpenCvAndDecodesCleanly) {
     ++read;
   }
   EXPECT_EQ(read, frames);
-  fs::remove_all(dir);
 }
 
 TEST(VideoOut, LosslessFormatsReturnTheExactFrames) {
-  const fs::path dir = MakeTempDir("lossless");
+  const test::TempDir tmp("video_out_lossless");
+  const fs::path& dir = tmp.path();
   const cv::Size size(96, 64);
   std::mt19937_64 rng(12);
   for (VideoFormat format : {VideoFormat::kFfv1Mov, VideoFormat::kPngFrames}) {
@@ -113,7 +109,6 @@ TEST(VideoOut, LosslessFormatsReturnTheExactFrames) {
     }
     EXPECT_EQ(read, 12) << ToString(format);
   }
-  fs::remove_all(dir);
 }
 
 TEST(VideoOut, UnknownFormatIsRejectedWithTheValidList) {
@@ -127,11 +122,11 @@ TEST(VideoOut, UnknownFormatIsRejectedWithTheValidList) {
 }
 
 TEST(VideoOut, FrameOfTheWrongSizeIsRejected) {
-  const fs::path dir = MakeTempDir("size");
+  const test::TempDir tmp("video_out_size");
+  const fs::path& dir = tmp.path();
   MjpgAviWriter writer(dir / "clip.avi", {64, 48}, 30.0, 90);
   EXPECT_THROW(writer.Write(cv::Mat(10, 10, CV_8UC1, cv::Scalar(0))), std::invalid_argument);
   writer.Close();
-  fs::remove_all(dir);
 }
 
 }  // namespace

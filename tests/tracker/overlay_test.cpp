@@ -3,9 +3,9 @@
 #include <gtest/gtest.h>
 #include <opencv2/videoio.hpp>
 
-#include <chrono>
-#include <cstdio>
 #include <filesystem>
+
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::tracker {
 namespace {
@@ -13,11 +13,8 @@ namespace {
 namespace fs = std::filesystem;
 
 TEST(Overlay, CentreWindowAndTrailAreDrawnAndEveryFrameIsWritten) {
-  char name[96];
-  std::snprintf(name, sizeof name, "dropfit_overlay_%lld",
-                static_cast<long long>(std::chrono::steady_clock::now().time_since_epoch().count()));
-  const fs::path dir = fs::temp_directory_path() / name;
-  fs::create_directories(dir);
+  const test::TempDir tmp("overlay");
+  const fs::path& dir = tmp.path();
   OverlayOptions o;
   o.path = dir / "overlay.avi";
   const cv::Mat grey(96, 128, CV_8U, cv::Scalar(0));
@@ -41,7 +38,6 @@ TEST(Overlay, CentreWindowAndTrailAreDrawnAndEveryFrameIsWritten) {
   cv::VideoCapture cap(o.path.string(), cv::CAP_FFMPEG);
   ASSERT_TRUE(cap.isOpened());
   EXPECT_EQ(static_cast<int>(cap.get(cv::CAP_PROP_FRAME_COUNT)), 12);
-  fs::remove_all(dir);
 }
 
 TEST(Overlay, UnknownExtensionIsRejectedWithTheValidOnes) {

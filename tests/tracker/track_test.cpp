@@ -4,7 +4,6 @@
 #include <opencv2/imgcodecs.hpp>
 
 #include <atomic>
-#include <chrono>
 #include <cmath>
 #include <filesystem>
 #include <functional>
@@ -12,6 +11,7 @@
 
 #include "media/frame_source.h"
 #include "tests/support/synthetic_marker.h"
+#include "tests/support/temp_dir.h"
 
 namespace dropfit::tracker {
 namespace {
@@ -27,13 +27,6 @@ constexpr double kRmsTargetPx = 0.05;
 // Template matching with a parabola peak is coarser (pixel locking of the correlation peak,
 // common practice, no source); a tenth of a pixel is its usual class.
 constexpr double kTemplateRmsPx = 0.15;
-
-fs::path MakeTempDir(const std::string& name) {
-  const auto stamp = std::chrono::steady_clock::now().time_since_epoch().count();
-  fs::path dir = fs::temp_directory_path() / ("dropfit_track_test_" + name + "_" + std::to_string(stamp));
-  fs::create_directories(dir);
-  return dir;
-}
 
 // A bouncing path in pixels: falls, bounces at frame 100 (speed ~3 px/frame), rises.
 cv::Point2d PathAt(double f) {
@@ -244,7 +237,8 @@ TEST(Track, BadOptionsAreRejectedWithTheFieldName) {
 }
 
 TEST(Track, ClipFromAnImageFolderIsReadOnASecondThreadWithProgressAndGaps) {
-  const fs::path dir = MakeTempDir("folder");
+  const test::TempDir tmp("track_test_folder");
+  const fs::path& dir = tmp.path();
   const Clip c = MakeClip(Reference(MarkerKind::kQuadrant), 40, 28);
   for (int f = 0; f < 40; ++f) {
     if (f == 17) continue;  // a gap in the numbering
@@ -267,7 +261,6 @@ TEST(Track, ClipFromAnImageFolderIsReadOnASecondThreadWithProgressAndGaps) {
   for (const std::string& w : t.warnings) named += w.find("no file for frame 17 (number 1217 is missing") != w.npos;
   EXPECT_EQ(named, 1);
   EXPECT_LT(RmsError(t, c), kRmsTargetPx);
-  fs::remove_all(dir);
 }
 
 }  // namespace
