@@ -17,30 +17,43 @@ double Seconds(std::chrono::steady_clock::time_point since) {
 
 std::string SizeText(cv::Size s) { return std::to_string(s.width) + "x" + std::to_string(s.height); }
 
+// The figures read again at a fitted onset height (the best law's, or the one a saved result
+// reports): the track is not segmented again (analysis::ReadAtOnsetHeight).
+void ReadAtFittedOnset(const analysis::KinematicsOptions& kinematics_options, double height_m, double sd_m,
+                       ClipMeasurement& m) {
+  analysis::KinematicsOptions refit = kinematics_options;
+  refit.onset_height_m = height_m;
+  refit.onset_height_sd_m = sd_m;
+  refit.onset_height_source = analysis::OnsetHeightSource::kFit;
+  analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
+  if (!again.failure) {
+    m.kinematics = std::move(again);
+    m.onset_refitted = true;
+  }
+}
+
 // The per-clip law fits, and with them the onset height when the geometry gave none: the best
-// law's fitted onset height replaces the track's estimate, and the per-bounce figures are read
-// again there (contract: onset_height_source "fit").
+// law's fitted onset height replaces the track's estimate (docs/formats.md: onset_height_source
+// "fit").
 void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
   const auto fit_start = std::chrono::steady_clock::now();
-  m.fits_attempted = true;
   if (!m.fit_clip->windows.empty()) {
     m.laws = analysis::FitAllLaws({*m.fit_clip}, m.fit_options);
     for (const analysis::LawFitResult& fit : m.laws->fits)
       m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
     if (m.laws->best && !kinematics_options.onset_height_m) {
       const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->best)];
-      analysis::KinematicsOptions refit = kinematics_options;
-      refit.onset_height_m = best.onset_height_m;
-      refit.onset_height_sd_m = best.onset_height_sd_m;
-      refit.onset_height_source = analysis::OnsetHeightSource::kFit;
-      analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
-      if (!again.failure) {
-        m.kinematics = std::move(again);
-        m.onset_refitted = true;
-      }
+      ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m);
     }
   }
   m.fit_seconds = Seconds(fit_start);
+}
+
+analysis::LawFitOptions LawFitOptionsOf(const analysis::DropConditions& conditions) {
+  analysis::LawFitOptions o;
+  o.gravity_mps2 = conditions.gravity_mps2;
+  o.tread = conditions.tread;
+  return o;
 }
 
 }  // namespace
@@ -71,11 +84,7 @@ analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, con
 }
 
 analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request) {
-  const analysis::DropConditions conditions = DropConditionsOf(request);
-  analysis::LawFitOptions o;
-  o.gravity_mps2 = conditions.gravity_mps2;
-  o.tread = conditions.tread;
-  return o;
+  return LawFitOptionsOf(DropConditionsOf(request));
 }
 
 OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
@@ -148,7 +157,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   ClipMeasurement m;
   m.series = std::move(series);
   m.conditions = DropConditionsOf(request);
-  m.fit_options = LawFitOptionsFor(request);
+  m.fit_options = LawFitOptionsOf(m.conditions);
   const analysis::KinematicsOptions kinematics_options = KinematicsOptionsFor(request, rig, fps);
   m.kinematics = analysis::AnalyzeKinematics(m.series, kinematics_options);
   if (m.kinematics.failure) return m;
@@ -157,15 +166,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   if (options.fit_laws) {
     FitLaws(kinematics_options, m);
   } else if (options.onset_from_fit && !kinematics_options.onset_height_m) {
-    analysis::KinematicsOptions refit = kinematics_options;
-    refit.onset_height_m = options.onset_from_fit->first;
-    refit.onset_height_sd_m = options.onset_from_fit->second;
-    refit.onset_height_source = analysis::OnsetHeightSource::kFit;
-    analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
-    if (!again.failure) {
-      m.kinematics = std::move(again);
-      m.onset_refitted = true;
-    }
+    ReadAtFittedOnset(kinematics_options, options.onset_from_fit->first, options.onset_from_fit->second, m);
   }
   m.track_force = TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
   return m;

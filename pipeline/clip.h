@@ -113,7 +113,6 @@ struct ClipMeasurement {
   // The report's force-deflection loop from the filtered track (first complete bounce).
   std::optional<ForceDeflection> track_force;
   double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
-  bool fits_attempted = false;
 };
 
 // How to measure: fit the laws (per-clip stage) or not (a clip rebuilt from its track.csv for the
