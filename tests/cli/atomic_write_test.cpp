@@ -13,13 +13,6 @@
 namespace dropfit::cli {
 namespace {
 
-std::string ReadAll(const std::filesystem::path& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::ostringstream ss;
-  ss << in.rdbuf();
-  return ss.str();
-}
-
 class AtomicWriteTest : public ::testing::Test {
  protected:
   size_t FilesInFolder() const {
@@ -32,9 +25,9 @@ class AtomicWriteTest : public ::testing::Test {
 TEST_F(AtomicWriteTest, WritesAndReplacesAFile) {
   const auto path = dir_ / "result.json";
   WriteFileAtomically(path, std::string("first"));
-  EXPECT_EQ(ReadAll(path), "first");
+  EXPECT_EQ(test::ReadFileBytes(path), "first");
   WriteFileAtomically(path, std::string("second"));
-  EXPECT_EQ(ReadAll(path), "second");
+  EXPECT_EQ(test::ReadFileBytes(path), "second");
   EXPECT_EQ(FilesInFolder(), 1u);  // no temporary file left behind
 }
 
@@ -47,7 +40,7 @@ TEST_F(AtomicWriteTest, AWriteThatFailsMidwayLeavesThePreviousFileIntact) {
                                      throw std::runtime_error("disk gone");
                                    }),
                std::runtime_error);
-  EXPECT_EQ(ReadAll(path), "good,old,data\n");
+  EXPECT_EQ(test::ReadFileBytes(path), "good,old,data\n");
   EXPECT_EQ(FilesInFolder(), 1u);  // the temporary file was removed
 }
 

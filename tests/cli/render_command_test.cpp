@@ -24,13 +24,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string ReadAll(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 // A quick render: small frame, a small wheel, a few frames.
 RenderCommandOptions Quick(const fs::path& out) {
   RenderCommandOptions o;
@@ -105,9 +98,9 @@ TEST(RenderCommand, SameSeedWritesIdenticalFilesAndAnotherSeedDoesNot) {
   o.seed = 2;
   ASSERT_EQ(RunRender(o), kExitDone);
   const std::string clip = "drop_h150mm_r1.avi";
-  EXPECT_EQ(ReadAll(a / clip), ReadAll(b / clip));
-  EXPECT_EQ(ReadAll(a / "truth.json"), ReadAll(b / "truth.json"));
-  EXPECT_NE(ReadAll(a / clip), ReadAll(c / clip));
+  EXPECT_EQ(test::ReadFileBytes(a / clip), test::ReadFileBytes(b / clip));
+  EXPECT_EQ(test::ReadFileBytes(a / "truth.json"), test::ReadFileBytes(b / "truth.json"));
+  EXPECT_NE(test::ReadFileBytes(a / clip), test::ReadFileBytes(c / clip));
 }
 
 TEST(RenderCommand, BadOptionsWriteNothingAndSayWhatIsWrong) {

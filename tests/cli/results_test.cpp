@@ -14,13 +14,6 @@
 namespace dropfit::cli {
 namespace {
 
-std::string ReadAll(const std::filesystem::path& p) {
-  std::ifstream in(p);
-  std::ostringstream ss;
-  ss << in.rdbuf();
-  return ss.str();
-}
-
 class ResultsTest : public ::testing::Test {
  protected:
   const test::TempDir tmp_{"results"};
@@ -34,7 +27,7 @@ TEST_F(ResultsTest, TrackCsvRoundTripsAndLeavesLostFramesEmpty) {
   rows.push_back({2, 0.001, 401.2, 203.75, 0.0124, 0.4501, 0.9});
   const auto path = dir_ / "track.csv";
   WriteTrackCsv(path, rows);
-  const std::string text = ReadAll(path);
+  const std::string text = test::ReadFileBytes(path);
   EXPECT_EQ(text.substr(0, text.find('\n')), "frame,t_s,u_px,v_px,x_m,y_m,quality");
   const size_t row1 = text.find("\n1,");
   ASSERT_NE(row1, std::string::npos) << text;
@@ -126,7 +119,7 @@ TEST_F(ResultsTest, NonFiniteNumbersAreWrittenAsNull) {
   r.impacts = {im};
   const auto path = dir_ / "result.json";
   WriteClipResult(path, r);
-  EXPECT_NE(ReadAll(path).find("\"cor\": null"), std::string::npos);
+  EXPECT_NE(test::ReadFileBytes(path).find("\"cor\": null"), std::string::npos);
   EXPECT_TRUE(std::isnan(ReadClipResult(path).impacts[0].cor));
 }
 
@@ -138,7 +131,7 @@ TEST_F(ResultsTest, SummaryCsvHasTheContractColumnsInOrderAndEmptySdForOneClip) 
   g.cor_mean = 0.7;
   const auto path = dir_ / "summary.csv";
   WriteSummaryCsv(path, {g});
-  EXPECT_EQ(ReadAll(path),
+  EXPECT_EQ(test::ReadFileBytes(path),
             "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
             "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
             "peak_force_n_mean,peak_force_n_sd\n"

@@ -1,7 +1,9 @@
 #include "tests/support/temp_dir.h"
 
 #include <cstdlib>
+#include <fstream>
 #include <random>
+#include <sstream>
 
 namespace dropfit::test {
 
@@ -16,6 +18,13 @@ TempDir::~TempDir() {
   if (std::getenv("DROPFIT_KEEP_TEST_DIRS")) return;
   std::error_code ec;
   std::filesystem::remove_all(path_, ec);
+}
+
+std::string ReadFileBytes(const std::filesystem::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
 }
 
 }  // namespace dropfit::test

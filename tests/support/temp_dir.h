@@ -1,6 +1,7 @@
 #pragma once
 // Test support (built only for tests and benches): a fresh temporary folder per test, removed
-// when the object goes out of scope (unless DROPFIT_KEEP_TEST_DIRS is set, to look at it).
+// when the object goes out of scope (unless DROPFIT_KEEP_TEST_DIRS is set, to look at it), and
+// reading a file the test wrote.
 
 #include <filesystem>
 #include <string>
@@ -19,5 +20,8 @@ class TempDir {
  private:
   std::filesystem::path path_;
 };
+
+// The whole content of a file, as bytes (empty when it cannot be read).
+std::string ReadFileBytes(const std::filesystem::path& path);
 
 }  // namespace dropfit::test

@@ -21,13 +21,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string ReadAll(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 // A small set: 2 heights x 1 repeat, a small frame and wheel, the first 5 frames of each clip.
 RenderOptions SmallSet(const fs::path& out) {
   RenderOptions o;
@@ -159,14 +152,15 @@ TEST(RenderPlan, SameSeedTwiceGivesIdenticalTruthAndFilesWhateverTheClipOrder) {
       EXPECT_EQ(x.frames[k].x_m, y.frames[k].x_m);
       EXPECT_EQ(x.frames[k].y_m, y.frames[k].y_m);
     }
-    EXPECT_EQ(ReadAll(dir.path() / "a" / x.clip), ReadAll(dir.path() / "b" / y.clip));
+    EXPECT_EQ(test::ReadFileBytes(dir.path() / "a" / x.clip), test::ReadFileBytes(dir.path() / "b" / y.clip));
   }
   // Another seed draws another set.
   o.out_dir = (dir.path() / "c").string();
   o.seed = 12;
   const RenderTruth c = RenderSet(PlanRenderSet(o));
   EXPECT_NE(c.clips[0].noise_seed, a.clips[0].noise_seed);
-  EXPECT_NE(ReadAll(dir.path() / "c" / c.clips[0].clip), ReadAll(dir.path() / "a" / a.clips[0].clip));
+  EXPECT_NE(test::ReadFileBytes(dir.path() / "c" / c.clips[0].clip),
+            test::ReadFileBytes(dir.path() / "a" / a.clips[0].clip));
 }
 
 }  // namespace
