@@ -88,7 +88,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
 
   // The onset height comes from the geometry only with the free radius and a floor in the rig
   // (AnalyzeClip warns otherwise); else from the track, then from the best law's fit.
-  const bool geometry_onset = options.free_radius_m && rig.y_origin == calib::YOrigin::kFloor;
+  const bool geometry_onset = pipeline::GeometryOnsetHeight(request, rig).has_value();
 
   // The effective options, written beside the results.
   {

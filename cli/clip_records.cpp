@@ -55,20 +55,6 @@ ImpactRecord ImpactRecordOf(const analysis::ImpactFigures& f, const analysis::Se
   return r;
 }
 
-std::string InfoValue(const ClipResult& r, const std::string& key) {
-  for (const auto& [k, v] : r.info) {
-    if (k == key) return v;
-  }
-  return {};
-}
-
-double ExtraValue(const ClipResult& r, const std::string& key) {
-  for (const auto& [k, v] : r.extra) {
-    if (k == key) return v;
-  }
-  return std::nan("");
-}
-
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
 void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline::ClipMeasurement& m,
                             const std::string& name, const tracker::Track& track, ClipResult& result) {

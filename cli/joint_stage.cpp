@@ -44,9 +44,9 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips,
   std::vector<SpecimenSummary> out(order.size());
   // Specimens are independent: fitted on up to `jobs` threads (no shared state in the fits).
   ParallelFor(order.size(), jobs, [&](size_t index) {
-    std::vector<pipeline::SpecimenClip> mine;
+    std::vector<const pipeline::ClipMeasurement*> mine;
     for (const JointClip& c : clips) {
-      if (c.row->specimen == order[index]) mine.push_back({c.request, c.measurement});
+      if (c.row->specimen == order[index]) mine.push_back(c.measurement);
     }
     const pipeline::SpecimenResult r = pipeline::FitSpecimenClips(order[index], mine);
     out[index] = SummaryOf(r);

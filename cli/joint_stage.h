@@ -15,7 +15,6 @@ namespace dropfit::cli {
 
 struct JointClip {
   const ManifestRow* row = nullptr;
-  const pipeline::ClipRequest* request = nullptr;
   const pipeline::ClipMeasurement* measurement = nullptr;
 };
 

@@ -80,6 +80,20 @@ CurveKind CurveKindFromString(const std::string& text) {
   throw std::invalid_argument("unknown curve kind \"" + text + "\"; valid: " + valid);
 }
 
+std::string InfoValue(const ClipResult& r, const std::string& key) {
+  for (const auto& [k, v] : r.info) {
+    if (k == key) return v;
+  }
+  return {};
+}
+
+double ExtraValue(const ClipResult& r, const std::string& key) {
+  for (const auto& [k, v] : r.extra) {
+    if (k == key) return v;
+  }
+  return std::nan("");
+}
+
 std::string FormatNumber(double value) {
   if (!std::isfinite(value)) return {};
   char buf[64];

@@ -170,4 +170,9 @@ Summary ReadSummaryJson(const std::filesystem::path& path);
 // a non-finite value.
 std::string FormatNumber(double value);
 
+// A result's entry by name: the text of `info` (empty when absent), the number of `extra` (NaN
+// when absent).
+std::string InfoValue(const ClipResult& result, const std::string& key);
+double ExtraValue(const ClipResult& result, const std::string& key);
+
 }  // namespace dropfit::cli

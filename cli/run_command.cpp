@@ -42,13 +42,6 @@ std::string SettingsText(const ManifestRow& row) {
   return s.str();
 }
 
-std::string InfoValue(const ClipResult& r, const std::string& key) {
-  for (const auto& [k, v] : r.info) {
-    if (k == key) return v;
-  }
-  return {};
-}
-
 // Progress on `err`: on a terminal (err is std::cerr and stderr is a tty) one line rewritten in
 // place; otherwise plain log lines.
 class ProgressDisplay {
@@ -272,7 +265,7 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
     }
     if (!slot.analysed) continue;
     analysed.push_back({slot.row, &slot.result});
-    if (slot.measurement) joint_inputs.push_back({slot.row, &slot.request, &*slot.measurement});
+    if (slot.measurement) joint_inputs.push_back({slot.row, &*slot.measurement});
   }
   summary.groups = BuildSummaryGroups(analysed);
 

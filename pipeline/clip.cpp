@@ -4,7 +4,6 @@
 #include <cmath>
 #include <stdexcept>
 
-#include "analysis/forward_model.h"
 #include "calib/rig.h"
 
 namespace dropfit::pipeline {

@@ -18,21 +18,21 @@ std::optional<analysis::FitClip> JointFitClip(const ClipMeasurement& measurement
   return fc;
 }
 
-SpecimenResult FitSpecimenClips(const std::string& specimen, const std::vector<SpecimenClip>& clips) {
+SpecimenResult FitSpecimenClips(const std::string& specimen, const std::vector<const ClipMeasurement*>& clips) {
   const auto t0 = std::chrono::steady_clock::now();
   SpecimenResult out;
   out.specimen = specimen;
   std::vector<analysis::FitClip> fit_clips;
-  const ClipRequest* first = nullptr;
+  const ClipMeasurement* first = nullptr;
   double v_lo = INFINITY, v_hi = 0, mass_sum = 0;
-  for (const SpecimenClip& c : clips) {
-    if (!c.request || !c.measurement || c.measurement->kinematics.failure) continue;
-    if (!first) first = c.request;
-    std::optional<analysis::FitClip> fc = JointFitClip(*c.measurement, &out.geometry_onset_height_m);
+  for (const ClipMeasurement* c : clips) {
+    if (!c || c->kinematics.failure) continue;
+    if (!first) first = c;
+    std::optional<analysis::FitClip> fc = JointFitClip(*c, &out.geometry_onset_height_m);
     if (!fc) continue;
     fit_clips.push_back(std::move(*fc));
-    mass_sum += c.request->mass_kg;
-    for (const analysis::ImpactFigures& im : c.measurement->kinematics.impacts) {
+    mass_sum += c->conditions.mass_kg;
+    for (const analysis::ImpactFigures& im : c->kinematics.impacts) {
       if (!im.complete || !std::isfinite(im.cor.value)) continue;
       out.measured_cor.impact_speed_mps.push_back(im.impact_speed_mps.value);
       out.measured_cor.cor.push_back(im.cor.value);
@@ -42,7 +42,7 @@ SpecimenResult FitSpecimenClips(const std::string& specimen, const std::vector<S
   }
   out.clips_fitted = static_cast<int>(fit_clips.size());
   if (fit_clips.empty() || !first) return out;
-  out.fit_options = LawFitOptionsFor(*first);
+  out.fit_options = first->fit_options;
   out.fit = analysis::FitSpecimen(fit_clips, out.fit_options);
   const double mass = mass_sum / static_cast<double>(fit_clips.size());
   if (v_hi > v_lo) {

@@ -14,12 +14,6 @@
 
 namespace dropfit::pipeline {
 
-// One measured clip of the specimen.
-struct SpecimenClip {
-  const ClipRequest* request = nullptr;
-  const ClipMeasurement* measurement = nullptr;
-};
-
 struct SpecimenResult {
   std::string specimen;
   int clips_fitted = 0;                      // clips with at least one complete bounce
@@ -43,8 +37,8 @@ struct SpecimenResult {
 std::optional<analysis::FitClip> JointFitClip(const ClipMeasurement& measurement,
                                               std::optional<double>* geometry_onset_height_m);
 
-// Fits one specimen from its clips (in clip order). The law-fit options are those of the first
-// clip's request. Throws nothing for a clip that cannot be used: it is left out.
-SpecimenResult FitSpecimenClips(const std::string& specimen, const std::vector<SpecimenClip>& clips);
+// Fits one specimen from its clips' measurements (in clip order). The law-fit options are those
+// of the first usable clip. Throws nothing for a clip that cannot be used: it is left out.
+SpecimenResult FitSpecimenClips(const std::string& specimen, const std::vector<const ClipMeasurement*>& clips);
 
 }  // namespace dropfit::pipeline

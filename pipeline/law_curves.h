@@ -3,6 +3,7 @@
 // to records: a fitted law's simulated hub heights over a clip's fit windows, its COR against
 // impact speed, and the force-deflection loop read from the filtered track.
 
+#include <optional>
 #include <vector>
 
 #include "analysis/impacts.h"

@@ -127,7 +127,7 @@ TEST(PipelineJointStage, TheSpecimenIsFittedFromTheMeasurementsWithoutSegmenting
   const ClipRequest r_low = Request(0.45), r_high = Request(0.60);
   const ClipMeasurement m_low = MeasureClip(r_low, RigWithFloor(true), low.series, kFps, options);
   const ClipMeasurement m_high = MeasureClip(r_high, RigWithFloor(true), high.series, kFps, options);
-  const SpecimenResult r = FitSpecimenClips("wheel", {{&r_low, &m_low}, {&r_high, &m_high}});
+  const SpecimenResult r = FitSpecimenClips("wheel", {&m_low, &m_high});
   ASSERT_TRUE(r.fit);
   EXPECT_EQ(r.clips_fitted, 2);
   EXPECT_EQ(r.geometry_onset_height_m, kOnsetM);
