@@ -89,7 +89,9 @@ std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<do
       break;
     case LawId::kHuntCrossley:
       if (!(params[0] > 0.0)) return fail(0, "must be positive");
-      if (!(params[1] >= 1.0 && params[1] <= 4.0)) return fail(1, "is outside [1, 4]");
+      if (!(params[1] >= kHuntCrossleyExponentMin && params[1] <= kHuntCrossleyExponentMax)) {
+        return fail(1, "is outside [0.5, 4]");
+      }
       if (!(params[2] >= 0.0)) return fail(2, "must not be negative");
       break;
     case LawId::kHertz:

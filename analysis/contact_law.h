@@ -48,7 +48,8 @@ const std::vector<std::string>& ParameterNames(LawId law);
 //   bilinear       {k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m}
 //   volumetric     {kv_n_per_m3, a_s_per_m}   (+ the TreadGeometry, which is data)
 // Valid ranges (checked by ValidateLawParameters): stiffnesses > 0 and finite; damping
-// c, alpha, a >= 0; 1 <= n <= 4 (hunt-crossley); n == 1.5 (hertz); knee_m > 0.
+// c, alpha, a >= 0; kHuntCrossleyExponentMin <= n <= kHuntCrossleyExponentMax (hunt-crossley);
+// n == 1.5 (hertz); knee_m > 0.
 //
 // Equations and sources:
 //   kelvin-voigt   F = k delta + c delta_dot (linear spring-dashpot; with separation where
@@ -64,11 +65,19 @@ const std::vector<std::string>& ParameterNames(LawId law);
 //                  number unconfirmed). With no geometry a cylinder of unit width.
 constexpr int kMaxLawParameters = 4;
 
+// The range of the hunt-crossley exponent n, for rendering and fitting alike. n = 1 is the
+// linear Hunt-Crossley law (Hunt & Crossley 1975 treat the general power), n = 1.5 Hertz;
+// exponents below 1 describe contacts that stiffen less than linearly with the deflection
+// (softening, e.g. foam-like or conforming contacts), above 2 contacts that stiffen sharply.
+// [0.5, 4] covers those with room to spare (docs/methods.md §13; common practice, no source).
+constexpr double kHuntCrossleyExponentMin = 0.5;
+constexpr double kHuntCrossleyExponentMax = 4.0;
+
 // Number of parameters of the law (= ParameterNames(law).size()).
 int ParameterCount(LawId law);
 
 // Empty string when the parameters are valid for the law; otherwise a message naming the
-// law, the parameter and its value, e.g. "hunt-crossley: n = 7 is outside [1, 4]".
+// law, the parameter and its value, e.g. "hunt-crossley: n = 7 is outside [0.5, 4]".
 std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<double>& params);
 
 // The law's force before clamping, F_raw(delta, delta_dot) in newtons, for delta > 0.

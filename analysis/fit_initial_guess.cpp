@@ -112,9 +112,10 @@ double PowerLawContactTimeConstant(double n) {
 }
 
 double PowerLawExponentFromContactTimeConstant(double c) {
-  if (c >= PowerLawContactTimeConstant(1.0)) return 1.0;
-  if (c <= PowerLawContactTimeConstant(4.0)) return 4.0;
-  return Bisect([c](double n) { return PowerLawContactTimeConstant(n) - c; }, 1.0, 4.0);
+  constexpr double lo = kHuntCrossleyExponentMin, hi = kHuntCrossleyExponentMax;
+  if (c >= PowerLawContactTimeConstant(lo)) return lo;
+  if (c <= PowerLawContactTimeConstant(hi)) return hi;
+  return Bisect([c](double n) { return PowerLawContactTimeConstant(n) - c; }, lo, hi);
 }
 
 InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figures, double mass_kg,
@@ -171,7 +172,7 @@ InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figur
     case LawId::kHuntCrossley: {
       double n0 = 1.5;
       if (have_deflection && have_duration) {
-        n0 = std::clamp(PowerLawExponentFromContactTimeConstant(figures.contact_duration_s * v / delta), 1.0, 3.0);
+        n0 = std::clamp(PowerLawExponentFromContactTimeConstant(figures.contact_duration_s * v / delta), 0.7, 3.0);
       }
       guess.starts.push_back({power_k(n0), n0, alpha});
       for (double n : {1.5, 1.1, 2.2}) {

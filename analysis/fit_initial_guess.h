@@ -57,8 +57,8 @@ double CorFromMultiplicativeDamping(double w);
 
 // C_n = (2/(n+1)) B(1/(n+1), 1/2) for n > 0.
 double PowerLawContactTimeConstant(double n);
-// Inverse of C_n on [1, 4] (C_n decreases with n): clamped to [1, 4] when c is outside
-// [C_4, C_1].
+// Inverse of C_n on [kHuntCrossleyExponentMin, kHuntCrossleyExponentMax] = [0.5, 4] (C_n
+// decreases with n): clamped to that range when c is outside [C_4, C_0.5].
 double PowerLawExponentFromContactTimeConstant(double c);
 
 // The law-free figures of one bounce from which a fit starts. NaN (or <= 0) = not known.

@@ -109,12 +109,7 @@ SpecimenFit FitSpecimen(const std::vector<FitClip>& clips, const LawFitOptions& 
     out.laws.push_back(FitJoint(law, clips, options, joint_options));
     fits.push_back(out.laws.back().fit);
   }
-  for (int i : RankByBic(fits)) {
-    if (!fits[i].failure && fits[i].converged) {
-      out.best = i;
-      break;
-    }
-  }
+  out.best = BestOfRanking(fits);
   return out;
 }
 

@@ -59,7 +59,7 @@ struct JointFitResult {
 JointFitResult FitJoint(LawId law, const std::vector<FitClip>& clips, const LawFitOptions& options,
                         const JointFitOptions& joint_options = {});
 
-// Every law; `best` indexes the lowest-BIC converged joint fit.
+// Every law; `best` indexes the joint fit that ranks first (RankLaws, analysis/law_fit.h).
 struct SpecimenFit {
   std::vector<JointFitResult> laws;  // AllLaws() order
   std::optional<int> best;

@@ -344,8 +344,8 @@ void SetBounds(LawId law, double delta_ref, Unknowns& u, ceres::Problem* problem
   for (int j = 0; j < dim; ++j) {
     const bool is_exponent = law == LawId::kHuntCrossley && j == 1;
     if (is_exponent) {
-      problem->SetParameterLowerBound(u.x.data(), j, 1.0);
-      problem->SetParameterUpperBound(u.x.data(), j, 4.0);
+      problem->SetParameterLowerBound(u.x.data(), j, kHuntCrossleyExponentMin);
+      problem->SetParameterUpperBound(u.x.data(), j, kHuntCrossleyExponentMax);
     } else {
       problem->SetParameterLowerBound(u.x.data(), j, u.x[j] - 25.0);
       problem->SetParameterUpperBound(u.x.data(), j, u.x[j] + 12.0);
@@ -423,6 +423,37 @@ std::optional<Solved> SolveMultiStart(const FitInputs& in, LawFitResult* result)
   return best;
 }
 
+// The contract parameter that internal parameter j moves (law_fit.h, "Internal parameters").
+int ParameterOfInternal(LawId law, int j) { return law == LawId::kHertz && j == 1 ? 2 : j; }
+
+// The bounds the kept solution sits on (within 1e-9 of the internal value's scale), each
+// named with the parameter's value and the range, for LawFitResult::bounds_reached.
+std::vector<std::string> BoundsReached(LawId law, const Solved& best, const std::vector<double>& params) {
+  std::vector<std::string> out;
+  const Unknowns& u = *best.unknowns;
+  const std::vector<std::string>& names = ParameterNames(law);
+  for (int j = 0; j < InternalDim(law); ++j) {
+    const double x = u.x[j];
+    const double lower = best.problem->GetParameterLowerBound(u.x.data(), j);
+    const double upper = best.problem->GetParameterUpperBound(u.x.data(), j);
+    const double tolerance = 1e-9 * std::max(1.0, std::abs(x));
+    const bool at_lower = x - lower <= tolerance, at_upper = upper - x <= tolerance;
+    if (!at_lower && !at_upper) continue;
+    const int i = ParameterOfInternal(law, j);
+    std::string text =
+        names[i] + " = " + FormatG(params[i]) + " sits on its " + (at_lower ? "lower" : "upper") + " bound";
+    if (law == LawId::kHuntCrossley && j == 1) {
+      text += " (range [" + FormatG(kHuntCrossleyExponentMin) + ", " + FormatG(kHuntCrossleyExponentMax) + "])";
+    } else if (law == LawId::kBilinear && j == 2 && at_upper) {
+      text += " (20 times the typical measured deflection)";
+    } else {
+      text += at_lower ? " (e^-25 times its starting value)" : " (e^12 times its starting value)";
+    }
+    out.push_back(text);
+  }
+  return out;
+}
+
 // Convergence, parameters, residuals and BIC of the kept solution.
 void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* result) {
   const Unknowns& u = *best.unknowns;
@@ -435,6 +466,7 @@ void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* resul
   ToLawParams(in.law, u.x.data(), in.start.delta_ref_m, x_params.data());
   x_params.resize(ParameterCount(in.law));
   result->params = x_params;
+  result->bounds_reached = BoundsReached(in.law, best, x_params);
   result->onset_height_fitted = in.start.onset_free;
   result->onset_height_m =
       in.start.onset_free ? u.onset : in.clips[in.windows.front().clip].known_onset_height_m.value();
@@ -718,9 +750,8 @@ BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const I
 // Warnings for data that do not determine the law (law_fit.h, "Failure is data").
 void AddDegenerateDataWarnings(const FitInputs& in, const std::vector<double>& max_deflections, LawFitResult* result) {
   const LawId law = in.law;
-  if (law == LawId::kHuntCrossley && (result->params[1] < 1.0 + 1e-6 || result->params[1] > 4.0 - 1e-6)) {
-    result->warnings.push_back("the exponent n = " + FormatG(result->params[1]) +
-                               " sits on its bound [1, 4]: the law does not describe these data well");
+  for (const std::string& bound : result->bounds_reached) {
+    result->warnings.push_back(bound + ": the best value may lie beyond it, so its SD holds on one side only");
   }
   if (in.start.onset_free && in.windows.size() == 1) {
     result->warnings.push_back(
@@ -1018,26 +1049,58 @@ std::unique_ptr<ceres::CostFunction> MakeWindowCostFunction(LawId law, const Fit
   return std::unique_ptr<ceres::CostFunction>(MakeWindowCost(d));
 }
 
-std::vector<int> RankByBic(const std::vector<LawFitResult>& fits) {
+bool HasUndeterminedParameter(const LawFitResult& fit) {
+  for (size_t i = 0; i < fit.params.size() && i < fit.param_sd.size(); ++i) {
+    if (fit.law == LawId::kHertz && i == 1) continue;
+    if (!(fit.param_sd[i] <= 0.5 * std::abs(fit.params[i]))) return true;
+  }
+  return false;
+}
+
+std::vector<int> RankLaws(const std::vector<LawFitResult>& fits) {
   std::vector<int> order(fits.size());
   std::iota(order.begin(), order.end(), 0);
   const auto key = [&](int i) {
     const LawFitResult& f = fits[i];
-    return f.failure ? kInf : f.bic;
+    return f.failure || std::isnan(f.bic) ? kInf : f.bic;
   };
   std::stable_sort(order.begin(), order.end(), [&](int a, int b) { return key(a) < key(b); });
+  // An undetermined fit moves to just below the last determined fit with a residual not
+  // larger; undetermined fits only move down, and determined ones keep their BIC order.
+  const auto outranks = [&](int determined, int undetermined) {
+    const LawFitResult& d = fits[determined];
+    const LawFitResult& u = fits[undetermined];
+    return !d.failure && !u.failure && !HasUndeterminedParameter(d) && HasUndeterminedParameter(u) &&
+           d.rms_residual_m <= u.rms_residual_m * (1.0 + kRankResidualTolerance);
+  };
+  for (bool moved = true; moved;) {
+    moved = false;
+    for (size_t p = 0; p < order.size() && !moved; ++p) {
+      for (size_t q = order.size(); q-- > p + 1;) {
+        if (outranks(order[q], order[p])) {
+          std::rotate(order.begin() + static_cast<std::ptrdiff_t>(p),
+                      order.begin() + static_cast<std::ptrdiff_t>(p) + 1,
+                      order.begin() + static_cast<std::ptrdiff_t>(q) + 1);
+          moved = true;
+          break;
+        }
+      }
+    }
+  }
   return order;
+}
+
+std::optional<int> BestOfRanking(const std::vector<LawFitResult>& fits) {
+  for (int i : RankLaws(fits)) {
+    if (!fits[i].failure) return i;
+  }
+  return std::nullopt;
 }
 
 LawComparison FitAllLaws(const std::vector<FitClip>& clips, const LawFitOptions& options) {
   LawComparison out;
   for (LawId law : AllLaws()) out.fits.push_back(FitLaw(law, clips, options));
-  for (int i : RankByBic(out.fits)) {
-    if (!out.fits[i].failure && out.fits[i].converged) {
-      out.best = i;
-      break;
-    }
-  }
+  out.best = BestOfRanking(out.fits);
   return out;
 }
 

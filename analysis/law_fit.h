@@ -20,7 +20,8 @@
 //   kelvin-voigt   ln k, ln c
 //   hunt-crossley  ln F_ref, n, ln alpha   with F_ref = k delta_ref^n, delta_ref the typical
 //                  measured maximum deflection (k and n trade off; the force at delta_ref
-//                  does not, so the problem is far better conditioned); 1 <= n <= 4 as bounds
+//                  does not, so the problem is far better conditioned);
+//                  kHuntCrossleyExponentMin <= n <= kHuntCrossleyExponentMax as bounds
 //   hertz          ln k, ln alpha          (n = 1.5 fixed)
 //   bilinear       ln k1, ln k2, ln knee, ln c
 //   volumetric     ln kv, ln a
@@ -40,12 +41,19 @@
 // Gaussian errors with unknown variance), N the samples, p every fitted unknown (law
 // parameters, onset height if fitted, 2 per bounce). Lower is better; a difference above
 // ~6 is "strong" evidence (Kass & Raftery 1995, J. Am. Stat. Assoc. 90:773-795, §3.2);
-// below 2 the laws are not distinguished by the data.
+// below 2 the laws are not distinguished by the data. RankLaws orders the fits by BIC, every
+// fit that could start included (one that stopped at the iteration cap or on a bound keeps
+// its place: its BIC is that of a solution at least as good as the one it reports), with one
+// rule on top: a law with a parameter the data do not determine (relative SD above 50 %)
+// never ranks above a law whose parameters are all determined and whose RMS residual is not
+// larger (docs/methods.md §13).
 //
 // Failure is data: a fit that does not converge has converged = false; a fit that cannot
-// start (no complete bounce, no impact speed) has `failure` set. Degenerate data (a single
-// bounce with the onset height fitted, few samples in contact, noise comparable with the
-// deflection, a parameter with a relative SD above 50 %) add warnings.
+// start (no complete bounce, no impact speed) has `failure` set. A parameter on one of its
+// bounds is named in `bounds_reached` (its SD then holds on the bound's other side only).
+// Degenerate data (a single bounce with the onset height fitted, few samples in contact,
+// noise comparable with the deflection, a parameter with a relative SD above 50 %) add
+// warnings.
 
 #include <limits>
 #include <memory>
@@ -192,6 +200,9 @@ struct LawFitResult {
   double rms_residual_m = 0.0;
   double bic = 0.0;
   bool converged = false;
+  // Parameters on a bound of the search, e.g. "n = 0.5 sits on its lower bound (range [0.5,
+  // 4])"; empty when none is.
+  std::vector<std::string> bounds_reached;
   int iterations = 0;  // over all starts
   int starts = 0;      // multi-start count
   double solve_time_s = 0.0;
@@ -214,16 +225,29 @@ std::string LawFormula(LawId law, const TreadGeometry& tread);
 // problems are returned in the result.
 LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOptions& options);
 
-// All five laws (AllLaws() order) and the index of the lowest-BIC converged fit (nothing
-// when none converged).
+// All five laws (AllLaws() order) and the index of the first fit of RankLaws (nothing when
+// every fit failed).
 struct LawComparison {
   std::vector<LawFitResult> fits;
   std::optional<int> best;
 };
 LawComparison FitAllLaws(const std::vector<FitClip>& clips, const LawFitOptions& options);
 
-// Indices of `fits` by ascending BIC (failed fits last).
-std::vector<int> RankByBic(const std::vector<LawFitResult>& fits);
+// True when a parameter the fit moves has a relative SD above 50 % (or an infinite one):
+// the data do not determine it. Hertz's fixed exponent is not counted.
+bool HasUndeterminedParameter(const LawFitResult& fit);
+
+// Indices of `fits` in rank order (see "Model choice" above): ascending BIC, failed fits
+// last; then a fit with an undetermined parameter is moved below every fit with none whose
+// RMS residual is not larger (relative tolerance kRankResidualTolerance); the others keep
+// their BIC order.
+std::vector<int> RankLaws(const std::vector<LawFitResult>& fits);
+// Residuals that differ by less than this fraction count as equal in RankLaws (far below
+// the differences that noise makes between laws fitted to the same samples).
+constexpr double kRankResidualTolerance = 1e-3;
+
+// The rank order's first fit that could start, or nothing when all failed.
+std::optional<int> BestOfRanking(const std::vector<LawFitResult>& fits);
 
 // The impact of a law with the given parameters, starting from a window-start state: the
 // forward model's figures of the first impact after start_time_s (for predictions).

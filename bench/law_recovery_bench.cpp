@@ -273,30 +273,25 @@ struct RankVerdict {
 
 RankVerdict JudgeRanking(LawId truth, const std::vector<analysis::LawFitResult>& fits) {
   RankVerdict v;
-  const std::vector<int> order = analysis::RankByBic(fits);
-  int best_index = order.front();  // the lowest-BIC converged fit, as FitAllLaws' `best`
-  for (int i : order) {
-    if (fits[static_cast<size_t>(i)].converged && !fits[static_cast<size_t>(i)].failure) {
-      best_index = i;
-      break;
-    }
-  }
+  const std::vector<int> order = analysis::RankLaws(fits);
+  const int best_index = order.front();  // as FitAllLaws' `best`
   const analysis::LawFitResult& best = fits[static_cast<size_t>(best_index)];
   const analysis::LawFitResult& tf = fits[static_cast<size_t>(static_cast<int>(truth))];
   for (int i : order) {
     const analysis::LawFitResult& f = fits[static_cast<size_t>(i)];
     char b[64];
-    if (f.failure || !f.converged) {
-      std::snprintf(b, sizeof b, "%s(%s) ", analysis::ToString(f.law).c_str(), f.failure ? "failed" : "no conv");
+    if (f.failure) {
+      std::snprintf(b, sizeof b, "%s(failed) ", analysis::ToString(f.law).c_str());
     } else {
-      std::snprintf(b, sizeof b, "%s(%+.1f) ", analysis::ToString(f.law).c_str(), f.bic - best.bic);
+      std::snprintf(b, sizeof b, "%s(%+.1f%s) ", analysis::ToString(f.law).c_str(), f.bic - best.bic,
+                    f.converged ? "" : ", no conv");
     }
     v.ranking += b;
   }
-  if (best.law == truth && best.converged && !best.failure) {
+  if (best.law == truth && !best.failure) {
     v.ok = true;
     v.how = "first";
-  } else if (tf.converged && !tf.failure && tf.bic - best.bic <= kBicTol) {
+  } else if (!tf.failure && tf.bic - best.bic <= kBicTol) {
     if (analysis::LawNests(best.law, truth)) {
       v.ok = true;
       v.how = "nests";

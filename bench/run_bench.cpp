@@ -268,8 +268,12 @@ void CheckJointFits(const fs::path& out, const cli::Summary& summary, const Trut
     std::printf(" ), best law %s\n", sp.best_law.value_or("none").c_str());
     std::vector<const cli::JointFitRecord*> ranked;
     for (const cli::JointFitRecord& j : sp.joint_fits) ranked.push_back(&j);
-    std::sort(ranked.begin(), ranked.end(), [](auto* a, auto* b) {
-      const double ba = a->fit.converged ? a->fit.bic : INFINITY, bb = b->fit.converged ? b->fit.bic : INFINITY;
+    // The tool's own ranking first (best_law), then by BIC.
+    std::sort(ranked.begin(), ranked.end(), [&](auto* a, auto* b) {
+      const bool a_best = sp.best_law && a->fit.law == *sp.best_law, b_best = sp.best_law && b->fit.law == *sp.best_law;
+      if (a_best != b_best) return a_best;
+      const double ba = std::isfinite(a->fit.bic) ? a->fit.bic : INFINITY,
+                   bb = std::isfinite(b->fit.bic) ? b->fit.bic : INFINITY;
       return ba < bb;
     });
     const cli::JointFitRecord* truth_fit = nullptr;
@@ -285,7 +289,7 @@ void CheckJointFits(const fs::path& out, const cli::Summary& summary, const Trut
     }
     // Ranking: the true law first, or tied (within 2 BIC) with a law that nests it.
     bool rank_ok = false;
-    if (truth_fit && truth_fit->fit.converged && !ranked.empty()) {
+    if (truth_fit && std::isfinite(truth_fit->fit.bic) && !ranked.empty()) {
       const cli::JointFitRecord* best = ranked.front();
       const analysis::LawId best_law = analysis::LawIdFromString(best->fit.law);
       rank_ok = best_law == truth_law ||

@@ -28,6 +28,9 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"solve_time_s", fit.solve_time_s}};
   r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
+  std::string bounds;
+  for (const std::string& b : fit.bounds_reached) bounds += (bounds.empty() ? "" : " | ") + b;
+  if (!bounds.empty()) r.notes.emplace_back("bounds_reached", bounds);
   std::string warnings;
   for (const std::string& w : fit.warnings) warnings += (warnings.empty() ? "" : " | ") + w;
   if (!warnings.empty()) r.notes.emplace_back("warnings", warnings);
@@ -54,7 +57,7 @@ void AddLawFitsToResult(const analysis::LawComparison& laws, const std::vector<p
     }
   }
   if (!laws.best) {
-    result.warnings.push_back(result.clip + ": no contact law converged; the impact figures come from the track");
+    result.warnings.push_back(result.clip + ": no contact law could be fitted; the impact figures come from the track");
     return;
   }
   const analysis::LawFitResult& best = laws.fits[static_cast<size_t>(*laws.best)];

@@ -116,9 +116,11 @@ std::string ParamText(const FitRecord& f) {
 
 void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fits,
               const std::optional<std::string>& best) {
-  double best_bic = std::numeric_limits<double>::infinity();
+  // Delta BIC is relative to the best law (docs/formats.md, "best_law"), which a law with an
+  // undetermined parameter can undercut.
+  double best_bic = std::numeric_limits<double>::quiet_NaN();
   for (const FitRecord* f : fits) {
-    if (f->converged && std::isfinite(f->bic)) best_bic = std::min(best_bic, f->bic);
+    if (best && *best == f->law) best_bic = f->bic;
   }
   html << "<table><tr><th class=\"t\">law</th><th class=\"t\">parameters &plusmn; standard deviation</th>"
           "<th>onset height [mm]</th><th>RMS residual [&micro;m]</th><th>BIC</th><th>&Delta;BIC</th>"
@@ -129,7 +131,7 @@ void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fit
          << "</td><td class=\"t p\">" << ParamText(*f) << "</td><td>" << Scaled(f->onset_height_m, 1e3, 2) << " ("
          << EscapeHtml(f->onset_height_source) << ")</td><td>" << Scaled(f->rms_residual_m, 1e6, 1) << "</td><td>"
          << Scaled(f->bic, 1, 1) << "</td><td>"
-         << (std::isfinite(best_bic) && f->converged ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;")
+         << (std::isfinite(best_bic) && std::isfinite(f->bic) ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;")
          << "</td><td class=\"t\">" << (f->converged ? "yes" : "no") << "</td></tr>";
   }
   html << "</table>";

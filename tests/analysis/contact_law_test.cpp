@@ -89,7 +89,7 @@ TEST(ContactLaw, ForceIsDifferentiableWithJetsIncludingTheExponent) {
 
 TEST(ContactLaw, InvalidParametersAreNamedWithTheirValue) {
   EXPECT_EQ(ValidateLawParameters(LawId::kKelvinVoigt, {2e5, 300}), std::nullopt);
-  EXPECT_EQ(ValidateLawParameters(LawId::kHuntCrossley, {1e7, 7, 0.2}), "hunt-crossley: n = 7 is outside [1, 4]");
+  EXPECT_EQ(ValidateLawParameters(LawId::kHuntCrossley, {1e7, 7, 0.2}), "hunt-crossley: n = 7 is outside [0.5, 4]");
   EXPECT_EQ(ValidateLawParameters(LawId::kHertz, {1e7, 1.4, 0.2}),
             "hertz: n = 1.4 must be 1.5 (fixed for the hertz law)");
   EXPECT_EQ(ValidateLawParameters(LawId::kBilinear, {1e5, 1e6, 0.0, 1.0}), "bilinear: knee_m = 0 must be positive");
