@@ -114,6 +114,14 @@ std::string ParamText(const FitRecord& f) {
   return s;
 }
 
+// "; on a bound: ..." when a parameter of the fit ended on a bound of its search.
+std::string BoundNote(const FitRecord& f) {
+  for (const auto& [name, text] : f.notes) {
+    if (name == "bounds_reached") return "; on a bound: " + EscapeHtml(text);
+  }
+  return "";
+}
+
 void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fits,
               const std::optional<std::string>& best) {
   // Delta BIC is relative to the best law (docs/formats.md, "best_law"), which a law with an
@@ -132,7 +140,7 @@ void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fit
          << EscapeHtml(f->onset_height_source) << ")</td><td>" << Scaled(f->rms_residual_m, 1e6, 1) << "</td><td>"
          << Scaled(f->bic, 1, 1) << "</td><td>"
          << (std::isfinite(best_bic) && std::isfinite(f->bic) ? Scaled(f->bic - best_bic, 1, 1) : "&ndash;")
-         << "</td><td class=\"t\">" << (f->converged ? "yes" : "no") << "</td></tr>";
+         << "</td><td class=\"t\">" << (f->converged ? "yes" : "no") << BoundNote(*f) << "</td></tr>";
   }
   html << "</table>";
 }
