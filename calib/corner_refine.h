@@ -95,7 +95,7 @@ int SaddleHalfWindowPx(const std::vector<cv::Point2f>& corners_px, const BoardSp
 // X-corner model of docs/methods.md §9). Fitted to the raw pixels within the half window of the
 // start by Levenberg-Marquardt (Levenberg 1944, Marquardt 1963: the step solves
 // (J^T J + lambda diag(J^T J)) delta = -J^T r, lambda shrunk by 10 after a step that lowers the
-// cost and raised by 10 otherwise; common practice) with the analytic Jacobian.
+// cost and raised by 10 otherwise; citations from memory) with the analytic Jacobian.
 // Started at a saddle fit: the corner at its saddle point, the edge angles along the asymptotes
 // of its quadratic (the zero set of a x^2 + b x y + c y^2), sigma = 1 px, m the window's mean and
 // |A| half its range.
