@@ -355,7 +355,8 @@ int SaddleHalfWindowPx(const std::vector<cv::Point2f>& corners_px, const BoardSp
     }
   }
   if (!std::isfinite(height)) height = 0;
-  return std::clamp(static_cast<int>(0.4 * height), 2, std::max(2, max_half_window_px));
+  const int cap = std::max(2, max_half_window_px);
+  return std::clamp(static_cast<int>(std::min(0.4 * height, static_cast<double>(cap))), 2, cap);
 }
 
 RefinedCorners RefineCornersBySaddle(const cv::Mat& grey, const std::vector<cv::Point2f>& start_px,
