@@ -13,6 +13,7 @@
 #include <stdexcept>
 
 #include "calib/calibrate_steps.h"
+#include "calib/corner_refine.h"
 #include "dropfit/version.h"
 
 namespace dropfit::calib {
@@ -237,6 +238,14 @@ BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subp
   const int half = std::clamp(static_cast<int>(0.4 * spacing), 2, subpix_half_window_px);
   cv::cornerSubPix(grey, out.corners_px, cv::Size(half, half), cv::Size(-1, -1),
                    cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 50, 1e-3));
+  // Then the saddle-point fit and the X-corner fit from it (calib/corner_refine.h), in a disc
+  // that stays inside the four squares around every corner.
+  CornerRefineOptions refine;
+  refine.saddle.half_window_px = SaddleHalfWindowPx(out.corners_px, board, subpix_half_window_px);
+  refine.xcorner.half_window_px = refine.saddle.half_window_px;
+  RefinedCorners refined = RefineCorners(grey, out.corners_px, refine);
+  out.corners_px = std::move(refined.corners_px);
+  out.refine_fallbacks = std::move(refined.fallbacks);
   out.blur_px = EstimateEdgeBlurPx(grey, out.corners_px, board);
   return out;
 }
@@ -604,6 +613,15 @@ StepReport JudgeDetections(const ViewDetections& found, const std::vector<Calibr
     }
     report.warnings.push_back("forced (--force): " + msg);
   }
+  // Corners whose fine fits failed keep the coarser estimate (calib/corner_refine.h); named, not judged.
+  const auto note_fallbacks = [&report](const std::string& name, const BoardDetection& d) {
+    if (d.refine_fallbacks.empty()) return;
+    report.notes.push_back(name + ": " + Plural(d.refine_fallbacks.size(), "corner keeps", "corners keep") +
+                           " a coarser estimate (" + d.refine_fallbacks.front() +
+                           (d.refine_fallbacks.size() > 1 ? "; ..." : "") + ")");
+  };
+  note_fallbacks(plane.name, found.plane);
+  for (const DetectedView& v : found.usable) note_fallbacks(v.name, v.detection);
   if (!found.no_board.empty()) {
     report.notes.push_back("no " + board_text + " board found in " + Plural(found.no_board.size(), "image", "images") +
                            ": " + JoinNames(found.no_board));

@@ -5,8 +5,12 @@
 //
 // Method.
 // 1. Corners: cv::findChessboardCornersSB finds the board, cv::cornerSubPix refines each corner
-//    (11 x 11 window, shrunk on small squares so it never spans a neighbour; the refinement is
-//    what made the classic detector the more accurate one in docs/platform.md, "Checkerboard detection"). The classic
+//    (a (2h + 1)-pixel square window, h = subpix_half_window_px shrunk on small squares so it never
+//    spans a neighbour; the refinement is what made the classic detector the more accurate one in
+//    docs/platform.md, "Checkerboard detection"), then a saddle-point fit (Lucchese & Mitra 2002)
+//    and a blurred X-corner model fit from it refine it further (calib/corner_refine.h,
+//    docs/methods.md §16a: on rendered boards 0.009 px mean error against cornerSubPix's 0.055 px;
+//    a fit that fails keeps the previous estimate and is named in BoardDetection). The classic
 //    cv::findChessboardCorners is NOT used to find the board: measured here (OpenCV 4.6, 1024x768)
 //    it takes 13-45 s per image, with or without FAST_CHECK, when the board in view has another
 //    corner count than the one asked for (a wrong --board, a board partly out of view), while
@@ -75,7 +79,9 @@ struct CalibrateOptions {
   double min_board_coverage_fraction = 0.05;  // 0..1: plane view's board area / frame; warn below
   double min_views_coverage_fraction = 0.5;   // 0..1: frame share covered by lens views; warn below
   double min_tilt_spread_deg = 15.0;          // [deg] 0..90: largest angle between view normals; warn below
-  int subpix_half_window_px = 5;              // [px] 2..30: cornerSubPix window is 2 x this + 1
+  int subpix_half_window_px = 9;              // [px] 2..30: corner refinement half window (cornerSubPix's
+                                              // square, the saddle and X-corner fits' disc), shrunk on
+                                              // small squares
   int max_video_views = 20;                   // [views] 3..200: frames kept from one video
   int video_candidates_per_view = 3;          // 1..20: frames looked at per frame kept
 };
@@ -85,13 +91,15 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& opti
 // One board detection.
 struct BoardDetection {
   bool found = false;
-  std::vector<cv::Point2f> corners_px;  // inner corners, row by row as OpenCV orders them
-  double blur_px = 0.0;                 // edge blur sigma estimate [px] (0 when not found)
+  std::vector<cv::Point2f> corners_px;        // inner corners, row by row as OpenCV orders them
+  double blur_px = 0.0;                       // edge blur sigma estimate [px] (0 when not found)
+  std::vector<std::string> refine_fallbacks;  // corners whose saddle or X-corner fit failed, with the
+                                              // reason ("corner <k>: ..."); they keep the estimate before
 };
 
 // Finds the inner corners to sub-pixel accuracy (method: point 1 above).
 // Throws std::invalid_argument when `grey` is empty or not 8-bit single-channel.
-BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subpix_half_window_px = 5);
+BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subpix_half_window_px = 9);
 
 // Edge blur sigma [px] of a found board: median over the square edges of the 10-90 % rise
 // distance / 2.563. Returns 0 when no edge can be measured.
