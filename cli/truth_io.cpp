@@ -253,11 +253,8 @@ std::string TruthToJson(const RenderTruth& truth) {
                        {"board_tvec_m", Vec3(view.board_tvec_m)},
                        {"inner_corners_px", corners}});
     }
-    j["calibration"] = {{"board", c.board},
-                        {"square_m", c.square_m},
-                        {"corner_height_m", c.corner_height_m},
-                        {"noise_seed", c.noise_seed},
-                        {"views", views}};
+    j["calibration"] = {
+        {"board", c.board}, {"square_m", c.square_m}, {"corner_height_m", c.corner_height_m}, {"views", views}};
   } else {
     j["calibration"] = nullptr;
   }
@@ -346,8 +343,6 @@ RenderTruth ParseTruthJson(const std::string& text, const std::string& file) {
     ct.board = Get<std::string>(c, "board", where);
     ct.square_m = GetNumber(c, "square_m", where);
     ct.corner_height_m = GetNumber(c, "corner_height_m", where);
-    // Added with issue 14; older truth files have none.
-    if (c.contains("noise_seed")) ct.noise_seed = Get<uint64_t>(c, "noise_seed", where);
     for (const json& view : Field(c, "views", where)) {
       CalibrationViewTruth vt;
       vt.file = Get<std::string>(view, "file", where);

@@ -189,7 +189,8 @@ std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOp
   add("board", o.board);
   add("square_m", Fmt(o.square_m));
   add("lens_views", std::to_string(o.lens_views));
-  add("calibration_seed", std::to_string(CalibrationNoiseSeed(o)));
+  // Only when given, so that the files of a set rendered without it stay as they were.
+  if (o.calibration_seed) add("calibration_seed", std::to_string(*o.calibration_seed));
   add("first_frames", std::to_string(o.first_frames));
   return out;
 }

@@ -153,8 +153,8 @@ std::string FormatRecordNumber(double value);
 
 // The effective options of a run, "name" (the field name) and value text, in a fixed order:
 // law parameters with their defaults ("param.<name>"), resolved rim radius, marker diameter,
-// principal point, exposure (after clean), format and container rate. out_dir and threads
-// are not recorded (they do not change what is drawn).
+// principal point, exposure (after clean), format and container rate; calibration_seed only when
+// set. out_dir and threads are not recorded (they do not change what is drawn).
 std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOptions& options, const RenderPlan& plan);
 
 // The options a run recorded (EffectiveOptions), back as a struct, so that a clip set can be

@@ -51,9 +51,9 @@ CalibrationTruth WriteCalibrationImages(const RenderSetPlan& set, const fs::path
   ct.board = options.board;
   ct.square_m = options.square_m;
   ct.corner_height_m = PlaneBoardCornerHeight(set.plan.board);
-  ct.noise_seed = CalibrationNoiseSeed(options);
-  for (const CalibrationImage& image : RenderCalibrationImages(*set.renderer, set.plan.board, options.lens_views,
-                                                               set.plan.exposure, set.plan.add_noise, ct.noise_seed)) {
+  for (const CalibrationImage& image :
+       RenderCalibrationImages(*set.renderer, set.plan.board, options.lens_views, set.plan.exposure, set.plan.add_noise,
+                               CalibrationNoiseSeed(options))) {
     const std::string file = "calib/" + image.name + ".png";
     if (!cv::imwrite((out / file).string(), image.image)) {
       throw std::runtime_error("cannot write '" + (out / file).string() + "'");

@@ -49,7 +49,6 @@ struct CalibrationTruth {
   std::string board;  // "9x6"
   double square_m = 0.0;
   double corner_height_m = 0.0;  // plane view's lowest inner-corner row above the floor
-  uint64_t noise_seed = 0;       // the images' noise seed (CalibrationNoiseSeed, render_plan.h)
   std::vector<CalibrationViewTruth> views;
 };
 
