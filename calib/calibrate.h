@@ -40,7 +40,11 @@
 //    `warn_rms_px`, a small board, lens views covering little of the frame, little tilt variety
 //    (parallel views leave focal length and distortion confounded: Zhang 2000, section 3.3).
 //
-// The steps of points 1-4, each a function of its own with its inputs and outputs, are in
+// 5. Uncertainty: the corner noise, estimated from the plane view's and the lens views' residuals,
+//    propagated to the mapping's parameters and to heights, the floor and the scale
+//    (calib/rig_uncertainty.h; docs/methods.md §18).
+//
+// The steps of points 1-5, each a function of its own with its inputs and outputs, are in
 // calib/calibrate_steps.h; Calibrate runs them and holds the gates between them.
 //
 // RMS reprojection error is the root mean square over all corners of the distance between
@@ -67,6 +71,8 @@ struct CalibrateOptions {
   BoardSpec board;                            // inner corners and square size
   std::optional<double> corner_height_m;      // [m] >= 0: height above the floor of the plane view's
                                               // lowest inner-corner row; gives y_origin "floor"
+  double corner_height_sd_m = 0.0005;         // [m] 0..1: standard uncertainty of corner_height_m (a steel
+                                              // rule read by eye; from memory); into the floor's uncertainty
   UpSide up = UpSide::kTop;                   // image side physical up points to
   std::optional<double> capture_fps;          // [frames/s] > 0: stored in the rig as given
   bool force = false;                         // accept too few views or a high RMS (with a warning)
