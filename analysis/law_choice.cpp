@@ -163,12 +163,14 @@ LawChoice ChooseLaw(std::vector<LawFitResult>& fits, double noise_sd_m) {
     if (nested || close) out.equivalent.push_back(i);
   }
   const LawFitResult& b = fits[best];
-  const double worst = std::max(b.rms_residual_m, std::isfinite(b.rms_contact_m) ? b.rms_contact_m : 0.0);
+  // The robust spreads: a few outlying frames are not a law that misfits.
+  const double worst = std::max(std::isfinite(b.robust_sd_m) ? b.robust_sd_m : 0.0,
+                                std::isfinite(b.robust_sd_contact_m) ? b.robust_sd_contact_m : 0.0);
   if (std::isfinite(noise_sd_m) && noise_sd_m > 0.0 && worst > kNoLawFitsRatio * noise_sd_m) {
-    out.no_law_fits = "no law fits: the best of them (" + ToString(b.law) + ") leaves " + Micrometres(worst) +
-                      " RMS (in contact " + Micrometres(b.rms_contact_m) + "), over " +
-                      std::to_string(static_cast<int>(kNoLawFitsRatio)) + " times the track's noise of " +
-                      Micrometres(noise_sd_m) +
+    out.no_law_fits = "no law fits: the best of them (" + ToString(b.law) + ") leaves residuals of " +
+                      Micrometres(worst) + " (robust SD; " + Micrometres(b.robust_sd_contact_m) +
+                      " in contact), over " + std::to_string(static_cast<int>(kNoLawFitsRatio)) +
+                      " times the track's noise of " + Micrometres(noise_sd_m) +
                       "; the law-free figures (COR, impact and rebound speeds, track-only contact duration and "
                       "deflection) are the result";
   }

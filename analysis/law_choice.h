@@ -34,8 +34,9 @@
 // Laws whose C lies within 2 of the best law's are also listed: the data do not distinguish
 // them (Kass & Raftery 1995, J. Am. Stat. Assoc. 90:773-795, §3.2).
 //
-// No law fits. When even the best law leaves an RMS residual, over all its samples or over
-// those in contact (below the onset height), above kNoLawFitsRatio times the noise of the
+// No law fits. When even the best law leaves residuals whose robust SD (1.4826 x the median
+// |residual|, unmoved by a few outlying frames), over all its samples or over those in
+// contact (below the onset height), lies above kNoLawFitsRatio times the noise of the
 // track (the law-free flight parabolas' residual RMS of analysis/impacts.h, which holds the
 // tracker's error and no law's), the verdict names the numbers; the law-free figures (COR,
 // impact and rebound speeds, track-only duration and deflection) are then the result.

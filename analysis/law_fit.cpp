@@ -695,7 +695,16 @@ void PropagateFigureSds(const FitInputs& in, const Unknowns& u, const InternalCo
 struct ContactFlightSums {
   double contact_ss = 0.0, flight_ss = 0.0;
   int contact_n = 0, flight_n = 0;
+  std::vector<double> abs_all, abs_contact;  // |residual|, for the robust spreads
 };
+
+// 1.4826 x the median of |r|: the SD of Gaussian residuals, unmoved by a few outliers.
+double RobustSd(std::vector<double> abs_residuals) {
+  if (abs_residuals.empty()) return kNaN;
+  const auto mid = abs_residuals.begin() + static_cast<std::ptrdiff_t>(abs_residuals.size() / 2);
+  std::nth_element(abs_residuals.begin(), mid, abs_residuals.end());
+  return 1.4826 * *mid;
+}
 
 // The residuals' lag-1 autocorrelation at the kept solution, pooled over the windows (each
 // window's residuals in sample order; law_fit.h "Correlated residuals"); NaN when the
@@ -745,6 +754,8 @@ BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const I
       ss += r * r;
       (in_contact ? sums->contact_ss : sums->flight_ss) += r * r;
       ++(in_contact ? sums->contact_n : sums->flight_n);
+      sums->abs_all.push_back(std::abs(r));
+      if (in_contact) sums->abs_contact.push_back(std::abs(r));
     }
   }
   f.rms_residual_m = sim.ok ? std::sqrt(ss / f.samples) : kNaN;
@@ -1055,6 +1066,8 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   }
   result.rms_contact_m = sums.contact_n > 0 ? std::sqrt(sums.contact_ss / sums.contact_n) : kNaN;
   result.rms_flight_m = sums.flight_n > 0 ? std::sqrt(sums.flight_ss / sums.flight_n) : kNaN;
+  result.robust_sd_m = RobustSd(sums.abs_all);
+  result.robust_sd_contact_m = RobustSd(sums.abs_contact);
   AddDegenerateDataWarnings(in, max_deflections, &result);
   result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
   return result;

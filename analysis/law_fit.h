@@ -203,6 +203,10 @@ struct LawFitResult {
   double rms_residual_m = 0.0;
   double rms_contact_m = 0.0;  // over the samples below the onset height (NaN: none)
   double rms_flight_m = 0.0;   // over the others (NaN: none)
+  // 1.4826 x the median |residual|, over all samples and over those in contact (NaN: none):
+  // the residuals' spread unmoved by a few outlying frames.
+  double robust_sd_m = 0.0;
+  double robust_sd_contact_m = 0.0;
   double bic = 0.0;
   // The residuals' lag-1 autocorrelation (pooled over windows), the effective sample count
   // it gives and the factor sqrt(N / N_eff) applied to every SD of the fit.

@@ -45,6 +45,7 @@ LawFitResult Fit(LawId law, double bic, double rms_m, bool converged, double wor
   f.bic = bic;
   f.rms_residual_m = rms_m;
   f.rms_contact_m = rms_m;
+  f.robust_sd_m = f.robust_sd_contact_m = rms_m;
   f.converged = converged;
   f.samples = 1000;
   f.free_parameters = 10;
