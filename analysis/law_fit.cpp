@@ -14,6 +14,7 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "analysis/flight_fit.h"
 #include "analysis/law_choice.h"
 #include "analysis/law_fit_steps.h"
 
@@ -119,6 +120,8 @@ struct WindowData {
   double delta_ref_m = 0.0;
   double inv_scale = 1.0;  // residuals are (model - data) / scale, scale ~ the noise
   const FitWindow* window = nullptr;
+  // Per-sample square roots of the robust weights (law_fit.h, "Robust fit"); nothing: 1.
+  const std::vector<double>* sqrt_weights = nullptr;
 };
 
 template <int kDim>
@@ -135,6 +138,7 @@ struct WindowCost {
     if (status != SimulationStatus::kOk) return false;
     for (int i = 0; i < n; ++i) {
       residuals[i] = (residuals[i] - w.y_m[i]) * data.inv_scale;
+      if (data.sqrt_weights) residuals[i] *= (*data.sqrt_weights)[static_cast<size_t>(i)];
       if (!std::isfinite(detail::ScalarValue(residuals[i]))) return false;
     }
     return true;
@@ -162,8 +166,9 @@ ceres::CostFunction* MakeWindowCost(WindowData data) {
 struct Unknowns {
   std::vector<double> x;
   double onset = 0.0;
-  std::vector<double> known_onsets;           // per clip (used where known)
-  std::vector<std::array<double, 2>> states;  // per window, flattened over clips
+  std::vector<double> known_onsets;               // per clip (used where known)
+  std::vector<std::array<double, 2>> states;      // per window, flattened over clips
+  std::vector<std::vector<double>> sqrt_weights;  // per window and sample (robust fit)
 };
 
 struct WindowRef {
@@ -367,6 +372,7 @@ Solved BuildProblem(const FitInputs& in, const std::vector<double>& start_params
   for (const WindowRef& ref : in.windows)
     u.states.push_back({ref.window->start_height_m, ref.window->start_velocity_mps});
   s.problem = std::make_unique<ceres::Problem>();
+  for (const WindowRef& ref : in.windows) u.sqrt_weights.emplace_back(ref.window->t_s.size(), 1.0);
   for (size_t i = 0; i < in.windows.size(); ++i) {
     const WindowRef& ref = in.windows[i];
     WindowData d;
@@ -375,6 +381,7 @@ Solved BuildProblem(const FitInputs& in, const std::vector<double>& start_params
     d.delta_ref_m = in.start.delta_ref_m;
     d.inv_scale = 1.0 / kResidualScaleM;
     d.window = ref.window;
+    d.sqrt_weights = &u.sqrt_weights[i];  // sized before the loop: the pointers stay valid
     const bool known = in.clips[ref.clip].known_onset_height_m.has_value();
     double* onset_block = known ? &u.known_onsets[ref.clip] : &u.onset;
     s.problem->AddResidualBlock(MakeWindowCost(d), nullptr, u.x.data(), onset_block, u.states[i].data());
@@ -453,6 +460,51 @@ std::vector<std::string> BoundsReached(LawId law, const Solved& best, const std:
     out.push_back(text);
   }
   return out;
+}
+
+// The robust loss of the law fits (law_fit.h, "Robust fit"): when a few samples (at most
+// kMaxOutlierFraction of them) lie beyond kOutlierSigmas x the clips' noise from the kept
+// solution, every sample gets Huber's weight rho'(r^2) (Ceres' HuberLoss, scale
+// kHuberScaleSigmas x the noise) and the fit is solved again from there, up to
+// kReweightRounds times. More samples that far are a law that misfits, not outliers: left to
+// the law choice.
+constexpr double kOutlierSigmas = 5.0;
+constexpr double kMaxOutlierFraction = 0.02;
+constexpr int kReweightRounds = 4;
+
+void ReweightOutliers(const FitInputs& in, Solved& best, LawFitResult* result) {
+  const double noise = TrackNoise(in.clips);
+  if (!in.options.robust || !(noise > 0.0)) return;
+  const ceres::HuberLoss huber(kHuberScaleSigmas * noise / kResidualScaleM);
+  Unknowns& u = *best.unknowns;
+  for (int round = 0; round < kReweightRounds; ++round) {
+    std::vector<double> r;
+    if (!best.problem->Evaluate(ceres::Problem::EvaluateOptions(), nullptr, &r, nullptr, nullptr)) return;
+    size_t offset = 0;
+    int far = 0, total = 0, downweighted = 0;
+    double change = 0.0;
+    for (std::vector<double>& sw : u.sqrt_weights) {
+      for (double& w : sw) {
+        const double plain = r[offset++] / w;  // in units of kResidualScaleM
+        ++total;
+        if (std::abs(plain) * kResidualScaleM > kOutlierSigmas * noise) ++far;
+        double rho[3];
+        huber.Evaluate(plain * plain, rho);
+        const double next = std::sqrt(rho[1]);
+        change = std::max(change, std::abs(next - w));
+        w = next;
+        downweighted += next < 1.0 ? 1 : 0;
+      }
+    }
+    if (round == 0 && (far == 0 || far > kMaxOutlierFraction * total)) {
+      for (std::vector<double>& sw : u.sqrt_weights) std::fill(sw.begin(), sw.end(), 1.0);
+      return;
+    }
+    result->samples_downweighted = downweighted;
+    if (change < 1e-6) return;
+    ceres::Solve(SolverOptions(in.options), best.problem.get(), &best.summary);
+    result->iterations += static_cast<int>(best.summary.iterations.size()) - 1;
+  }
 }
 
 // Convergence, parameters, residuals and BIC of the kept solution.
@@ -1051,6 +1103,7 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
     result.failure = "no start of the solver gave a usable solution";
     return result;
   }
+  ReweightOutliers(in, *best, &result);
   ReportSolution(in, *best, &result);
   const int dof = result.samples - result.free_parameters;
   InternalCovariance cov = ComputeInternalCovariance(*best, InternalDim(law), start.onset_free, dof, &result.warnings);

@@ -45,6 +45,15 @@
 // that counts correlated residuals, parameters the data do not determine, equivalent nested
 // laws) is analysis/law_choice.h.
 //
+// Robust fit. A few outlying samples (a frame the tracker got wrong by half a pixel) would pull
+// the law. When at most 2 % of the samples lie beyond 5 x the clips' noise (FitClip::noise_sd_m,
+// median over the clips) from the solution, every sample is weighted by Huber's loss (Huber
+// 1964, Ann. Math. Statist. 35:73-101; Ceres' HuberLoss, scale 3 x the noise, as the flight
+// fits of analysis/flight_fit.h) and the fit is solved again, reweighted up to 4 times
+// (iteratively reweighted least squares). RSS, rms_residual_m, BIC and the covariance are
+// then those of the weighted residuals; samples_downweighted counts the samples of less than
+// full weight. More samples that far are a law that misfits, left to the law choice.
+//
 // Correlated residuals. The residuals' lag-1 autocorrelation rho (pooled over the windows)
 // gives an effective sample count N_eff = N (1 - rho) / (1 + rho) (analysis/law_choice.h);
 // every covariance and SD of the fit is inflated by N / N_eff (variance), so that residuals
@@ -154,6 +163,7 @@ struct LawFitOptions {
   int curve_points = 60;
   bool figure_uncertainties = true;
   int min_contact_samples = 6;
+  bool robust = true;  // the robust loss of "Robust fit" above; false: plain least squares (a test switch)
 };
 std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& options);
 
@@ -208,6 +218,7 @@ struct LawFitResult {
   double robust_sd_m = 0.0;
   double robust_sd_contact_m = 0.0;
   double bic = 0.0;
+  int samples_downweighted = 0;  // samples the robust loss gave less than full weight
   // The residuals' lag-1 autocorrelation (pooled over windows), the effective sample count
   // it gives and the factor sqrt(N / N_eff) applied to every SD of the fit.
   double residual_lag1_correlation = 0.0;

@@ -33,7 +33,8 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"rms_contact_m", fit.rms_contact_m},
              {"rms_flight_m", fit.rms_flight_m},
              {"robust_sd_m", fit.robust_sd_m},
-             {"robust_sd_contact_m", fit.robust_sd_contact_m}};
+             {"robust_sd_contact_m", fit.robust_sd_contact_m},
+             {"samples_downweighted", static_cast<double>(fit.samples_downweighted)}};
   r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
   std::string bounds;

@@ -88,6 +88,12 @@ TEST(RobustFits, AFewDisplacedFramesMoveNoFigureByMoreThanItsUncertainty) {
               fb.falling_flight_downweighted);
   EXPECT_GT(fb.falling_flight_downweighted, fa.falling_flight_downweighted);
   EXPECT_LE(fa.falling_flight_downweighted, 5);
+  // The law fit: the displaced frames in its windows lose weight; the clean track is fitted by
+  // plain least squares (no sample 5 SD away).
+  std::printf("law fit: down-weighted clean %d, displaced %d\n", a.fit.samples_downweighted,
+              b.fit.samples_downweighted);
+  EXPECT_EQ(a.fit.samples_downweighted, 0);
+  EXPECT_GE(b.fit.samples_downweighted, 3);
 
   // The test switch: plain least squares lets the frames just before the contact pull the
   // falling parabola, and with it the impact speed, by more than its uncertainty.
