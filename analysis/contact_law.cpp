@@ -16,13 +16,14 @@ struct LawInfo {
   std::vector<std::string> parameters;
 };
 
-const std::array<LawInfo, 5>& Table() {
-  static const std::array<LawInfo, 5> table{{
+const std::array<LawInfo, 6>& Table() {
+  static const std::array<LawInfo, 6> table{{
       {LawId::kKelvinVoigt, "kelvin-voigt", {"k_n_per_m", "c_ns_per_m"}},
       {LawId::kHuntCrossley, "hunt-crossley", {"k", "n", "alpha_s_per_m"}},
       {LawId::kHertz, "hertz", {"k", "n", "alpha_s_per_m"}},
       {LawId::kBilinear, "bilinear", {"k1_n_per_m", "k2_n_per_m", "knee_m", "c_ns_per_m"}},
       {LawId::kVolumetric, "volumetric", {"kv_n_per_m3", "a_s_per_m"}},
+      {LawId::kBottoming, "bottoming", {"k_n_per_m", "k3_n_per_m3", "knee_m", "a_s_per_m"}},
   }};
   return table;
 }
@@ -37,6 +38,17 @@ const LawInfo& Info(LawId law) {
 }  // namespace
 
 const std::vector<LawId>& AllLaws() {
+  static const std::vector<LawId> laws = [] {
+    std::vector<LawId> out;
+    for (const auto& info : Table()) {
+      if (info.id != LawId::kBottoming) out.push_back(info.id);
+    }
+    return out;
+  }();
+  return laws;
+}
+
+const std::vector<LawId>& RenderableLaws() {
   static const std::vector<LawId> laws = [] {
     std::vector<LawId> out;
     for (const auto& info : Table()) out.push_back(info.id);
@@ -61,7 +73,7 @@ const std::vector<std::string>& ParameterNames(LawId law) { return Info(law).par
 int ParameterCount(LawId law) { return static_cast<int>(Info(law).parameters.size()); }
 
 bool IsMultiplicativeDamping(LawId law) {
-  return law == LawId::kHuntCrossley || law == LawId::kHertz || law == LawId::kVolumetric;
+  return law == LawId::kHuntCrossley || law == LawId::kHertz || law == LawId::kVolumetric || law == LawId::kBottoming;
 }
 
 std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<double>& params) {
@@ -108,6 +120,12 @@ std::optional<std::string> ValidateLawParameters(LawId law, const std::vector<do
     case LawId::kVolumetric:
       if (!(params[0] > 0.0)) return fail(0, "must be positive");
       if (!(params[1] >= 0.0)) return fail(1, "must not be negative");
+      break;
+    case LawId::kBottoming:
+      if (!(params[0] > 0.0)) return fail(0, "must be positive");
+      if (!(params[1] >= 0.0)) return fail(1, "must not be negative");
+      if (!(params[2] > 0.0)) return fail(2, "must be positive");
+      if (!(params[3] >= 0.0)) return fail(3, "must not be negative");
       break;
   }
   return std::nullopt;

@@ -15,6 +15,12 @@
 //                                                                   k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m
 //   volumetric     F = kv V(delta) (1 + a delta_dot)               kv_n_per_m3, a_s_per_m
 //                  (Gonthier et al. 2004; V the interpenetration volume of the tread)
+//   bottoming      F = (k delta + k3 <delta - knee>^3) (1 + a delta_dot)
+//                                                                   k_n_per_m, k3_n_per_m3, knee_m, a_s_per_m
+//                  a rendering truth outside the fitted laws (never fitted): a tyre whose
+//                  stiffness grows with the cube of the deflection beyond a knee, as when it
+//                  bottoms on its rim, with damping proportional to the force (to the
+//                  deflection below the knee); <x> = max(x, 0)
 
 #include <optional>
 #include <string>
@@ -24,10 +30,12 @@
 
 namespace dropfit::analysis {
 
-enum class LawId { kKelvinVoigt, kHuntCrossley, kHertz, kBilinear, kVolumetric };
+enum class LawId { kKelvinVoigt, kHuntCrossley, kHertz, kBilinear, kVolumetric, kBottoming };
 
-// All laws, in the order results list them.
+// The fitted laws, in the order results list them (bottoming is not among them).
 const std::vector<LawId>& AllLaws();
+// Every law the forward model and the renderer know: AllLaws() and bottoming.
+const std::vector<LawId>& RenderableLaws();
 
 // "kelvin-voigt", "hunt-crossley", "hertz", "bilinear", "volumetric".
 std::string ToString(LawId law);
@@ -47,6 +55,7 @@ const std::vector<std::string>& ParameterNames(LawId law);
 //   hertz          {k [N/m^1.5], n (must be 1.5; the force always uses 1.5), alpha_s_per_m}
 //   bilinear       {k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m}
 //   volumetric     {kv_n_per_m3, a_s_per_m}   (+ the TreadGeometry, which is data)
+//   bottoming      {k_n_per_m, k3_n_per_m3, knee_m, a_s_per_m}
 // Valid ranges (checked by ValidateLawParameters): stiffnesses > 0 and finite; damping
 // c, alpha, a >= 0; kHuntCrossleyExponentMin <= n <= kHuntCrossleyExponentMax (hunt-crossley);
 // n == 1.5 (hertz); knee_m > 0.

@@ -24,6 +24,7 @@ T SignedPower(const T& delta, const N& n) {
 template <typename T>
 const T& MultiplicativeDamping(LawId law, const T* params) {
   assert(IsMultiplicativeDamping(law));
+  if (law == LawId::kBottoming) return params[3];
   return law == LawId::kVolumetric ? params[1] : params[2];
 }
 
@@ -54,6 +55,11 @@ T ElasticContactForce(LawId law, const T* params, const TreadGeometry& geometry,
       if (detail::ScalarValue(delta_m) >= 0.0) return params[0] * InterpenetrationVolume(geometry, delta_m);
       return -params[0] * InterpenetrationVolume(geometry, T(-delta_m));
     }
+    case LawId::kBottoming: {
+      const T beyond = delta_m - params[2];
+      if (detail::ScalarValue(beyond) <= 0.0) return params[0] * delta_m;
+      return params[0] * delta_m + params[1] * beyond * beyond * beyond;
+    }
   }
   assert(false && "unknown law");
   return T(0.0);
@@ -73,6 +79,8 @@ T UnclampedContactForce(LawId law, const T* params, const TreadGeometry& geometr
       return elastic + params[3] * delta_dot_mps;
     case LawId::kVolumetric:
       return elastic * (1.0 + params[1] * delta_dot_mps);
+    case LawId::kBottoming:
+      return elastic * (1.0 + params[3] * delta_dot_mps);
   }
   assert(false && "unknown law");
   return T(0.0);

@@ -207,6 +207,9 @@ InitialGuessResult GuessLawParameters(LawId law, const ImpactGuessFigures& figur
       note << "a from the exact COR relation (docs/methods.md §5), kv from the exact compression work";
       break;
     }
+    case LawId::kBottoming:
+      out.failure = "bottoming is a rendering truth, not a law dropfit fits";
+      return out;
   }
   guess.note = note.str();
   out.guess = std::move(guess);

@@ -42,6 +42,8 @@ int InternalDim(LawId law) {
       return 4;
     case LawId::kVolumetric:
       return 2;
+    case LawId::kBottoming:  // never fitted (FitLaw refuses it)
+      return 0;
   }
   return 0;
 }
@@ -68,6 +70,8 @@ void ToLawParams(LawId law, const T* x, double delta_ref_m, T* p) {
     case LawId::kBilinear:
       for (int i = 0; i < 4; ++i) p[i] = exp(x[i]);
       return;
+    case LawId::kBottoming:  // never fitted
+      return;
   }
 }
 
@@ -82,6 +86,8 @@ std::vector<double> FromLawParams(LawId law, const std::vector<double>& p, doubl
       return {std::log(p[0]), std::log(p[2])};
     case LawId::kBilinear:
       return {std::log(p[0]), std::log(p[1]), std::log(p[2]), std::log(p[3])};
+    case LawId::kBottoming:  // never fitted
+      return {};
   }
   return {};
 }
@@ -106,6 +112,8 @@ Eigen::MatrixXd LawParamJacobian(LawId law, const std::vector<double>& p, double
     case LawId::kHertz:
       g(0, 0) = p[0];
       g(2, 1) = p[2];
+      break;
+    case LawId::kBottoming:  // never fitted
       break;
   }
   return g;
@@ -997,6 +1005,10 @@ std::string LawFormula(LawId law, const TreadGeometry& tread) {
       if (!tread.note.empty()) out += "; " + tread.note;
       return out + common;
     }
+    case LawId::kBottoming:
+      return "F = (k*delta + k3*max(delta - knee, 0)^3)*(1 + a*delta_dot); k [N/m], k3 [N/m^3], knee [m], "
+             "a [s/m] (a rendering truth, never fitted)" +
+             common;
   }
   return "";
 }
@@ -1085,6 +1097,10 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   result.law = law;
   result.param_names = ParameterNames(law);
   result.formula = LawFormula(law, options.tread);
+  if (std::find(AllLaws().begin(), AllLaws().end(), law) == AllLaws().end()) {
+    result.failure = ToString(law) + " is a rendering truth, not a law dropfit fits";
+    return result;
+  }
 
   const std::vector<WindowRef> windows = CollectWindows(clips, &result.bounces);
   if (windows.empty()) {

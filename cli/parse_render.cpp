@@ -10,14 +10,17 @@ namespace {
 // Contact law, mass, heights, repeats, seed and the motion around the drop.
 void AddPhysicsOptions(CLI::App* sub, RenderCommandOptions* o) {
   const char* physics = "Physics";
-  sub->add_option("--law", o->law, "Contact law: kelvin-voigt|hunt-crossley|hertz|bilinear|volumetric")
+  sub->add_option("--law", o->law,
+                  "Contact law: kelvin-voigt|hunt-crossley|hertz|bilinear|volumetric, or bottoming (a truth outside "
+                  "the fitted laws: stiffening with the cube of the deflection beyond a knee)")
       ->capture_default_str()
       ->group(physics);
   sub->add_option("--param", o->params,
                   "Law parameter NAME=VALUE in the contract's names and units, repeatable, e.g. "
                   "--param k_n_per_m=4e4 --param c_ns_per_m=100 (kelvin-voigt); k, n, alpha_s_per_m "
                   "(hunt-crossley, hertz); k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m (bilinear); "
-                  "kv_n_per_m3, a_s_per_m (volumetric). Unset ones take the law's default")
+                  "kv_n_per_m3, a_s_per_m (volumetric); k_n_per_m, k3_n_per_m3, knee_m, a_s_per_m (bottoming). Unset "
+                  "ones take the law's default")
       ->group(physics);
   sub->add_option("--mass", o->mass_kg, "Dropped mass [kg], (0, 1e4]")->capture_default_str()->group(physics);
   sub->add_option("--heights", o->heights_m,

@@ -36,6 +36,8 @@ std::vector<double> TyreLikeLawParams(analysis::LawId law) {
       return {1e5, 4e5, 0.006, 200.0};
     case analysis::LawId::kVolumetric:
       return {2.5e7, 0.2};
+    case analysis::LawId::kBottoming:
+      return {1e5, 2e10, 0.006, 0.2};
   }
   return {};
 }

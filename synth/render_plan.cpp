@@ -288,6 +288,8 @@ std::vector<std::string> RenderLawDefaults(const std::string& law) {
       return {"k1_n_per_m=2.5e4", "k2_n_per_m=8e4", "knee_m=0.015", "c_ns_per_m=90"};
     case analysis::LawId::kVolumetric:
       return {"kv_n_per_m3=5.4e6", "a_s_per_m=0.2"};
+    case analysis::LawId::kBottoming:
+      return {"k_n_per_m=2.5e4", "k3_n_per_m3=5e9", "knee_m=0.015", "a_s_per_m=0.3"};
   }
   return {};
 }

@@ -4,6 +4,8 @@
 #include <ceres/jet.h>
 #include <gtest/gtest.h>
 
+#include <algorithm>
+
 #include <cmath>
 
 namespace dropfit::analysis {
@@ -26,7 +28,8 @@ TEST(ContactLaw, UnknownLawIdIsRejectedWithTheValidList) {
     FAIL() << "no exception";
   } catch (const std::invalid_argument& e) {
     EXPECT_STREQ(e.what(),
-                 "unknown contact law 'maxwell'; valid: kelvin-voigt, hunt-crossley, hertz, bilinear, volumetric");
+                 "unknown contact law 'maxwell'; valid: kelvin-voigt, hunt-crossley, hertz, bilinear, volumetric, "
+                 "bottoming");
   }
 }
 
@@ -51,6 +54,12 @@ TEST(ContactLaw, ForcesFollowTheirDefiningEquations) {
   EXPECT_NEAR(ContactForce(LawId::kBilinear, bl, none, 0.015, 0.2), 1000.0 + 1e6 * 0.005 + 50.0 * 0.2, 1e-9);
   EXPECT_NEAR(ElasticContactForce(LawId::kBilinear, bl, none, 0.01 - 1e-12),
               ElasticContactForce(LawId::kBilinear, bl, none, 0.01 + 1e-12), 1e-5);
+  // bottoming (a rendering truth): (k d + k3 <d - knee>^3)(1 + a d_dot), by hand.
+  const double bt[] = {6e4, 3e9, 0.012, 0.3};
+  EXPECT_DOUBLE_EQ(UnclampedContactForce(LawId::kBottoming, bt, none, 0.010, 1.0), 6e4 * 0.010 * 1.3);
+  EXPECT_NEAR(UnclampedContactForce(LawId::kBottoming, bt, none, 0.020, -1.0), (6e4 * 0.02 + 3e9 * 512e-9) * 0.7, 1e-9);
+  EXPECT_EQ(std::count(AllLaws().begin(), AllLaws().end(), LawId::kBottoming), 0);
+  EXPECT_EQ(RenderableLaws().size(), AllLaws().size() + 1);
 }
 
 // docs/methods.md §7c: volumetric law with the torus of §7b (R = 0.25, a = 0.05) and
