@@ -158,6 +158,12 @@ class PairSampler {
   Weights weights_;
 };
 
+// One pair's residual and Jacobian row (centre x, y; a x, y; b x, y), kept from the last step.
+struct PairRow {
+  double r;
+  double j[6];
+};
+
 enum class StepOutcome {
   kTaken,     // `state` moved by the step
   kOutside,   // a sample fell outside the patch; `state` unchanged
@@ -168,8 +174,10 @@ enum class StepOutcome {
 // normal equations J^T J step = -J^T r over the offsets, solved by Cholesky; with
 // `fit_light_gradient` false only the centre moves (a, b stay zero). `step_px` is the length of
 // the centre's step [px].
+// `rows` receives every pair's residual and Jacobian row at the state before the step.
 StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& offsets, bool fit_light_gradient,
-                            FitState& state, double& step_px) {
+                            FitState& state, double& step_px, std::vector<PairRow>& rows) {
+  rows.clear();
   const int n_params = fit_light_gradient ? 6 : 2;
   const double(&a)[2] = state.a;
   const double(&b)[2] = state.b;
@@ -181,8 +189,9 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
     if (!sampler.Pair(d, p, m)) return StepOutcome::kOutside;
     const double s = 0.5 * (p.value + m.value);
     const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
-    const double j[6] = {
-        p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
+    const PairRow& row = rows.emplace_back(PairRow{
+        r, {p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)}});
+    const double(&j)[6] = row.j;
     for (int i = 0; i < n_params; ++i) {
       jtr[i] += j[i] * r;
       for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
@@ -202,6 +211,40 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
   state.b[1] += step[5];
   step_px = std::hypot(step[0], step[1]);
   return StepOutcome::kTaken;
+}
+
+// The robust shift (header, "Robust shift"): the length of one Gauss-Newton step, weighted with
+// Tukey's biweight w = (1 - (r / (c s))²)² (0 beyond c s; c = 4.685, s = 1.4826 median |r|, at
+// least kMinScaleGrey), from the fitted state whose pair rows are `rows`. -1 when the weighted
+// normal equations cannot be solved.
+double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
+  constexpr double kTukeyC = 4.685;     // 95 % efficiency for normal residuals (Holland & Welsch 1977)
+  constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
+  if (rows.empty()) return -1.0;
+  std::vector<double> abs_r(rows.size());
+  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
+  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
+  std::nth_element(abs_r.begin(), mid, abs_r.end());
+  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
+  const double inv_c2 = 1.0 / (kTukeyC * kTukeyC * scale * scale);
+  const int n_params = fit_light_gradient ? 6 : 2;
+  cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
+  cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
+  for (const PairRow& row : rows) {
+    const double u = 1.0 - row.r * row.r * inv_c2;
+    if (u <= 0) continue;
+    const double w = u * u;
+    for (int i = 0; i < n_params; ++i) {
+      jtr[i] += w * row.j[i] * row.r;
+      for (int k = 0; k <= i; ++k) jtj(i, k) += w * row.j[i] * row.j[k];
+    }
+  }
+  for (int i = 0; i < n_params; ++i)
+    for (int k = i + 1; k < n_params; ++k) jtj(i, k) = jtj(k, i);
+  for (int i = n_params; i < 6; ++i) jtj(i, i) = 1.0;
+  cv::Vec<double, 6> step;
+  if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) return -1.0;
+  return std::hypot(step[0], step[1]);
 }
 
 // Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`;
@@ -228,6 +271,7 @@ bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::
   const double n = 2.0 * static_cast<double>(offsets.size());
   const double sst = sum2 - sum * sum / n;
   res.residual_rms = std::sqrt(rss / static_cast<double>(offsets.size()));
+  res.window_sd = std::sqrt(std::max(sst, 0.0) / n);
   res.quality = sst > 0 ? std::clamp(1.0 - rss / sst, 0.0, 1.0) : 0.0;
   return true;
 }
@@ -283,9 +327,11 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
   state.cy = start_px.y - patch.origin.y;
   const auto image_centre = [&] { return cv::Point2d(state.cx + patch.origin.x, state.cy + patch.origin.y); };
 
+  std::vector<PairRow> rows;
+  rows.reserve(offsets_.size());
   for (int it = 0; it < options_.max_iterations; ++it) {
     double step_px = 0.0;
-    const StepOutcome outcome = GaussNewtonStep(patch, offsets_, options_.fit_light_gradient, state, step_px);
+    const StepOutcome outcome = GaussNewtonStep(patch, offsets_, options_.fit_light_gradient, state, step_px, rows);
     if (outcome == StepOutcome::kOutside) {
       res.inside = false;
       res.centre_px = image_centre();
@@ -308,6 +354,8 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     res.inside = false;
     res.converged = false;
   }
+  // The last step's rows were taken less than tolerance_px from the final centre.
+  if (res.converged) res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
   return res;
 }
 
