@@ -154,8 +154,9 @@ int main(int argc, char** argv) {
     for (double angle : args.angles) {
       std::fprintf(stderr, "%s, card moving at %g deg ...\n", kind.c_str(), angle);
       const fs::path dir = root / (kind + "_" + std::to_string(static_cast<int>(angle)));
-      const Outcome r = RenderAndTrack(kind, dir, args.at + 9 + 12,
-                                       std::to_string(args.at) + ":" + std::to_string(args.at + 8), angle, args.grey, args.judge);
+      const Outcome r =
+          RenderAndTrack(kind, dir, args.at + 9 + 12, std::to_string(args.at) + ":" + std::to_string(args.at + 8),
+                         angle, args.grey, args.judge);
       for (const tracker::TrackSample& s : r.track.samples) {
         const synth::FrameTruth& t = r.truth.frames.at(static_cast<size_t>(s.frame));
         const double err = s.found ? ErrorOf(s, t) : NAN;
@@ -184,9 +185,9 @@ int main(int argc, char** argv) {
                 clean_near.max_err, clean_near.Rms());
   }
 
-  std::printf("\nClips without a card (false alarms), %s:\n\n",
-              args.clean_frames > 0 ? (std::to_string(args.clean_frames) + " frames each").c_str()
-                                    : "whole default clips");
+  std::printf(
+      "\nClips without a card (false alarms), %s:\n\n",
+      args.clean_frames > 0 ? (std::to_string(args.clean_frames) + " frames each").c_str() : "whole default clips");
   std::printf("| marker | frames | marker in view | tracked | left empty | max err px | RMS err px |\n");
   std::printf("|---|---|---|---|---|---|---|\n");
   for (const std::string& kind : args.kinds) {
@@ -202,7 +203,8 @@ int main(int argc, char** argv) {
     }
     std::printf("| %s | %d | %d | %d | %zu | %.4f | %.4f |\n", kind.c_str(), r.track.frames, in_view, c.kept,
                 r.track.left_empty.size(), c.max_err, c.Rms());
-    for (const tracker::EmptyFrame& e : r.track.left_empty) std::printf("    frame %d: %s\n", e.frame, e.reason.c_str());
+    for (const tracker::EmptyFrame& e : r.track.left_empty)
+      std::printf("    frame %d: %s\n", e.frame, e.reason.c_str());
   }
   if (args.keep.empty()) fs::remove_all(root);
   return 0;

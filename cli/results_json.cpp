@@ -183,6 +183,10 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
   j["best_law"] = r.best_law ? ordered_json(*r.best_law) : ordered_json(nullptr);
   j["warnings"] = r.warnings;
   j["errors"] = r.errors;
+  j["frames_left_empty"] = ordered_json::array();
+  for (const FrameLeftEmpty& e : r.frames_left_empty) {
+    j["frames_left_empty"].push_back({{"frame", e.frame}, {"reason", e.reason}});
+  }
   AddExtra(j, r.extra);
   AddTexts(j, r.info);
   j["curves"] = CurvesToJson(r.curves);
@@ -224,9 +228,23 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     if (j.contains("best_law") && j["best_law"].is_string()) r.best_law = j["best_law"].get<std::string>();
     r.warnings = j.value("warnings", std::vector<std::string>{});
     r.errors = j.value("errors", std::vector<std::string>{});
-    static const char* const kTop[] = {
-        "clip",    "capture_fps", "capture_fps_source", "frames",   "tracked_frames", "y_origin", "gravity_check",
-        "impacts", "fits",        "best_law",           "warnings", "errors",         "curves"};
+    for (const json& e : j.value("frames_left_empty", json::array())) {
+      r.frames_left_empty.push_back({e.at("frame").get<int>(), e.at("reason").get<std::string>()});
+    }
+    static const char* const kTop[] = {"clip",
+                                       "capture_fps",
+                                       "capture_fps_source",
+                                       "frames",
+                                       "tracked_frames",
+                                       "y_origin",
+                                       "gravity_check",
+                                       "impacts",
+                                       "fits",
+                                       "best_law",
+                                       "warnings",
+                                       "errors",
+                                       "frames_left_empty",
+                                       "curves"};
     ReadExtras(j, kTop, r.extra, &r.info);
     r.curves = CurvesFromJson(j);
     return r;

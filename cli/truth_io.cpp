@@ -178,8 +178,8 @@ ClipTruth ClipFromJson(const json& j, const std::string& file) {
                            ? Get<std::vector<double>>(frames, "marker_covered_fraction", where)
                            : std::vector<double>(frame.size(), 0.0);
   const size_t n = frame.size();
-  for (size_t len : {covered.size(), t.size(), u.size(), v.size(), x.size(), y.size(), spin.size(), vy.size(), force.size(),
-                     contact.size(), in_view.size()}) {
+  for (size_t len : {covered.size(), t.size(), u.size(), v.size(), x.size(), y.size(), spin.size(), vy.size(),
+                     force.size(), contact.size(), in_view.size()}) {
     if (len != n) throw std::runtime_error(where + ": the per-frame columns differ in length");
   }
   if (Get<size_t>(j, "frame_count", where) != n) {

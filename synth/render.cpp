@@ -520,10 +520,8 @@ const std::vector<float>& StandardNormalTable() {
 std::optional<std::string> ValidateOccluder(const Occluder& o) {
   std::ostringstream msg;
   if (!o.active()) return std::nullopt;
-  if (!(o.first_frame >= 0 && o.first_frame <= 10000000 && o.last_frame >= o.first_frame &&
-        o.last_frame <= 10000000)) {
-    msg << "occluder frames " << o.first_frame << ":" << o.last_frame
-        << " must satisfy 0 <= first <= last <= 10000000";
+  if (!(o.first_frame >= 0 && o.first_frame <= 10000000 && o.last_frame >= o.first_frame && o.last_frame <= 10000000)) {
+    msg << "occluder frames " << o.first_frame << ":" << o.last_frame << " must satisfy 0 <= first <= last <= 10000000";
     return msg.str();
   }
   if (!(o.cover_from >= 0 && o.cover_from <= 1 && o.cover_to >= 0 && o.cover_to <= 1)) {
@@ -554,7 +552,8 @@ void DrawOccluder(const SceneRenderer& renderer, const WheelPose& pose, const Oc
   double lo = 1e300, hi = -1e300;
   for (int i = 0; i < 720; ++i) {
     const double a = 2 * std::numbers::pi * i / 720;
-    const cv::Point2d p = ImageFromDropPlane(renderer.camera(), {pose.x_m + r * std::cos(a), pose.y_m + r * std::sin(a)});
+    const cv::Point2d p =
+        ImageFromDropPlane(renderer.camera(), {pose.x_m + r * std::cos(a), pose.y_m + r * std::sin(a)});
     const double s = (p - centre).dot(n);
     lo = std::min(lo, s);
     hi = std::max(hi, s);

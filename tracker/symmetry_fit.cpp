@@ -218,7 +218,7 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
 // least kMinScaleGrey), from the fitted state whose pair rows are `rows`. -1 when the weighted
 // normal equations cannot be solved.
 double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
-  constexpr double kTukeyC = 4.685;     // 95 % efficiency for normal residuals (Holland & Welsch 1977)
+  constexpr double kTukeyC = 4.685;      // 95 % efficiency for normal residuals (Holland & Welsch 1977)
   constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
   if (rows.empty()) return -1.0;
   std::vector<double> abs_r(rows.size());

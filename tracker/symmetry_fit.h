@@ -76,10 +76,10 @@ struct SymmetryFitOptions {
 std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& options);
 
 struct SymmetryFitResult {
-  cv::Point2d centre_px;      // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
-  double quality = 0.0;       // [0, 1], see above
-  double residual_rms = 0.0;  // RMS of r(d) [grey levels]
-  double window_sd = 0.0;     // s.d. of the window's samples (unsmoothed) [grey levels]: its contrast
+  cv::Point2d centre_px;          // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
+  double quality = 0.0;           // [0, 1], see above
+  double residual_rms = 0.0;      // RMS of r(d) [grey levels]
+  double window_sd = 0.0;         // s.d. of the window's samples (unsmoothed) [grey levels]: its contrast
   double robust_shift_px = -1.0;  // see "Robust shift" above; -1 when not converged
   int iterations = 0;
   bool converged = false;  // false: did not settle, moved too far, or left the image

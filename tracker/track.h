@@ -81,12 +81,12 @@ struct TrackOptions {
   int queue_frames = 8;                   // frames decoded ahead on the reading thread; [1, 256]
   // Frames judged against the clip's own (quadrant discs and dots; see 4. above).
   bool judge_against_clip = true;
-  double misfit_ratio = 3.0;          // misfit limit: at least this x the clip's median; [1, 1000]
-  double misfit_mads = 8.0;           // ... and the median + this x the scaled MAD; [1, 1000]
+  double misfit_ratio = 3.0;           // misfit limit: at least this x the clip's median; [1, 1000]
+  double misfit_mads = 8.0;            // ... and the median + this x the scaled MAD; [1, 1000]
   double min_robust_shift_px = 0.025;  // robust-shift limit: at least this [px]; [0.001, 10]
-  double shift_mads = 12.0;           // ... and the median + this x the scaled MAD; [1, 1000]
-  double washed_out_ratio = 0.5;      // contrast below this x the clip's median: washed out; [0, 1)
-  int judge_min_frames = 10;          // fewer frames found: none is judged; [3, 1e6]
+  double shift_mads = 12.0;            // ... and the median + this x the scaled MAD; [1, 1000]
+  double washed_out_ratio = 0.5;       // contrast below this x the clip's median: washed out; [0, 1)
+  int judge_min_frames = 10;           // fewer frames found: none is judged; [3, 1e6]
 };
 // A message naming the first field out of range, or nothing.
 std::optional<std::string> ValidateTrackOptions(const TrackOptions& options);
