@@ -117,7 +117,6 @@ TEST_F(ResultsTest, ClipResultRoundTripsWithExtraFields) {
   EXPECT_EQ(b.info, r.info);  // the list is not read back as an extra text
   EXPECT_TRUE(
       std::none_of(b.extra.begin(), b.extra.end(), [](const auto& e) { return e.first == "frames_left_empty"; }));
-}));
 }
 
 TEST_F(ResultsTest, NonFiniteNumbersAreWrittenAsNull) {
