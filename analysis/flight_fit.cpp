@@ -1,5 +1,7 @@
 #include "analysis/flight_fit.h"
 
+#include <ceres/loss_function.h>
+
 #include <cmath>
 #include <limits>
 #include <sstream>
@@ -36,7 +38,7 @@ double PolynomialFit::DerivativeSd(double t_s, int order) const {
 
 std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const std::vector<double>& values,
                                            const std::vector<bool>& valid, int first, int last, int degree,
-                                           std::optional<double> noise_sd_m) {
+                                           std::optional<double> noise_sd_m, bool robust) {
   const int n = static_cast<int>(t_s.size());
   if (values.size() != t_s.size() || valid.size() != t_s.size() || first < 0 || last >= n || degree < 0 || degree > 6) {
     std::ostringstream msg;
@@ -77,13 +79,60 @@ std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const
     b(row) = values[static_cast<size_t>(i)];
     ++row;
   }
-  const Eigen::MatrixXd ata = a.transpose() * a;
-  const Eigen::LDLT<Eigen::MatrixXd> ldlt(ata);
-  const Eigen::VectorXd c_scaled = ldlt.solve(a.transpose() * b);
-  const Eigen::MatrixXd ata_inv = ldlt.solve(Eigen::MatrixXd::Identity(degree + 1, degree + 1));
-  const Eigen::VectorXd residual = b - a * c_scaled;
-  fit.rms_residual_m = std::sqrt(residual.squaredNorm() / count);
-  fit.noise_sd_m = noise_sd_m ? *noise_sd_m : std::sqrt(residual.squaredNorm() / (count - degree - 1));
+  Eigen::VectorXd w = Eigen::VectorXd::Ones(count);
+  const auto solve = [&](Eigen::VectorXd* c, Eigen::MatrixXd* inverse) {
+    const Eigen::MatrixXd ata = a.transpose() * w.asDiagonal() * a;
+    const Eigen::LDLT<Eigen::MatrixXd> ldlt(ata);
+    *c = ldlt.solve(a.transpose() * w.asDiagonal() * b);
+    *inverse = ldlt.solve(Eigen::MatrixXd::Identity(degree + 1, degree + 1));
+  };
+  Eigen::VectorXd c_scaled;
+  Eigen::MatrixXd ata_inv;
+  solve(&c_scaled, &ata_inv);
+  Eigen::VectorXd residual = b - a * c_scaled;
+  double sigma = noise_sd_m ? *noise_sd_m : std::sqrt(residual.squaredNorm() / (count - degree - 1));
+  if (robust) {
+    if (!noise_sd_m) {
+      std::vector<double> abs_r(residual.data(), residual.data() + count);
+      for (double& r : abs_r) r = std::abs(r);
+      std::nth_element(abs_r.begin(), abs_r.begin() + count / 2, abs_r.end());
+      sigma = 1.4826 * abs_r[static_cast<size_t>(count / 2)];
+    }
+    const double delta = kHuberScaleSigmas * sigma;
+    if (delta > 0.0) {
+      const ceres::HuberLoss huber(delta);
+      for (int iteration = 0; iteration < 50; ++iteration) {
+        Eigen::VectorXd next(count);
+        for (int i = 0; i < count; ++i) {
+          double rho[3];
+          huber.Evaluate(residual(i) * residual(i), rho);
+          next(i) = rho[1];
+        }
+        const double change = (next - w).cwiseAbs().maxCoeff();
+        w = next;
+        if (change < 1e-9) break;
+        solve(&c_scaled, &ata_inv);
+        residual = b - a * c_scaled;
+      }
+      fit.downweighted = static_cast<int>((w.array() < 1.0).count());
+      if (!noise_sd_m) {
+        // The residual SD over the samples of full weight (dof: those samples - coefficients).
+        const int full = count - fit.downweighted;
+        double ss = 0.0;
+        for (int i = 0; i < count; ++i) ss += w(i) >= 1.0 ? residual(i) * residual(i) : 0.0;
+        if (full > degree + 1) sigma = std::sqrt(ss / (full - degree - 1));
+      }
+    }
+  }
+  double ss_full = 0.0;
+  int n_full = 0;
+  for (int i = 0; i < count; ++i) {
+    if (w(i) < 1.0) continue;
+    ss_full += residual(i) * residual(i);
+    ++n_full;
+  }
+  fit.rms_residual_m = n_full > 0 ? std::sqrt(ss_full / n_full) : std::sqrt(residual.squaredNorm() / count);
+  fit.noise_sd_m = sigma;
   Eigen::VectorXd unscale(degree + 1);
   for (int k = 0; k <= degree; ++k) unscale(k) = std::pow(span, -k);
   fit.coef = c_scaled.cwiseProduct(unscale);

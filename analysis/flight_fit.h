@@ -15,6 +15,15 @@
 // deviation given by the caller or, when none is given, the residual RMS with n - (degree+1)
 // degrees of freedom (ordinary least squares, e.g. Press et al., Numerical Recipes, 3rd ed.
 // 2007, §15.4; common practice).
+//
+// Robust fits (`robust`): Huber's M-estimator (Huber 1964, Ann. Math. Statist. 35:73-101) by
+// iteratively reweighted least squares (Holland & Welsch 1977, Commun. Statist. A6:813-827;
+// FROM MEMORY), the weight of a sample with residual r being rho'(r^2) of Ceres' HuberLoss
+// with scale delta = kHuberScaleSigmas x the noise (the caller's, or 1.4826 x the median
+// absolute residual of the plain fit): 1 for |r| <= delta, delta / |r| beyond. A few outlying
+// frames then act as samples delta away, not as their full displacement. The covariance is
+// s^2 (A^T W A)^-1; rms_residual_m is over the samples of full weight, and `downweighted`
+// counts the others (docs/methods.md §10).
 
 #include <Eigen/Dense>
 
@@ -31,6 +40,7 @@ struct PolynomialFit {
   double rms_residual_m = 0.0;  // RMS of (data - fit) over the fitted samples
   double noise_sd_m = 0.0;      // the s used for `covariance`
   int samples = 0;              // valid samples fitted
+  int downweighted = 0;         // robust fits: samples given less than full weight
   int first_index = 0;          // first and last index of the fitted range (inclusive)
   int last_index = -1;
 
@@ -48,9 +58,11 @@ struct PolynomialFit {
 // residual left to judge the fit). noise_sd_m: the known noise; nothing = from residuals.
 // Throws std::invalid_argument for sizes that differ, an index outside the vectors or
 // degree outside [0, 6].
+// robust: Huber's loss by reweighting (see above).
+constexpr double kHuberScaleSigmas = 3.0;
 std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const std::vector<double>& values,
                                            const std::vector<bool>& valid, int first, int last, int degree,
-                                           std::optional<double> noise_sd_m = std::nullopt);
+                                           std::optional<double> noise_sd_m = std::nullopt, bool robust = false);
 
 // The flight parabola (degree 2) and what an impact analysis reads from it.
 enum class Branch { kFalling, kRising };

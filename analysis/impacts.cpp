@@ -380,7 +380,7 @@ std::optional<FlightSamples> SamplesGrownFromCore(const TimeSeries& s, const det
 // The flight's parabolas in y and x; nothing when too few samples are used or the y
 // parabola does not open downward.
 std::optional<FlightPhase> FitFlightPhase(const TimeSeries& s, const detail::FlightWindow& w, const FlightSamples& f,
-                                          int min_flight_samples, std::optional<double> known_noise) {
+                                          int min_flight_samples, std::optional<double> known_noise, bool robust) {
   if (f.first < 0) return std::nullopt;
   int used = 0, missing = 0;
   for (int i = f.first; i <= f.last; ++i) {
@@ -388,8 +388,8 @@ std::optional<FlightPhase> FitFlightPhase(const TimeSeries& s, const detail::Fli
     missing += s.valid[U(i)] ? 0 : 1;
   }
   if (used < min_flight_samples) return std::nullopt;
-  auto y_fit = FitMasked(s, f.use, f.first, f.last, s.y_m, known_noise);
-  auto x_fit = FitMasked(s, f.use, f.first, f.last, s.x_m, std::nullopt);
+  auto y_fit = FitPolynomial(s.t_s, s.y_m, f.use, f.first, f.last, 2, known_noise, robust);
+  auto x_fit = FitPolynomial(s.t_s, s.x_m, f.use, f.first, f.last, 2, std::nullopt, robust);
   if (!y_fit || !x_fit || !(y_fit->coef(2) < 0.0)) return std::nullopt;
   FlightPhase phase;
   phase.first_index = f.first;
@@ -426,7 +426,7 @@ FittedFlights FitFlights(const TimeSeries& s, const std::vector<detail::FlightWi
         samples = SamplesGrownFromCore(s, w, options.min_flight_samples, out.noise_sd_m, sigmas);
       if (!samples) continue;
       out.phases[k] = FitFlightPhase(s, w, *samples, options.min_flight_samples,
-                                     pass == 0 ? std::optional<double>() : out.noise_sd_m);
+                                     pass == 0 ? std::optional<double>() : out.noise_sd_m, options.robust_flights);
       if (!out.phases[k]) continue;
       const double r = out.phases[k]->y_fit.rms_residual_m;
       sum_sq += r * r * out.phases[k]->y_fit.samples;
@@ -807,6 +807,8 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
 
     const PolynomialFit* fall = b.flight_before ? &seg.flights[U(*b.flight_before)].y_fit : nullptr;
     const PolynomialFit* rise = b.flight_after ? &seg.flights[U(*b.flight_after)].y_fit : nullptr;
+    f.falling_flight_downweighted = fall ? fall->downweighted : 0;
+    f.rising_flight_downweighted = rise ? rise->downweighted : 0;
     // x = (fall coef, rise coef, onset height); absent fits contribute zeros with zero variance.
     Eigen::VectorXd x = Eigen::VectorXd::Zero(7);
     Eigen::MatrixXd cov = Eigen::MatrixXd::Zero(7, 7);

@@ -91,6 +91,10 @@ struct SegmentationOptions {
   double departure_sigmas = 4.0;
   // Fewest valid samples a flight needs to be fitted (and to count for COR). Range [5, 1000].
   int min_flight_samples = 8;
+  // Flight parabolas by Huber's robust loss (analysis/flight_fit.h), so that a few outlying
+  // frames move no figure by more than its uncertainty; false: plain least squares (a test
+  // switch).
+  bool robust_flights = true;
 };
 // Returns a message naming the offending field and its valid range, or nothing.
 std::optional<std::string> ValidateSegmentationOptions(const SegmentationOptions& options);
@@ -173,6 +177,9 @@ struct ImpactFigures {
   Estimate peak_force_track_n;
   double t_peak_force_track_s = 0.0;
   Estimate energy_lost_j;
+  // Samples the robust flight fits gave less than full weight (analysis/flight_fit.h).
+  int falling_flight_downweighted = 0;
+  int rising_flight_downweighted = 0;
   std::optional<std::string> cor_disagreement;  // the two CORs differ: numbers and causes
 };
 

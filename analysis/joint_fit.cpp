@@ -16,11 +16,6 @@ std::optional<std::string> ValidateJointFitOptions(const JointFitOptions& option
   return std::nullopt;
 }
 
-bool LawNests(LawId outer, LawId inner) {
-  return (outer == LawId::kBilinear && inner == LawId::kKelvinVoigt) ||
-         (outer == LawId::kHuntCrossley && inner == LawId::kHertz);
-}
-
 namespace {
 
 // Nominal heights, each group's representative value, in ascending order.
@@ -109,7 +104,8 @@ SpecimenFit FitSpecimen(const std::vector<FitClip>& clips, const LawFitOptions& 
     out.laws.push_back(FitJoint(law, clips, options, joint_options));
     fits.push_back(out.laws.back().fit);
   }
-  out.best = BestOfRanking(fits);
+  out.choice = ChooseLaw(fits, TrackNoise(clips));
+  for (size_t i = 0; i < fits.size(); ++i) out.laws[i].fit.rank_criterion = fits[i].rank_criterion;
   return out;
 }
 

@@ -25,6 +25,7 @@
 #include <string>
 #include <vector>
 
+#include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
 
 namespace dropfit::analysis {
@@ -59,17 +60,12 @@ struct JointFitResult {
 JointFitResult FitJoint(LawId law, const std::vector<FitClip>& clips, const LawFitOptions& options,
                         const JointFitOptions& joint_options = {});
 
-// Every law; `best` indexes the joint fit that ranks first (RankLaws, analysis/law_fit.h).
+// Every law and their choice (analysis/law_choice.h; indices into `laws`).
 struct SpecimenFit {
   std::vector<JointFitResult> laws;  // AllLaws() order
-  std::optional<int> best;
+  LawChoice choice;
 };
 SpecimenFit FitSpecimen(const std::vector<FitClip>& clips, const LawFitOptions& options,
                         const JointFitOptions& joint_options = {});
-
-// True when `outer` contains `inner` as a special case (bilinear with k1 = k2 is
-// kelvin-voigt; hunt-crossley with n = 1.5 is hertz), for judging BIC rankings: the outer
-// law then fits at least as well and pays only the BIC penalty of its extra parameters.
-bool LawNests(LawId outer, LawId inner);
 
 }  // namespace dropfit::analysis

@@ -15,6 +15,7 @@ SegmentationOptions SegmentationFrom(const KinematicsOptions& o) {
   s.onset_height_sd_m = o.onset_height_sd_m;
   s.departure_sigmas = o.departure_sigmas;
   s.min_flight_samples = o.min_flight_samples;
+  s.robust_flights = o.robust_flights;
   return s;
 }
 

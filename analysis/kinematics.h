@@ -27,6 +27,7 @@ struct KinematicsOptions {
   std::optional<double> capture_fps;    // rate used [frames/s], to word a rate correction
   double departure_sigmas = 4.0;        // SegmentationOptions::departure_sigmas
   int min_flight_samples = 8;           // SegmentationOptions::min_flight_samples
+  bool robust_flights = true;           // SegmentationOptions::robust_flights
 };
 std::optional<std::string> ValidateKinematicsOptions(const KinematicsOptions& options);
 

@@ -14,6 +14,7 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "analysis/law_choice.h"
 #include "analysis/law_fit_steps.h"
 
 namespace dropfit::analysis {
@@ -690,11 +691,37 @@ void PropagateFigureSds(const FitInputs& in, const Unknowns& u, const InternalCo
   f->cor_sd = std::sqrt(std::max(0.0, fc(4, 4)));
 }
 
+// Squared residuals and sample counts in contact (below the onset height) and in flight.
+struct ContactFlightSums {
+  double contact_ss = 0.0, flight_ss = 0.0;
+  int contact_n = 0, flight_n = 0;
+};
+
+// The residuals' lag-1 autocorrelation at the kept solution, pooled over the windows (each
+// window's residuals in sample order; law_fit.h "Correlated residuals"); NaN when the
+// residuals cannot be evaluated.
+double ResidualLag1Correlation(const FitInputs& in, Solved& best) {
+  std::vector<double> r;
+  if (!best.problem->Evaluate(ceres::Problem::EvaluateOptions(), nullptr, &r, nullptr, nullptr)) return kNaN;
+  double num = 0.0, den = 0.0;
+  size_t offset = 0;
+  for (const WindowRef& ref : in.windows) {
+    const size_t n = ref.window->t_s.size();
+    if (offset + n > r.size()) return kNaN;
+    for (size_t k = 0; k < n; ++k) {
+      den += r[offset + k] * r[offset + k];
+      if (k + 1 < n) num += r[offset + k] * r[offset + k + 1];
+    }
+    offset += n;
+  }
+  return den > 0.0 ? num / den : kNaN;
+}
+
 // The per-bounce figures of window i from a run of the fitted law, their SDs, its
 // force-deflection curve (into result->curves) and its warnings; the maximum deflection goes
 // to *max_deflections.
 BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const InternalCovariance& ic, size_t i,
-                                 LawFitResult* result, std::vector<double>* max_deflections) {
+                                 LawFitResult* result, std::vector<double>* max_deflections, ContactFlightSums* sums) {
   const WindowRef& ref = in.windows[i];
   const FitClip& clip = in.clips[ref.clip];
   const FitWindow& w = *ref.window;
@@ -711,10 +738,13 @@ BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const I
   f.samples = static_cast<int>(w.t_s.size());
   double ss = 0.0;
   for (size_t k = 0; k < w.t_s.size(); ++k) {
-    if (w.y_m[k] < onset) ++f.contact_samples;
+    const bool in_contact = w.y_m[k] < onset;
+    if (in_contact) ++f.contact_samples;
     if (sim.ok) {
       const double r = sim.trajectory.HeightAt(w.t_s[k]) - w.y_m[k];
       ss += r * r;
+      (in_contact ? sums->contact_ss : sums->flight_ss) += r * r;
+      ++(in_contact ? sums->contact_n : sums->flight_n);
     }
   }
   f.rms_residual_m = sim.ok ? std::sqrt(ss / f.samples) : kNaN;
@@ -1012,13 +1042,19 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   }
   ReportSolution(in, *best, &result);
   const int dof = result.samples - result.free_parameters;
-  const InternalCovariance cov =
-      ComputeInternalCovariance(*best, InternalDim(law), start.onset_free, dof, &result.warnings);
+  InternalCovariance cov = ComputeInternalCovariance(*best, InternalDim(law), start.onset_free, dof, &result.warnings);
+  result.residual_lag1_correlation = ResidualLag1Correlation(in, *best);
+  result.effective_samples = EffectiveSampleCount(result.samples, result.residual_lag1_correlation);
+  result.sd_inflation = std::sqrt(result.samples / result.effective_samples);
+  cov.cov *= result.sd_inflation * result.sd_inflation;
   ReportParameterUncertainty(in, cov, &result);
   std::vector<double> max_deflections;
+  ContactFlightSums sums;
   for (size_t i = 0; i < windows.size(); ++i) {
-    result.figures.push_back(FiguresOfWindow(in, *best->unknowns, cov, i, &result, &max_deflections));
+    result.figures.push_back(FiguresOfWindow(in, *best->unknowns, cov, i, &result, &max_deflections, &sums));
   }
+  result.rms_contact_m = sums.contact_n > 0 ? std::sqrt(sums.contact_ss / sums.contact_n) : kNaN;
+  result.rms_flight_m = sums.flight_n > 0 ? std::sqrt(sums.flight_ss / sums.flight_n) : kNaN;
   AddDegenerateDataWarnings(in, max_deflections, &result);
   result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
   return result;
@@ -1047,61 +1083,6 @@ std::unique_ptr<ceres::CostFunction> MakeWindowCostFunction(LawId law, const Fit
   d.inv_scale = 1.0 / residual_scale_m;
   d.window = &window;
   return std::unique_ptr<ceres::CostFunction>(MakeWindowCost(d));
-}
-
-bool HasUndeterminedParameter(const LawFitResult& fit) {
-  for (size_t i = 0; i < fit.params.size() && i < fit.param_sd.size(); ++i) {
-    if (fit.law == LawId::kHertz && i == 1) continue;
-    if (!(fit.param_sd[i] <= 0.5 * std::abs(fit.params[i]))) return true;
-  }
-  return false;
-}
-
-std::vector<int> RankLaws(const std::vector<LawFitResult>& fits) {
-  std::vector<int> order(fits.size());
-  std::iota(order.begin(), order.end(), 0);
-  const auto key = [&](int i) {
-    const LawFitResult& f = fits[i];
-    return f.failure || std::isnan(f.bic) ? kInf : f.bic;
-  };
-  std::stable_sort(order.begin(), order.end(), [&](int a, int b) { return key(a) < key(b); });
-  // An undetermined fit moves to just below the last determined fit with a residual not
-  // larger; undetermined fits only move down, and determined ones keep their BIC order.
-  const auto outranks = [&](int determined, int undetermined) {
-    const LawFitResult& d = fits[determined];
-    const LawFitResult& u = fits[undetermined];
-    return !d.failure && !u.failure && !HasUndeterminedParameter(d) && HasUndeterminedParameter(u) &&
-           d.rms_residual_m <= u.rms_residual_m * (1.0 + kRankResidualTolerance);
-  };
-  for (bool moved = true; moved;) {
-    moved = false;
-    for (size_t p = 0; p < order.size() && !moved; ++p) {
-      for (size_t q = order.size(); q-- > p + 1;) {
-        if (outranks(order[q], order[p])) {
-          std::rotate(order.begin() + static_cast<std::ptrdiff_t>(p),
-                      order.begin() + static_cast<std::ptrdiff_t>(p) + 1,
-                      order.begin() + static_cast<std::ptrdiff_t>(q) + 1);
-          moved = true;
-          break;
-        }
-      }
-    }
-  }
-  return order;
-}
-
-std::optional<int> BestOfRanking(const std::vector<LawFitResult>& fits) {
-  for (int i : RankLaws(fits)) {
-    if (!fits[i].failure) return i;
-  }
-  return std::nullopt;
-}
-
-LawComparison FitAllLaws(const std::vector<FitClip>& clips, const LawFitOptions& options) {
-  LawComparison out;
-  for (LawId law : AllLaws()) out.fits.push_back(FitLaw(law, clips, options));
-  out.best = BestOfRanking(out.fits);
-  return out;
 }
 
 }  // namespace dropfit::analysis

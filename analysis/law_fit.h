@@ -41,12 +41,15 @@
 // Gaussian errors with unknown variance), N the samples, p every fitted unknown (law
 // parameters, onset height if fitted, 2 per bounce). Lower is better; a difference above
 // ~6 is "strong" evidence (Kass & Raftery 1995, J. Am. Stat. Assoc. 90:773-795, §3.2);
-// below 2 the laws are not distinguished by the data. RankLaws orders the fits by BIC, every
-// fit that could start included (one that stopped at the iteration cap or on a bound keeps
-// its place: its BIC is that of a solution at least as good as the one it reports), with one
-// rule on top: a law with a parameter the data do not determine (relative SD above 50 %)
-// never ranks above a law whose parameters are all determined and whose RMS residual is not
-// larger (docs/methods.md §13).
+// below 2 the laws are not distinguished by the data. The choice among the laws (a criterion
+// that counts correlated residuals, parameters the data do not determine, equivalent nested
+// laws) is analysis/law_choice.h.
+//
+// Correlated residuals. The residuals' lag-1 autocorrelation rho (pooled over the windows)
+// gives an effective sample count N_eff = N (1 - rho) / (1 + rho) (analysis/law_choice.h);
+// every covariance and SD of the fit is inflated by N / N_eff (variance), so that residuals
+// correlated over many frames do not make the fit look N / N_eff times better determined
+// than it is.
 //
 // Failure is data: a fit that does not converge has converged = false; a fit that cannot
 // start (no complete bounce, no impact speed) has `failure` set. A parameter on one of its
@@ -198,7 +201,16 @@ struct LawFitResult {
   int samples = 0;
   int free_parameters = 0;
   double rms_residual_m = 0.0;
+  double rms_contact_m = 0.0;  // over the samples below the onset height (NaN: none)
+  double rms_flight_m = 0.0;   // over the others (NaN: none)
   double bic = 0.0;
+  // The residuals' lag-1 autocorrelation (pooled over windows), the effective sample count
+  // it gives and the factor sqrt(N / N_eff) applied to every SD of the fit.
+  double residual_lag1_correlation = 0.0;
+  double effective_samples = 0.0;
+  double sd_inflation = 1.0;
+  // The ranking criterion of analysis/law_choice.h, set when laws are compared (NaN before).
+  double rank_criterion = std::numeric_limits<double>::quiet_NaN();
   bool converged = false;
   // Parameters on a bound of the search, e.g. "n = 0.5 sits on its lower bound (range [0.5,
   // 4])"; empty when none is.
@@ -224,30 +236,6 @@ std::string LawFormula(LawId law, const TreadGeometry& tread);
 // std::invalid_argument for invalid options or a clip with a non-positive mass; data
 // problems are returned in the result.
 LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOptions& options);
-
-// All five laws (AllLaws() order) and the index of the first fit of RankLaws (nothing when
-// every fit failed).
-struct LawComparison {
-  std::vector<LawFitResult> fits;
-  std::optional<int> best;
-};
-LawComparison FitAllLaws(const std::vector<FitClip>& clips, const LawFitOptions& options);
-
-// True when a parameter the fit moves has a relative SD above 50 % (or an infinite one):
-// the data do not determine it. Hertz's fixed exponent is not counted.
-bool HasUndeterminedParameter(const LawFitResult& fit);
-
-// Indices of `fits` in rank order (see "Model choice" above): ascending BIC, failed fits
-// last; then a fit with an undetermined parameter is moved below every fit with none whose
-// RMS residual is not larger (relative tolerance kRankResidualTolerance); the others keep
-// their BIC order.
-std::vector<int> RankLaws(const std::vector<LawFitResult>& fits);
-// Residuals that differ by less than this fraction count as equal in RankLaws (far below
-// the differences that noise makes between laws fitted to the same samples).
-constexpr double kRankResidualTolerance = 1e-3;
-
-// The rank order's first fit that could start, or nothing when all failed.
-std::optional<int> BestOfRanking(const std::vector<LawFitResult>& fits);
 
 // The impact of a law with the given parameters, starting from a window-start state: the
 // forward model's figures of the first impact after start_time_s (for predictions).

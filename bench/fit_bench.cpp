@@ -140,8 +140,8 @@ void Recovery(int clips_per_law) {
         worst_tc = std::max(worst_tc, std::abs(fit.figures[0].contact_duration_s - tc));
         worst_peak = std::max(worst_peak, std::abs(fit.figures[0].peak_force_n / peak - 1.0));
       }
-      if (all.best) {
-        const LawFitResult& best = all.fits[*all.best];
+      if (all.choice.best) {
+        const LawFitResult& best = all.fits[*all.choice.best];
         if (best.law == truth ||
             ((LawNests(best.law, truth) || truth == LawId::kHertz || truth == LawId::kVolumetric) &&
              fit.bic - best.bic < 2.0)) {

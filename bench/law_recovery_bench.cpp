@@ -66,6 +66,7 @@
 #include "analysis/geometry.h"
 #include "analysis/joint_fit.h"
 #include "analysis/kinematics.h"
+#include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
 #include "cli/analyze_command.h"
 #include "cli/clip_records.h"
@@ -273,8 +274,10 @@ struct RankVerdict {
 
 RankVerdict JudgeRanking(LawId truth, const std::vector<analysis::LawFitResult>& fits) {
   RankVerdict v;
-  const std::vector<int> order = analysis::RankLaws(fits);
-  const int best_index = order.front();  // as FitAllLaws' `best`
+  std::vector<analysis::LawFitResult> chosen = fits;
+  const analysis::LawChoice choice = analysis::ChooseLaw(chosen, std::nan(""));  // as FitAllLaws' choice
+  const std::vector<int> order = analysis::RankLaws(chosen);
+  const int best_index = choice.best.value_or(order.front());
   const analysis::LawFitResult& best = fits[static_cast<size_t>(best_index)];
   const analysis::LawFitResult& tf = fits[static_cast<size_t>(static_cast<int>(truth))];
   for (int i : order) {
@@ -288,9 +291,14 @@ RankVerdict JudgeRanking(LawId truth, const std::vector<analysis::LawFitResult>&
     }
     v.ranking += b;
   }
+  const bool truth_equivalent =
+      std::find(choice.equivalent.begin(), choice.equivalent.end(), static_cast<int>(truth)) != choice.equivalent.end();
   if (best.law == truth && !best.failure) {
     v.ok = true;
     v.how = "first";
+  } else if (truth_equivalent && analysis::LawNests(truth, best.law)) {
+    v.ok = true;
+    v.how = "nested in the truth, truth equivalent";
   } else if (!tf.failure && tf.bic - best.bic <= kBicTol) {
     if (analysis::LawNests(best.law, truth)) {
       v.ok = true;

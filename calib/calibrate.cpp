@@ -13,6 +13,8 @@
 #include <stdexcept>
 
 #include "calib/calibrate_steps.h"
+#include "calib/corner_refine.h"
+#include "calib/rig_uncertainty.h"
 #include "dropfit/version.h"
 
 namespace dropfit::calib {
@@ -123,6 +125,7 @@ void RecordSettings(const CalibrateOptions& o, Rig& rig) {
   s.emplace_back("board", BoardSizeToString(o.board));
   s.emplace_back("square_m", Num(o.board.square_m));
   s.emplace_back("corner_height_m", o.corner_height_m ? Num(*o.corner_height_m) : "");
+  s.emplace_back("corner_height_sd_m", Num(o.corner_height_sd_m));
   s.emplace_back("up", ToString(o.up));
   s.emplace_back("capture_fps", o.capture_fps ? Num(*o.capture_fps) : "");
   s.emplace_back("force", o.force ? "true" : "false");
@@ -152,6 +155,9 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& o) {
   if (!(std::isfinite(o.board.square_m) && o.board.square_m > 0)) return bad("square_m", o.board.square_m, "> 0 m");
   if (o.corner_height_m && !(std::isfinite(*o.corner_height_m) && *o.corner_height_m >= 0)) {
     return bad("corner_height_m", *o.corner_height_m, ">= 0 m");
+  }
+  if (!(std::isfinite(o.corner_height_sd_m) && o.corner_height_sd_m >= 0 && o.corner_height_sd_m <= 1)) {
+    return bad("corner_height_sd_m", o.corner_height_sd_m, "0..1 m");
   }
   if (o.capture_fps && !(std::isfinite(*o.capture_fps) && *o.capture_fps > 0)) {
     return bad("capture_fps", *o.capture_fps, "> 0 frames/s");
@@ -237,6 +243,14 @@ BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subp
   const int half = std::clamp(static_cast<int>(0.4 * spacing), 2, subpix_half_window_px);
   cv::cornerSubPix(grey, out.corners_px, cv::Size(half, half), cv::Size(-1, -1),
                    cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 50, 1e-3));
+  // Then the saddle-point fit and the X-corner fit from it (calib/corner_refine.h), in a disc
+  // that stays inside the four squares around every corner.
+  CornerRefineOptions refine;
+  refine.saddle.half_window_px = SaddleHalfWindowPx(out.corners_px, board, subpix_half_window_px);
+  refine.xcorner.half_window_px = refine.saddle.half_window_px;
+  RefinedCorners refined = RefineCorners(grey, out.corners_px, refine);
+  out.corners_px = std::move(refined.corners_px);
+  out.refine_fallbacks = std::move(refined.fallbacks);
   out.blur_px = EstimateEdgeBlurPx(grey, out.corners_px, board);
   return out;
 }
@@ -507,13 +521,189 @@ PlaneViewFigures MeasurePlaneView(const Rig& rig, const std::vector<cv::Point2f>
   }
   out.square_error_mean_mm = std::accumulate(err_mm.begin(), err_mm.end(), 0.0) / static_cast<double>(err_mm.size());
   out.square_error_max_mm = *std::max_element(err_mm.begin(), err_mm.end());
-  const cv::Point2d c(0.5 * (size.width - 1), 0.5 * (size.height - 1));
-  const cv::Point2d du = PlaneFromImage(rig, c + cv::Point2d(0.5, 0)) - PlaneFromImage(rig, c - cv::Point2d(0.5, 0));
-  const cv::Point2d dv = PlaneFromImage(rig, c + cv::Point2d(0, 0.5)) - PlaneFromImage(rig, c - cv::Point2d(0, 0.5));
-  out.metres_per_px_centre = std::sqrt(std::abs(du.x * dv.y - du.y * dv.x));
+  out.metres_per_px_centre = MetresPerPxAt(rig, cv::Point2d(0.5 * (size.width - 1), 0.5 * (size.height - 1)));
   const std::vector<cv::Point2f> quad = OuterQuad(corners_px, board);
   out.board_coverage_fraction = cv::contourArea(quad) / (static_cast<double>(size.width) * size.height);
   return out;
+}
+
+namespace {
+
+// (M + M^T) / 2 inverted after scaling to unit diagonal (the parameters differ by orders of
+// magnitude); the pseudo-inverse (SVD) where it is singular.
+cv::Mat InverseNormalMatrix(const cv::Mat& jtj) {
+  const int n = jtj.rows;
+  cv::Mat scale = cv::Mat::zeros(n, n, CV_64F);
+  for (int i = 0; i < n; ++i) {
+    const double d = jtj.at<double>(i, i);
+    scale.at<double>(i, i) = d > 0 ? 1.0 / std::sqrt(d) : 0.0;
+  }
+  const cv::Mat scaled = scale * jtj * scale;
+  cv::Mat inv;
+  cv::invert(0.5 * (scaled + scaled.t()), inv, cv::DECOMP_SVD);
+  return scale * inv * scale;
+}
+
+// The 2N x 8 Jacobian of the board's corners projected by h (h33 = 1) with respect to
+// h11 h12 h13 h21 h22 h23 h31 h32.
+cv::Mat HomographyJacobian(const cv::Matx33d& h, const BoardSpec& board) {
+  const std::vector<cv::Point2f> pts = BoardPoints2d(board);
+  cv::Mat j = cv::Mat::zeros(2 * static_cast<int>(pts.size()), 8, CV_64F);
+  for (size_t i = 0; i < pts.size(); ++i) {
+    const double x = pts[i].x, y = pts[i].y;
+    const double w = h(2, 0) * x + h(2, 1) * y + h(2, 2);
+    const double u = (h(0, 0) * x + h(0, 1) * y + h(0, 2)) / w;
+    const double v = (h(1, 0) * x + h(1, 1) * y + h(1, 2)) / w;
+    double* ru = j.ptr<double>(2 * static_cast<int>(i));
+    double* rv = j.ptr<double>(2 * static_cast<int>(i) + 1);
+    ru[0] = x / w, ru[1] = y / w, ru[2] = 1 / w, ru[6] = -u * x / w, ru[7] = -u * y / w;
+    rv[3] = x / w, rv[4] = y / w, rv[5] = 1 / w, rv[6] = -v * x / w, rv[7] = -v * y / w;
+  }
+  return j;
+}
+
+// Undistorted pixels (same camera matrix) of `points` through intrinsics
+// (fx fy cx cy k1 k2 p1 p2 k3).
+std::vector<cv::Point2d> Undistort(const std::vector<cv::Point2d>& points, const std::vector<double>& theta) {
+  const cv::Matx33d k(theta[0], 0, theta[2], 0, theta[1], theta[3], 0, 0, 1);
+  const std::vector<double> dist(theta.begin() + 4, theta.end());
+  std::vector<cv::Point2d> out;
+  cv::undistortPoints(points, out, k, dist, cv::noArray(), k,
+                      cv::TermCriteria(cv::TermCriteria::COUNT | cv::TermCriteria::EPS, 100, 1e-12));
+  return out;
+}
+
+}  // namespace
+
+double CornerSdFromRms(double rms_px, size_t corners, size_t parameters) {
+  const double coordinates = 2.0 * static_cast<double>(corners);
+  if (!(coordinates > static_cast<double>(parameters))) {
+    throw std::invalid_argument("CornerSdFromRms: " + std::to_string(corners) + " corners cannot fit " +
+                                std::to_string(parameters) + " parameters with residuals to spare");
+  }
+  // rms_px is of the residual distance: RSS = corners x rms^2 over 2 x corners coordinates.
+  return rms_px * std::sqrt(static_cast<double>(corners) / (coordinates - static_cast<double>(parameters)));
+}
+
+cv::Mat HomographyCovariance(const cv::Matx33d& undistorted_from_board, const BoardSpec& board, double corner_sd_px) {
+  const cv::Matx33d h = undistorted_from_board * (1.0 / undistorted_from_board(2, 2));
+  const cv::Mat j = HomographyJacobian(h, board);
+  return corner_sd_px * corner_sd_px * InverseNormalMatrix(j.t() * j);
+}
+
+LensCovariance LensIntrinsicsCovariance(const LensFit& fit, const std::vector<std::vector<cv::Point2f>>& corners_px,
+                                        const BoardSpec& board) {
+  if (corners_px.size() != fit.rvecs.size()) {
+    throw std::invalid_argument("LensIntrinsicsCovariance: " + std::to_string(corners_px.size()) +
+                                " corner sets for a fit of " + std::to_string(fit.rvecs.size()) + " views");
+  }
+  constexpr int kIntrinsics = 9;  // fx fy cx cy k1 k2 p1 p2 k3
+  const int terms = static_cast<int>(std::count(fit.terms.begin(), fit.terms.end(), ',')) + 1;
+  const int n_intr = 4 + terms;
+  const int views = static_cast<int>(corners_px.size());
+  const int n_params = n_intr + 6 * views;
+  size_t corners = 0;
+  for (const auto& c : corners_px) corners += c.size();
+  cv::Mat j = cv::Mat::zeros(2 * static_cast<int>(corners), n_params, CV_64F);
+  const std::vector<cv::Point3f> object_f = BoardPoints3d(board);
+  const std::vector<cv::Point3d> object(object_f.begin(), object_f.end());
+  double rss = 0;
+  int row = 0;
+  for (int v = 0; v < views; ++v) {
+    std::vector<cv::Point2d> projected;
+    cv::Mat jv;  // 2n x (3 rvec, 3 tvec, 2 focal, 2 centre, 5 distortion)
+    cv::projectPoints(object, fit.rvecs[static_cast<size_t>(v)], fit.tvecs[static_cast<size_t>(v)], fit.camera_matrix,
+                      fit.distortion, projected, jv);
+    const auto& c = corners_px[static_cast<size_t>(v)];
+    for (size_t i = 0; i < c.size(); ++i) {
+      const cv::Point2d d = projected[i] - cv::Point2d(c[i]);
+      rss += d.dot(d);
+      for (int r = 0; r < 2; ++r, ++row) {
+        const double* src = jv.ptr<double>(2 * static_cast<int>(i) + r);
+        double* dst = j.ptr<double>(row);
+        for (int k = 0; k < n_intr; ++k) dst[k] = src[6 + k];
+        for (int k = 0; k < 6; ++k) dst[n_intr + 6 * v + k] = src[k];
+      }
+    }
+  }
+  LensCovariance out;
+  const double sigma =
+      CornerSdFromRms(std::sqrt(rss / static_cast<double>(corners)), corners, static_cast<size_t>(n_params));
+  out.corner_sd_px = sigma;
+  const cv::Mat inv = InverseNormalMatrix(j.t() * j);
+  out.intrinsics = cv::Mat::zeros(kIntrinsics, kIntrinsics, CV_64F);
+  inv(cv::Rect(0, 0, n_intr, n_intr)).copyTo(out.intrinsics(cv::Rect(0, 0, n_intr, n_intr)));
+  out.intrinsics *= sigma * sigma;
+  return out;
+}
+
+RigUncertainty EstimateRigUncertainty(const Rig& rig, const std::vector<cv::Point2f>& corners_px,
+                                      const BoardSpec& board, const PlaneHomography& homography,
+                                      const cv::Matx33d& plane_from_board, const std::optional<LensCovariance>& lens,
+                                      double corner_height_sd_m) {
+  if (rig.lens.has_value() != lens.has_value() || (rig.lens && rig.lens->distortion.size() != 5)) {
+    throw std::invalid_argument(
+        "EstimateRigUncertainty: the rig's lens (5 distortion coefficients) and the lens covariance go together");
+  }
+  RigUncertainty u;
+  u.corner_height_sd_m = corner_height_sd_m;
+  u.parameters = MappingParameterNames(rig);
+  const size_t n_corners = corners_px.size();
+  // Step 1: the homography's noise.
+  const cv::Matx33d h = homography.undistorted_from_board * (1.0 / homography.undistorted_from_board(2, 2));
+  u.plane_corner_sd_px = CornerSdFromRms(homography.rms_px, n_corners, 8);
+  const cv::Mat jh = HomographyJacobian(h, board);
+  const cv::Mat jtj_inv = InverseNormalMatrix(jh.t() * jh);
+  cv::Mat cov_h = u.plane_corner_sd_px * u.plane_corner_sd_px * jtj_inv;
+  // Step 3's A = dg/dh: G = P_b H^-1, dG = -G dH H^-1, g = G / G33.
+  const cv::Matx33d h_inv = h.inv();
+  const cv::Matx33d g_un = plane_from_board * h_inv;
+  cv::Mat a(8, 8, CV_64F);
+  for (int k = 0; k < 8; ++k) {
+    cv::Matx33d e = cv::Matx33d::zeros();
+    e.val[k] = 1.0;
+    const cv::Matx33d dg_un = -(g_un * e * h_inv);
+    for (int i = 0; i < 8; ++i) {
+      a.at<double>(i, k) = dg_un.val[i] / g_un(2, 2) - g_un.val[i] * dg_un(2, 2) / (g_un(2, 2) * g_un(2, 2));
+    }
+  }
+  const int n = static_cast<int>(u.parameters.size());
+  cv::Mat cov = cv::Mat::zeros(n, n, CV_64F);
+  if (lens) {
+    // Step 2: the lens' intrinsics move the undistorted corners, and so the homography.
+    u.lens_corner_sd_px = lens->corner_sd_px;
+    const cv::Mat& cov_t = lens->intrinsics;
+    const std::vector<double> theta = MappingParameters(rig);
+    const std::vector<double> theta0(theta.begin() + 8, theta.end());
+    const std::vector<cv::Point2d> measured(corners_px.begin(), corners_px.end());
+    cv::Mat d = cv::Mat::zeros(2 * static_cast<int>(n_corners), cov_t.cols, CV_64F);
+    for (int k = 0; k < cov_t.cols; ++k) {
+      const double var = cov_t.at<double>(k, k);
+      if (!(var > 0)) continue;
+      const double step = 0.1 * std::sqrt(var);
+      std::vector<double> tp = theta0, tm = theta0;
+      tp[static_cast<size_t>(k)] += step;
+      tm[static_cast<size_t>(k)] -= step;
+      const std::vector<cv::Point2d> up = Undistort(measured, tp), um = Undistort(measured, tm);
+      for (size_t i = 0; i < n_corners; ++i) {
+        d.at<double>(2 * static_cast<int>(i), k) = (up[i].x - um[i].x) / (2 * step);
+        d.at<double>(2 * static_cast<int>(i) + 1, k) = (up[i].y - um[i].y) / (2 * step);
+      }
+    }
+    const cv::Mat s = jtj_inv * jh.t() * d;  // dh / dtheta (8 x 9)
+    cov_h += s * cov_t * s.t();
+    const cv::Mat cross = a * s * cov_t;  // Sigma_g,theta
+    cross.copyTo(cov(cv::Rect(8, 0, cov_t.cols, 8)));
+    cv::Mat(cross.t()).copyTo(cov(cv::Rect(0, 8, 8, cov_t.cols)));
+    cov_t.copyTo(cov(cv::Rect(8, 8, cov_t.cols, cov_t.rows)));
+  }
+  cv::Mat(a * cov_h * a.t()).copyTo(cov(cv::Rect(0, 0, 8, 8)));
+  cov = 0.5 * (cov + cov.t());
+  u.covariance.assign(cov.begin<double>(), cov.end<double>());
+  Rig with = rig;
+  with.uncertainty = u;
+  SummariseUncertainty(with);
+  return *with.uncertainty;
 }
 
 namespace {
@@ -604,6 +794,15 @@ StepReport JudgeDetections(const ViewDetections& found, const std::vector<Calibr
     }
     report.warnings.push_back("forced (--force): " + msg);
   }
+  // Corners whose fine fits failed keep the coarser estimate (calib/corner_refine.h); named, not judged.
+  const auto note_fallbacks = [&report](const std::string& name, const BoardDetection& d) {
+    if (d.refine_fallbacks.empty()) return;
+    report.notes.push_back(name + ": " + Plural(d.refine_fallbacks.size(), "corner keeps", "corners keep") +
+                           " a coarser estimate (" + d.refine_fallbacks.front() +
+                           (d.refine_fallbacks.size() > 1 ? "; ..." : "") + ")");
+  };
+  note_fallbacks(plane.name, found.plane);
+  for (const DetectedView& v : found.usable) note_fallbacks(v.name, v.detection);
   if (!found.no_board.empty()) {
     report.notes.push_back("no " + board_text + " board found in " + Plural(found.no_board.size(), "image", "images") +
                            ": " + JoinNames(found.no_board));
@@ -673,7 +872,7 @@ LensDecision DecideLensFit(const ViewDetections& found, const CalibrateOptions& 
 // reprojection error, and the lens quality figures. Sets rig.lens and the lens' rig.quality
 // fields, and appends the views left out to rig.quality.dropped_views.
 StepReport FitLensModel(const ViewDetections& found, const CalibrationImage& plane, const CalibrateOptions& options,
-                        Rig& rig) {
+                        Rig& rig, std::optional<LensCovariance>& lens_covariance) {
   std::vector<std::string> names{plane.name};
   std::vector<std::vector<cv::Point2f>> image_pts{found.plane.corners_px};
   for (const DetectedView& v : found.usable) {
@@ -702,6 +901,7 @@ StepReport FitLensModel(const ViewDetections& found, const CalibrationImage& pla
         "the overall RMS reprojection error is " + Fmt(fit.rms_px, 2) + " px (above " + Num(options.warn_rms_px) +
         " px): expect position errors of that order; sharper views and a flatter board improve it");
   }
+  lens_covariance = LensIntrinsicsCovariance(fit, lens.corners_px, options.board);
   LensModel model;
   model.camera_matrix = fit.camera_matrix;
   model.distortion = fit.distortion;
@@ -731,10 +931,18 @@ StepReport FitLensModel(const ViewDetections& found, const CalibrationImage& pla
   return report;
 }
 
+// What step 3 fitted, for step 5.
+struct PlaneFit {
+  std::optional<PlaneHomography> homography;
+  cv::Matx33d plane_from_board;
+};
+
 // Step 3: the plane view's mapping, up axis, floor and pose, into `rig` (after step 2).
-StepReport MapPlane(const std::vector<cv::Point2f>& corners_px, const CalibrateOptions& options, Rig& rig) {
+StepReport MapPlane(const std::vector<cv::Point2f>& corners_px, const CalibrateOptions& options, Rig& rig,
+                    PlaneFit& fit) {
   StepReport report;
   const std::optional<PlaneHomography> h = FitPlaneHomography(corners_px, options.board, rig.lens);
+  fit.homography = h;
   if (!h) {
     report.refusal = "the plane view's corners gave no plane mapping (degenerate board detection); retake it";
     return report;
@@ -748,6 +956,7 @@ StepReport MapPlane(const std::vector<cv::Point2f>& corners_px, const CalibrateO
         " side; the vertical is taken from the board's edges, so the board must stand upright in the drop plane");
   }
   const PlaneOrigin origin = PlaceOrigin(corners_px, options.board, axes, options.corner_height_m);
+  fit.plane_from_board = origin.plane_from_board;
   rig.plane_from_undistorted = origin.plane_from_board * h->undistorted_from_board.inv();
   rig.plane_from_undistorted *= 1.0 / rig.plane_from_undistorted(2, 2);
   if (options.corner_height_m) {
@@ -810,13 +1019,19 @@ CalibrationOutcome Calibrate(const std::vector<CalibrationImage>& views, const C
   rig.quality.dropped_views = found.dropped;
   const LensDecision decision = DecideLensFit(found, options);
   if (!go_on(decision.report)) return out;
-  if (decision.fit_lens && !go_on(FitLensModel(found, plane, options, rig))) return out;
+  std::optional<LensCovariance> lens_covariance;
+  if (decision.fit_lens && !go_on(FitLensModel(found, plane, options, rig, lens_covariance))) return out;
 
   // 3. The plane: homography board -> undistorted pixels, then board -> plane metres.
-  if (!go_on(MapPlane(found.plane.corners_px, options, rig))) return out;
+  PlaneFit plane_fit;
+  if (!go_on(MapPlane(found.plane.corners_px, options, rig, plane_fit))) return out;
 
   // 4. Figures in the user's units.
   go_on(MeasureQuality(found.plane.corners_px, options, rig));
+
+  // 5. The mapping's uncertainty.
+  rig.uncertainty = EstimateRigUncertainty(rig, found.plane.corners_px, options.board, *plane_fit.homography,
+                                           plane_fit.plane_from_board, lens_covariance, options.corner_height_sd_m);
 
   rig.warnings = out.warnings;
   if (const auto problem = ValidateRig(rig)) {

@@ -5,8 +5,12 @@
 //
 // Method.
 // 1. Corners: cv::findChessboardCornersSB finds the board, cv::cornerSubPix refines each corner
-//    (11 x 11 window, shrunk on small squares so it never spans a neighbour; the refinement is
-//    what made the classic detector the more accurate one in docs/platform.md, "Checkerboard detection"). The classic
+//    (a (2h + 1)-pixel square window, h = subpix_half_window_px shrunk on small squares so it never
+//    spans a neighbour; the refinement is what made the classic detector the more accurate one in
+//    docs/platform.md, "Checkerboard detection"), then a saddle-point fit (Lucchese & Mitra 2002)
+//    and a blurred X-corner model fit from it refine it further (calib/corner_refine.h,
+//    docs/methods.md §16a: on rendered boards 0.009 px mean error against cornerSubPix's 0.055 px;
+//    a fit that fails keeps the previous estimate and is named in BoardDetection). The classic
 //    cv::findChessboardCorners is NOT used to find the board: measured here (OpenCV 4.6, 1024x768)
 //    it takes 13-45 s per image, with or without FAST_CHECK, when the board in view has another
 //    corner count than the one asked for (a wrong --board, a board partly out of view), while
@@ -36,7 +40,11 @@
 //    `warn_rms_px`, a small board, lens views covering little of the frame, little tilt variety
 //    (parallel views leave focal length and distortion confounded: Zhang 2000, section 3.3).
 //
-// The steps of points 1-4, each a function of its own with its inputs and outputs, are in
+// 5. Uncertainty: the corner noise, estimated from the plane view's and the lens views' residuals,
+//    propagated to the mapping's parameters and to heights, the floor and the scale
+//    (calib/rig_uncertainty.h; docs/methods.md §18).
+//
+// The steps of points 1-5, each a function of its own with its inputs and outputs, are in
 // calib/calibrate_steps.h; Calibrate runs them and holds the gates between them.
 //
 // RMS reprojection error is the root mean square over all corners of the distance between
@@ -63,6 +71,8 @@ struct CalibrateOptions {
   BoardSpec board;                            // inner corners and square size
   std::optional<double> corner_height_m;      // [m] >= 0: height above the floor of the plane view's
                                               // lowest inner-corner row; gives y_origin "floor"
+  double corner_height_sd_m = 0.0005;         // [m] 0..1: standard uncertainty of corner_height_m (a steel
+                                              // rule read by eye; from memory); into the floor's uncertainty
   UpSide up = UpSide::kTop;                   // image side physical up points to
   std::optional<double> capture_fps;          // [frames/s] > 0: stored in the rig as given
   bool force = false;                         // accept too few views or a high RMS (with a warning)
@@ -75,7 +85,9 @@ struct CalibrateOptions {
   double min_board_coverage_fraction = 0.05;  // 0..1: plane view's board area / frame; warn below
   double min_views_coverage_fraction = 0.5;   // 0..1: frame share covered by lens views; warn below
   double min_tilt_spread_deg = 15.0;          // [deg] 0..90: largest angle between view normals; warn below
-  int subpix_half_window_px = 5;              // [px] 2..30: cornerSubPix window is 2 x this + 1
+  int subpix_half_window_px = 9;              // [px] 2..30: corner refinement half window (cornerSubPix's
+                                              // square, the saddle and X-corner fits' disc), shrunk on
+                                              // small squares
   int max_video_views = 20;                   // [views] 3..200: frames kept from one video
   int video_candidates_per_view = 3;          // 1..20: frames looked at per frame kept
 };
@@ -85,13 +97,15 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& opti
 // One board detection.
 struct BoardDetection {
   bool found = false;
-  std::vector<cv::Point2f> corners_px;  // inner corners, row by row as OpenCV orders them
-  double blur_px = 0.0;                 // edge blur sigma estimate [px] (0 when not found)
+  std::vector<cv::Point2f> corners_px;        // inner corners, row by row as OpenCV orders them
+  double blur_px = 0.0;                       // edge blur sigma estimate [px] (0 when not found)
+  std::vector<std::string> refine_fallbacks;  // corners whose saddle or X-corner fit failed, with the
+                                              // reason ("corner <k>: ..."); they keep the estimate before
 };
 
 // Finds the inner corners to sub-pixel accuracy (method: point 1 above).
 // Throws std::invalid_argument when `grey` is empty or not 8-bit single-channel.
-BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subpix_half_window_px = 5);
+BoardDetection DetectBoard(const cv::Mat& grey, const BoardSpec& board, int subpix_half_window_px = 9);
 
 // Edge blur sigma [px] of a found board: median over the square edges of the 10-90 % rise
 // distance / 2.563. Returns 0 when no edge can be measured.

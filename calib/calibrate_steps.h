@@ -5,7 +5,9 @@
 //   2. the lens fit with outlier-view removal (FitLensWithoutOutliers, built on FitLens),
 //   3. the plane view: its mapping (FitPlaneHomography), the up axis (FindBoardAxes), the floor
 //      (PlaceOrigin) and the board pose (PlaneViewPose),
-//   4. the quality figures (TiltSpreadDeg, CoverageFraction, MeasurePlaneView).
+//   4. the quality figures (TiltSpreadDeg, CoverageFraction, MeasurePlaneView),
+//   5. the mapping's uncertainty (CornerSdFromRms, HomographyCovariance, LensIntrinsicsCovariance,
+//      EstimateRigUncertainty; the method is calib/rig_uncertainty.h).
 // The gates, warnings and refusals between them stay in calibrate.cpp: these functions compute,
 // they do not judge (except the outlier rule of step 2, which is part of the fit).
 //
@@ -141,5 +143,44 @@ struct PlaneViewFigures {
   double board_coverage_fraction = 0.0;
 };
 PlaneViewFigures MeasurePlaneView(const Rig& rig, const std::vector<cv::Point2f>& corners_px, const BoardSpec& board);
+
+// --- Step 5: the mapping's uncertainty (method: calib/rig_uncertainty.h) ---------------------
+
+// Corner noise s.d. [px] per image coordinate from a least-squares fit's RMS residual distance
+// over `corners` corners (2 x corners coordinates) with `parameters` parameters fitted: the
+// unbiased residual variance RSS / (2 corners - parameters), RSS = corners x rms^2 (common
+// practice, no source). OpenCV 4.6's calibrateCamera divides by (corners - parameters) for its
+// stdDeviationsIntrinsics instead (measured: tests/calib/rig_uncertainty_test.cpp). Throws
+// std::invalid_argument when there are no more coordinates than parameters.
+double CornerSdFromRms(double rms_px, size_t corners, size_t parameters);
+
+// Covariance (8 x 8, CV_64F) of h11 h12 h13 h21 h22 h23 h31 h32 of a homography board ->
+// undistorted pixels scaled to h33 = 1, fitted by least squares to the board's inner corners
+// with independent noise of s.d. `corner_sd_px` on each image coordinate:
+// corner_sd_px^2 (J^T J)^-1, J the 2N x 8 Jacobian of the projected corners.
+cv::Mat HomographyCovariance(const cv::Matx33d& undistorted_from_board, const BoardSpec& board, double corner_sd_px);
+
+// Covariance of a lens fit's intrinsics.
+struct LensCovariance {
+  // 9 x 9, CV_64F: fx fy cx cy k1 k2 p1 p2 k3; rows and columns of terms not fitted are 0.
+  cv::Mat intrinsics;
+  double corner_sd_px = 0.0;  // corner noise from the fit's residuals (CornerSdFromRms, P parameters)
+};
+// s^2 [(J^T J)^-1] restricted to the intrinsics, J the Jacobian (cv::projectPoints) of every
+// view's corners with respect to the fitted intrinsics and every view's rvec and tvec, at `fit`;
+// P = 4 + fitted terms + 6 x views. `corners_px` are the views `fit` was fitted to, in its order.
+LensCovariance LensIntrinsicsCovariance(const LensFit& fit, const std::vector<std::vector<cv::Point2f>>& corners_px,
+                                        const BoardSpec& board);
+
+// The rig's uncertainty: the joint covariance of MappingParameters(rig) (calib/rig_uncertainty.h,
+// steps 1-3) from the plane view's corners and homography fit (`homography`, as
+// FitPlaneHomography returned it for rig.lens), the board -> plane axes and origin
+// (PlaceOrigin's plane_from_board) and, when rig.lens is set, the lens fit's covariance; then
+// the summary figures (SummariseUncertainty) with `corner_height_sd_m` [m]. Throws
+// std::invalid_argument when rig.lens and `lens` are not both set or both absent.
+RigUncertainty EstimateRigUncertainty(const Rig& rig, const std::vector<cv::Point2f>& corners_px,
+                                      const BoardSpec& board, const PlaneHomography& homography,
+                                      const cv::Matx33d& plane_from_board, const std::optional<LensCovariance>& lens,
+                                      double corner_height_sd_m);
 
 }  // namespace dropfit::calib

@@ -6,6 +6,8 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "calib/rig_uncertainty.h"
+
 namespace dropfit::calib {
 
 namespace {
@@ -107,6 +109,22 @@ std::optional<std::string> ValidateRig(const Rig& rig) {
     }
   }
   if (rig.corner_height_m && !std::isfinite(*rig.corner_height_m)) return "the corner height is not finite";
+  if (rig.uncertainty) {
+    const RigUncertainty& u = *rig.uncertainty;
+    const std::vector<std::string> names = MappingParameterNames(rig);
+    if (u.parameters != names || u.covariance.size() != names.size() * names.size()) {
+      return "the uncertainty's covariance does not match the mapping's " + std::to_string(names.size()) +
+             " parameters (" + std::to_string(u.parameters.size()) + " named, " + std::to_string(u.covariance.size()) +
+             " numbers)";
+    }
+    for (double v : u.covariance) {
+      if (!std::isfinite(v)) return "the uncertainty's covariance holds a non-finite number";
+    }
+    for (double v : {u.plane_corner_sd_px, u.lens_corner_sd_px, u.corner_height_sd_m, u.height_sd_at_corner_row_m,
+                     u.height_sd_100mm_m, u.height_sd_300mm_m, u.floor_sd_m.value_or(0.0), u.scale_rel_sd_centre}) {
+      if (!(std::isfinite(v) && v >= 0)) return "the uncertainty holds a negative or non-finite standard deviation";
+    }
+  }
   if (rig.capture_fps && !(std::isfinite(*rig.capture_fps) && *rig.capture_fps > 0)) {
     return "the capture rate is not a positive number";
   }

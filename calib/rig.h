@@ -70,6 +70,28 @@ struct BoardSpec {
 BoardSpec BoardSizeFromString(const std::string& text, double square_m);
 std::string BoardSizeToString(const BoardSpec& board);
 
+// The rig's standard uncertainty (calib/rig_uncertainty.h holds the method and the functions
+// that use it; docs/methods.md §18). Heights are y_m; "mapping only" means from the corner
+// noise of the plane view and of the lens views, without the hand-measured corner height.
+struct RigUncertainty {
+  double plane_corner_sd_px = 0.0;  // corner noise of the plane view: sqrt(RSS / (2N - 8)) [px]
+  double lens_corner_sd_px = 0.0;   // corner noise of the lens views: sqrt(RSS / (2N - P)) [px]; 0 without lens
+  double corner_height_sd_m = 0.0;  // standard uncertainty of the corner height (`--corner-height-sd`) [m]
+  // At the image's horizontal centre (x_m of the image centre's pixel), mapping only [m]: the
+  // height of the plane view's lowest corner row, and 100 mm and 300 mm above it.
+  double height_sd_at_corner_row_m = 0.0;
+  double height_sd_100mm_m = 0.0;
+  double height_sd_300mm_m = 0.0;
+  // The floor level at the same x_m: the mapping there and the corner height combined [m];
+  // absent when the rig does not know the floor (y_origin "board").
+  std::optional<double> floor_sd_m;
+  double scale_rel_sd_centre = 0.0;  // relative sd of metres_per_px_centre [-]
+  // Joint covariance of MappingParameters(rig) (calib/rig_uncertainty.h), named in `parameters`,
+  // n x n row by row [units of the parameters' products].
+  std::vector<std::string> parameters;
+  std::vector<double> covariance;
+};
+
 struct Rig {
   static constexpr int kSchemaVersion = 1;
   int schema_version = kSchemaVersion;
@@ -94,6 +116,8 @@ struct Rig {
   std::string plane_view;  // name of the view that lies in the drop plane
   // The options the calibration ran with, as (name, value) text, so a rig can be remade.
   std::vector<std::pair<std::string, std::string>> settings;
+  // Added with issue 14: the standard uncertainty of the mapping; absent in older rigs.
+  std::optional<RigUncertainty> uncertainty;
 };
 
 // Returns a message naming what is wrong (NaN, non-invertible mapping, bad image size...),

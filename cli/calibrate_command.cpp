@@ -52,6 +52,19 @@ void PrintSummary(const calib::Rig& rig, const std::string& path, std::ostream& 
               ? "floor (lowest corner row at " + Fixed(*rig.corner_height_m, 4) + " m)"
               : std::string("plane view's lowest inner-corner row"))
       << "\n";
+  if (rig.uncertainty) {
+    const calib::RigUncertainty& u = *rig.uncertainty;
+    const auto mm = [](double m) { return Fixed(m * 1e3, 4); };
+    out << "  uncertainty (1 sd; corner noise " << Fixed(u.plane_corner_sd_px, 3) << " px in the plane view";
+    if (rig.lens) out << ", " << Fixed(u.lens_corner_sd_px, 3) << " px in the lens views";
+    out << "):\n    heights at the image's centre column: " << mm(u.height_sd_at_corner_row_m)
+        << " mm at the lowest corner row, " << mm(u.height_sd_100mm_m) << " mm 100 mm above it, "
+        << mm(u.height_sd_300mm_m) << " mm 300 mm above it\n    ";
+    if (u.floor_sd_m) {
+      out << "floor " << mm(*u.floor_sd_m) << " mm (with the corner height's " << mm(u.corner_height_sd_m) << " mm), ";
+    }
+    out << "scale at the image centre " << Fixed(100 * u.scale_rel_sd_centre, 4) << " %\n";
+  }
 }
 
 }  // namespace
@@ -69,6 +82,7 @@ int RunCalibrate(const CalibrateCommandOptions& options, std::ostream& out, std:
     return fail(e.what());
   }
   opts.corner_height_m = options.corner_height_m;
+  opts.corner_height_sd_m = options.corner_height_sd_m;
   opts.capture_fps = options.fps;
   opts.force = options.force;
   if (const auto problem = calib::ValidateCalibrateOptions(opts)) return fail(*problem);

@@ -2,7 +2,8 @@
 // `dropfit calibrate`: checkerboard images -> rig file (once per camera set-up).
 //
 //   dropfit calibrate IMAGES_OR_FOLDER_OR_VIDEO... --board 9x6 --square 0.025 --plane IMAGE
-//                     [--corner-height M] [--up top|bottom|left|right] [--fps N] [--force] -o rig.json
+//                     [--corner-height M] [--corner-height-sd M] [--up top|bottom|left|right] [--fps N] [--force] -o
+//                     rig.json
 //
 // Reads the inputs (calib/calibration_input.h), calibrates (calib/calibrate.h), prints the
 // quality figures, and writes the rig (cli/rig_io.h) with the effective options under
@@ -23,6 +24,7 @@ struct CalibrateCommandOptions {
   double square_m = 0.025;                // checkerboard square size [m]
   std::string plane_image;                // the view whose board lies in the drop plane
   std::optional<double> corner_height_m;  // height of the plane view's lowest inner-corner row above the floor [m]
+  double corner_height_sd_m = 0.0005;     // its standard uncertainty [m], 0..1 (calib::CalibrateOptions)
   std::string up = "top";                 // image side that physical up points to
   std::optional<double> fps;              // capture rate of the clips filmed with this rig [frames/s]
   bool force = false;                     // write the rig despite too few views or a high RMS (with warnings)

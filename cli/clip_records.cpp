@@ -48,6 +48,8 @@ ImpactRecord ImpactRecordOf(const analysis::ImpactFigures& f, const analysis::Se
   AddEstimate(x, "contact_duration_track_s", "contact_duration_track_sd_s", f.contact_duration_track_s);
   AddEstimate(x, "peak_force_track_n", "peak_force_track_sd_n", f.peak_force_track_n);
   x.push_back({"t_peak_force_track_s", f.t_peak_force_track_s});
+  x.push_back({"falling_flight_downweighted", static_cast<double>(f.falling_flight_downweighted)});
+  x.push_back({"rising_flight_downweighted", static_cast<double>(f.rising_flight_downweighted)});
   AddEstimate(x, "energy_lost_j", "energy_lost_sd_j", f.energy_lost_j);
   const analysis::Bounce& b = seg.bounces[static_cast<size_t>(f.bounce_index)];
   x.push_back({"t_lowest_s", b.t_lowest_s});

@@ -25,7 +25,13 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"free_parameters", static_cast<double>(fit.free_parameters)},
              {"iterations", static_cast<double>(fit.iterations)},
              {"starts", static_cast<double>(fit.starts)},
-             {"solve_time_s", fit.solve_time_s}};
+             {"solve_time_s", fit.solve_time_s},
+             {"rank_criterion", fit.rank_criterion},
+             {"residual_lag1_correlation", fit.residual_lag1_correlation},
+             {"effective_samples", fit.effective_samples},
+             {"sd_inflation", fit.sd_inflation},
+             {"rms_contact_m", fit.rms_contact_m},
+             {"rms_flight_m", fit.rms_flight_m}};
   r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
   std::string bounds;
@@ -56,12 +62,21 @@ void AddLawFitsToResult(const analysis::LawComparison& laws, const std::vector<p
           {law, CurveKind::kForceDeflection, fit.curves.front().deflection_m, fit.curves.front().force_n});
     }
   }
-  if (!laws.best) {
+  const analysis::LawChoice& choice = laws.choice;
+  if (!choice.best) {
     result.warnings.push_back(result.clip + ": no contact law could be fitted; the impact figures come from the track");
     return;
   }
-  const analysis::LawFitResult& best = laws.fits[static_cast<size_t>(*laws.best)];
+  const analysis::LawFitResult& best = laws.fits[static_cast<size_t>(*choice.best)];
   result.best_law = analysis::ToString(best.law);
+  for (int i : choice.equivalent)
+    result.equivalent_laws.push_back(analysis::ToString(laws.fits[static_cast<size_t>(i)].law));
+  if (choice.no_law_fits) {
+    // The law-free figures stay the result (docs/methods.md §13).
+    result.no_law_fits = choice.no_law_fits;
+    result.warnings.push_back(result.clip + ": " + *choice.no_law_fits);
+    return;
+  }
   for (const analysis::BounceFitFigures& f : best.figures) {
     if (f.clip_index != 0 || f.bounce_index < 0 || static_cast<size_t>(f.bounce_index) >= result.impacts.size()) {
       continue;

@@ -29,7 +29,11 @@ SpecimenSummary SummaryOf(const pipeline::SpecimenResult& r) {
     summary.joint_fits.push_back(record);
     if (i < r.law_cor.size()) summary.curves.push_back(CorCurve(law.fit.law, r.law_cor[i]));
   }
-  if (r.fit->best) summary.best_law = analysis::ToString(r.fit->laws[static_cast<size_t>(*r.fit->best)].fit.law);
+  const analysis::LawChoice& choice = r.fit->choice;
+  if (choice.best) summary.best_law = analysis::ToString(r.fit->laws[static_cast<size_t>(*choice.best)].fit.law);
+  for (int i : choice.equivalent)
+    summary.equivalent_laws.push_back(analysis::ToString(r.fit->laws[static_cast<size_t>(i)].fit.law));
+  summary.no_law_fits = choice.no_law_fits;
   return summary;
 }
 

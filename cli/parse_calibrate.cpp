@@ -16,6 +16,9 @@ void AddCalibrateCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("--plane", opts->plane_image, "Image whose board lies in the drop plane")->required();
   sub->add_option("--corner-height", opts->corner_height_m,
                   "Height of the plane view's lowest inner-corner row above the floor [m]");
+  sub->add_option("--corner-height-sd", opts->corner_height_sd_m,
+                  "Standard uncertainty of --corner-height [m], 0..1; part of the floor's uncertainty in the rig; "
+                  "default 0.0005 (a steel rule read by eye)");
   sub->add_option("--up", opts->up, "Image side that physical up points to: top|bottom|left|right; default top");
   sub->add_option("--fps", opts->fps, "Capture rate of clips filmed with this rig [frames/s]");
   sub->add_flag("--force", opts->force, "Write the rig despite too few views or an RMS reprojection error above 1 px");

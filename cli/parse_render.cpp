@@ -169,6 +169,10 @@ void AddOutputOptions(CLI::App* sub, RenderCommandOptions* o) {
   sub->add_option("--lens-views", o->lens_views, "Tilted checkerboard views for the lens model, 1..12")
       ->capture_default_str()
       ->group(output);
+  sub->add_option("--calibration-seed", o->calibration_seed,
+                  "Noise seed of the checkerboard images alone (the scene stays that of --seed), so that repeated "
+                  "rigs can be rendered; default derived from --seed")
+      ->group(output);
   sub->add_option("--threads", o->threads, "Clips rendered at once, 1..64 (the output does not depend on it)")
       ->capture_default_str()
       ->group(output);

@@ -114,6 +114,17 @@ std::string ParamText(const FitRecord& f) {
   return s;
 }
 
+// The laws the data cannot tell from the best one, and the verdict when no law fits.
+std::string LawChoiceNote(const std::vector<std::string>& equivalent, const std::optional<std::string>& no_law_fits) {
+  std::string s;
+  if (!equivalent.empty()) {
+    s += "; equivalent for these data: ";
+    for (size_t i = 0; i < equivalent.size(); ++i) s += (i ? ", " : "") + EscapeHtml(equivalent[i]);
+  }
+  if (no_law_fits) s += "<br><strong>" + EscapeHtml(*no_law_fits) + "</strong>";
+  return s;
+}
+
 // "; on a bound: ..." when a parameter of the fit ended on a bound of its search.
 std::string BoundNote(const FitRecord& f) {
   for (const auto& [name, text] : f.notes) {
@@ -147,8 +158,8 @@ void FitTable(std::ostringstream& html, const std::vector<const FitRecord*>& fit
 
 void SpecimenSection(std::ostringstream& html, const SpecimenSummary& sp) {
   html << "<h2>Specimen: " << EscapeHtml(sp.specimen.empty() ? "(unnamed)" : sp.specimen) << "</h2>";
-  html << "<p>Best law by BIC over all heights: <strong>" << EscapeHtml(sp.best_law.value_or("none"))
-       << "</strong></p>";
+  html << "<p>Best law over all heights: <strong>" << EscapeHtml(sp.best_law.value_or("none")) << "</strong>"
+       << LawChoiceNote(sp.equivalent_laws, sp.no_law_fits) << "</p>";
   std::vector<const FitRecord*> fits;
   for (const JointFitRecord& jf : sp.joint_fits) fits.push_back(&jf.fit);
   html << "<h3>Joint fits (one law, one onset height, all clips)</h3>";
@@ -272,7 +283,7 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
   if (!r.fits.empty()) {
     std::vector<const FitRecord*> fits;
     for (const FitRecord& f : r.fits) fits.push_back(&f);
-    html << "<p class=\"small\">Per-clip fits:</p>";
+    html << "<p class=\"small\">Per-clip fits" << LawChoiceNote(r.equivalent_laws, r.no_law_fits) << "</p>";
     FitTable(html, fits, r.best_law);
   }
   html << "</div>";

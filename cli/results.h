@@ -102,6 +102,8 @@ struct ClipResult {
   std::vector<ImpactRecord> impacts;
   std::vector<FitRecord> fits;
   std::optional<std::string> best_law;
+  std::vector<std::string> equivalent_laws;  // laws the data cannot tell from best_law
+  std::optional<std::string> no_law_fits;    // the verdict when even the best law misfits
   std::vector<std::string> warnings;
   std::vector<std::string> errors;
   std::vector<FrameLeftEmpty> frames_left_empty;  // in frame order
@@ -142,6 +144,8 @@ struct JointFitRecord {
 struct SpecimenSummary {
   std::string specimen;
   std::optional<std::string> best_law;
+  std::vector<std::string> equivalent_laws;
+  std::optional<std::string> no_law_fits;
   std::vector<JointFitRecord> joint_fits;
   std::vector<Curve> curves;  // for the report (COR against impact speed)
 };

@@ -181,6 +181,8 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
   j["fits"] = ordered_json::array();
   for (const FitRecord& f : r.fits) j["fits"].push_back(FitToJson(f));
   j["best_law"] = r.best_law ? ordered_json(*r.best_law) : ordered_json(nullptr);
+  j["equivalent_laws"] = r.equivalent_laws;
+  j["no_law_fits"] = r.no_law_fits ? ordered_json(*r.no_law_fits) : ordered_json(nullptr);
   j["warnings"] = r.warnings;
   j["errors"] = r.errors;
   j["frames_left_empty"] = ordered_json::array();
@@ -226,25 +228,17 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     }
     for (const json& jf : j.value("fits", json::array())) r.fits.push_back(FitFromJson(jf));
     if (j.contains("best_law") && j["best_law"].is_string()) r.best_law = j["best_law"].get<std::string>();
+    r.equivalent_laws = j.value("equivalent_laws", std::vector<std::string>{});
+    if (j.contains("no_law_fits") && j["no_law_fits"].is_string()) r.no_law_fits = j["no_law_fits"].get<std::string>();
     r.warnings = j.value("warnings", std::vector<std::string>{});
     r.errors = j.value("errors", std::vector<std::string>{});
     for (const json& e : j.value("frames_left_empty", json::array())) {
       r.frames_left_empty.push_back({e.at("frame").get<int>(), e.at("reason").get<std::string>()});
     }
-    static const char* const kTop[] = {"clip",
-                                       "capture_fps",
-                                       "capture_fps_source",
-                                       "frames",
-                                       "tracked_frames",
-                                       "y_origin",
-                                       "gravity_check",
-                                       "impacts",
-                                       "fits",
-                                       "best_law",
-                                       "warnings",
-                                       "errors",
-                                       "frames_left_empty",
-                                       "curves"};
+    static const char* const kTop[] = {"clip",           "capture_fps",     "capture_fps_source", "frames",
+                                       "tracked_frames", "y_origin",        "gravity_check",      "impacts",
+                                       "fits",           "best_law",        "warnings",           "errors",
+                                       "curves",         "equivalent_laws", "no_law_fits",        "frames_left_empty"};
     ReadExtras(j, kTop, r.extra, &r.info);
     r.curves = CurvesFromJson(j);
     return r;
@@ -276,6 +270,8 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
     ordered_json js;
     js["specimen"] = sp.specimen;
     js["best_law"] = sp.best_law ? ordered_json(*sp.best_law) : ordered_json(nullptr);
+    js["equivalent_laws"] = sp.equivalent_laws;
+    js["no_law_fits"] = sp.no_law_fits ? ordered_json(*sp.no_law_fits) : ordered_json(nullptr);
     js["joint_fits"] = ordered_json::array();
     for (const JointFitRecord& jf : sp.joint_fits) {
       ordered_json f = FitToJson(jf.fit);
@@ -330,6 +326,10 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
       SpecimenSummary sp;
       sp.specimen = js.at("specimen").get<std::string>();
       if (js.contains("best_law") && js["best_law"].is_string()) sp.best_law = js["best_law"].get<std::string>();
+      sp.equivalent_laws = js.value("equivalent_laws", std::vector<std::string>{});
+      if (js.contains("no_law_fits") && js["no_law_fits"].is_string()) {
+        sp.no_law_fits = js["no_law_fits"].get<std::string>();
+      }
       for (const json& jf : js.value("joint_fits", json::array())) {
         JointFitRecord rec;
         rec.fit = FitFromJson(jf);

@@ -123,6 +123,38 @@ class Reader {
   std::string name_;
 };
 
+// The `uncertainty` object (added with issue 14; older rigs have none).
+calib::RigUncertainty UncertaintyFromJson(const json& j, const Reader& in) {
+  const json& u = j.at("uncertainty");
+  const std::string path = "uncertainty";
+  if (!u.is_object()) in.Fail("field 'uncertainty' is not an object");
+  calib::RigUncertainty out;
+  out.plane_corner_sd_px = in.Num(u, path, "plane_corner_sd_px");
+  out.lens_corner_sd_px = in.NumOr(u, path, "lens_corner_sd_px", 0.0);
+  out.corner_height_sd_m = in.Num(u, path, "corner_height_sd_m");
+  out.height_sd_at_corner_row_m = in.Num(u, path, "height_sd_at_corner_row_m");
+  out.height_sd_100mm_m = in.Num(u, path, "height_sd_100mm_m");
+  out.height_sd_300mm_m = in.Num(u, path, "height_sd_300mm_m");
+  out.floor_sd_m = in.OptNum(u, path, "floor_sd_m");
+  out.scale_rel_sd_centre = in.Num(u, path, "scale_rel_sd_centre");
+  out.parameters = in.Texts(u, path, "parameters");
+  const json& rows = in.Field(u, path, "covariance");
+  if (!rows.is_array() || rows.size() != out.parameters.size()) {
+    in.Fail("field 'uncertainty.covariance' is not " + std::to_string(out.parameters.size()) +
+            " rows (one per parameter)");
+  }
+  for (size_t r = 0; r < rows.size(); ++r) {
+    const json& row = rows.at(r);
+    const std::string p = "uncertainty.covariance[" + std::to_string(r) + "]";
+    if (!row.is_array() || row.size() != out.parameters.size()) {
+      in.Fail("field '" + p + "' is not a row of " + std::to_string(out.parameters.size()) + " numbers");
+    }
+    for (size_t c = 0; c < row.size(); ++c)
+      out.covariance.push_back(in.NumberAt(row.at(c), p + "[" + std::to_string(c) + "]"));
+  }
+  return out;
+}
+
 calib::Rig RigFromJson(const json& j, const Reader& in) {
   if (!j.is_object()) in.Fail("the rig file is not a JSON object");
   calib::Rig rig;
@@ -214,6 +246,8 @@ calib::Rig RigFromJson(const json& j, const Reader& in) {
     }
   }
 
+  if (j.contains("uncertainty") && !j.at("uncertainty").is_null()) rig.uncertainty = UncertaintyFromJson(j, in);
+
   if (const auto problem = calib::ValidateRig(rig)) in.Fail(*problem);
   return rig;
 }
@@ -272,6 +306,26 @@ std::string RigToJson(const calib::Rig& rig) {
   ordered_json settings = ordered_json::object();
   for (const auto& [name, value] : rig.settings) settings[name] = value;
   j["calibrate_options"] = settings;
+  if (rig.uncertainty) {
+    const calib::RigUncertainty& u = *rig.uncertainty;
+    ordered_json rows = ordered_json::array();
+    const size_t n = u.parameters.size();
+    for (size_t r = 0; r < n; ++r) {
+      ordered_json row = ordered_json::array();
+      for (size_t c = 0; c < n && r * n + c < u.covariance.size(); ++c) row.push_back(Number(u.covariance[r * n + c]));
+      rows.push_back(row);
+    }
+    j["uncertainty"] = {{"plane_corner_sd_px", Number(u.plane_corner_sd_px)},
+                        {"lens_corner_sd_px", Number(u.lens_corner_sd_px)},
+                        {"corner_height_sd_m", Number(u.corner_height_sd_m)},
+                        {"height_sd_at_corner_row_m", Number(u.height_sd_at_corner_row_m)},
+                        {"height_sd_100mm_m", Number(u.height_sd_100mm_m)},
+                        {"height_sd_300mm_m", Number(u.height_sd_300mm_m)},
+                        {"floor_sd_m", Optional(u.floor_sd_m)},
+                        {"scale_rel_sd_centre", Number(u.scale_rel_sd_centre)},
+                        {"parameters", u.parameters},
+                        {"covariance", rows}};
+  }
   return j.dump(2) + "\n";
 }
 

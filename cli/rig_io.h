@@ -22,6 +22,8 @@
 //   inputs              [ { file, fnv1a64 } ]: every input file and its hash
 //   warnings            [ text ]
 //   calibrate_options   { name: value text }: the options the calibration ran with
+//   uncertainty         (optional) calib::RigUncertainty's fields, same names; covariance as
+//                       rows, one per name in `parameters` (docs/formats.md, "The rig file")
 // Readers ignore fields they do not know, so fields can be added without a new schema version.
 
 #include <filesystem>

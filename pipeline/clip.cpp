@@ -40,8 +40,10 @@ void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurem
     m.laws = analysis::FitAllLaws({*m.fit_clip}, m.fit_options);
     for (const analysis::LawFitResult& fit : m.laws->fits)
       m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
-    if (m.laws->best && !kinematics_options.onset_height_m) {
-      const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->best)];
+    // A law that does not fit gives no onset height to trust: the track's stays.
+    const analysis::LawChoice& choice = m.laws->choice;
+    if (choice.best && !choice.no_law_fits && !kinematics_options.onset_height_m) {
+      const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*choice.best)];
       ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m);
     }
   }

@@ -28,6 +28,7 @@
 
 #include "analysis/drop_conditions.h"
 #include "analysis/kinematics.h"
+#include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
 #include "analysis/time_series.h"
 #include "calib/rig.h"

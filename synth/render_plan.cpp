@@ -169,6 +169,10 @@ RenderPlan MakePlan(const RenderOptions& o) {
   return plan;
 }
 
+uint64_t CalibrationNoiseSeed(const RenderOptions& options) {
+  return options.calibration_seed.value_or(options.seed ^ 0xCA11B8ull);
+}
+
 std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOptions& o, const RenderPlan& plan) {
   std::vector<std::pair<std::string, std::string>> out;
   auto add = [&out](const std::string& k, const std::string& v) { out.emplace_back(k, v); };
@@ -228,6 +232,8 @@ std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOp
   add("board", o.board);
   add("square_m", Fmt(o.square_m));
   add("lens_views", std::to_string(o.lens_views));
+  // Only when given, so that the files of a set rendered without it stay as they were.
+  if (o.calibration_seed) add("calibration_seed", std::to_string(*o.calibration_seed));
   add("first_frames", std::to_string(o.first_frames));
   if (plan.occluder.active()) {  // recorded only when a card is drawn
     add("occluder", o.occluder);
@@ -486,6 +492,7 @@ std::map<std::string, RecordSetter> RecordSetters(RenderOptions& o) {
       {"board", [&o](auto&, auto& v) { o.board = v; }},
       {"square_m", [&o](auto& n, auto& v) { o.square_m = RecordedNumber(n, v); }},
       {"lens_views", [&o](auto& n, auto& v) { o.lens_views = RecordedInteger(n, v); }},
+      {"calibration_seed", [&o](auto&, auto& v) { o.calibration_seed = std::stoull(v); }},
       {"first_frames", [&o](auto& n, auto& v) { o.first_frames = RecordedInteger(n, v); }},
       {"occluder", [&o](auto&, auto& v) { o.occluder = v; }},
       {"occluder_cover", [&o](auto&, auto& v) { o.occluder_cover = v; }},

@@ -72,19 +72,21 @@ struct RenderOptions {
   bool clean = false;                // no noise, no motion blur, no lens blur, no flicker,
                                      // no vignetting, lossless output
   // Output.
-  std::string format = "auto";  // mjpg | ffv1 | h264 | png | auto (mjpg; png when clean)
-  int jpeg_quality = 90;        // MJPG quality; 1..100
-  double container_fps = 0.0;   // rate stored in the container; 0 = the capture rate
-  double duration_s = 0.0;      // clip length [s]; 0 = through 3 complete bounces (<= 3 s)
-  double pre_release_s = 0.01;  // clip start before release [s]; [0, 1]
-  bool calibration = true;      // write calib/ checkerboard images
-  std::string board = "9x6";    // checkerboard inner corners, columns x rows
-  double square_m = 0.05;       // checkerboard square [m]
-  int lens_views = 10;          // tilted checkerboard views; 1..12
-  int threads = 2;              // clips rendered at once; 1..64 (output is the same)
-  int first_frames = 0;         // render only the first N frames of each clip (quick
-                                // checks); 0 = all. Impacts in the truth stay those of
-                                // the full clip.
+  std::string format = "auto";               // mjpg | ffv1 | h264 | png | auto (mjpg; png when clean)
+  int jpeg_quality = 90;                     // MJPG quality; 1..100
+  double container_fps = 0.0;                // rate stored in the container; 0 = the capture rate
+  double duration_s = 0.0;                   // clip length [s]; 0 = through 3 complete bounces (<= 3 s)
+  double pre_release_s = 0.01;               // clip start before release [s]; [0, 1]
+  bool calibration = true;                   // write calib/ checkerboard images
+  std::string board = "9x6";                 // checkerboard inner corners, columns x rows
+  double square_m = 0.05;                    // checkerboard square [m]
+  int lens_views = 10;                       // tilted checkerboard views; 1..12
+  std::optional<uint64_t> calibration_seed;  // the checkerboard images' noise seed; unset = derived
+                                             // from `seed` (CalibrationNoiseSeed)
+  int threads = 2;                           // clips rendered at once; 1..64 (output is the same)
+  int first_frames = 0;                      // render only the first N frames of each clip (quick
+                                             // checks); 0 = all. Impacts in the truth stay those of
+                                             // the full clip.
   // Occluder: a card crossing the marker (synth/render.h, Occluder), for known-answer partly
   // hidden frames.
   std::string occluder;                // "FIRST:LAST": frames of each clip the card is drawn on;
@@ -124,6 +126,11 @@ struct RenderPlan {
   Occluder occluder;                                         // inactive without --occluder
 };
 
+// The checkerboard images' noise seed: calibration_seed, or by default seed ^ 0xCA11B8 (as before
+// the option existed, so that earlier sets render the same), so that repeated rigs can be rendered
+// with one scene and different noise.
+uint64_t CalibrationNoiseSeed(const RenderOptions& options);
+
 // The plan of valid options. Throws std::invalid_argument on a bad law, parameter, marker or
 // format; the sizes are assumed valid (ValidateRenderOptions first).
 RenderPlan MakePlan(const RenderOptions& options);
@@ -156,8 +163,8 @@ std::string FormatRecordNumber(double value);
 
 // The effective options of a run, "name" (the field name) and value text, in a fixed order:
 // law parameters with their defaults ("param.<name>"), resolved rim radius, marker diameter,
-// principal point, exposure (after clean), format and container rate. out_dir and threads
-// are not recorded (they do not change what is drawn).
+// principal point, exposure (after clean), format and container rate; calibration_seed only when
+// set. out_dir and threads are not recorded (they do not change what is drawn).
 std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOptions& options, const RenderPlan& plan);
 
 // The options a run recorded (EffectiveOptions), back as a struct, so that a clip set can be

@@ -53,7 +53,7 @@ CalibrationTruth WriteCalibrationImages(const RenderSetPlan& set, const fs::path
   ct.corner_height_m = PlaneBoardCornerHeight(set.plan.board);
   for (const CalibrationImage& image :
        RenderCalibrationImages(*set.renderer, set.plan.board, options.lens_views, set.plan.exposure, set.plan.add_noise,
-                               options.seed ^ 0xCA11B8ull)) {
+                               CalibrationNoiseSeed(options))) {
     const std::string file = "calib/" + image.name + ".png";
     if (!cv::imwrite((out / file).string(), image.image)) {
       throw std::runtime_error("cannot write '" + (out / file).string() + "'");

@@ -158,7 +158,7 @@ class PairSampler {
   Weights weights_;
 };
 
-// One pair's residual and Jacobian row (centre x, y; a x, y; b x, y), kept from the last step.
+// One pair's residual and Jacobian row (centre x, y; a x, y; b x, y) at the fitted centre.
 struct PairRow {
   double r;
   double j[6];
@@ -174,10 +174,8 @@ enum class StepOutcome {
 // normal equations J^T J step = -J^T r over the offsets, solved by Cholesky; with
 // `fit_light_gradient` false only the centre moves (a, b stay zero). `step_px` is the length of
 // the centre's step [px].
-// `rows` receives every pair's residual and Jacobian row at the state before the step.
 StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& offsets, bool fit_light_gradient,
-                            FitState& state, double& step_px, std::vector<PairRow>& rows) {
-  rows.clear();
+                            FitState& state, double& step_px) {
   const int n_params = fit_light_gradient ? 6 : 2;
   const double(&a)[2] = state.a;
   const double(&b)[2] = state.b;
@@ -189,9 +187,8 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
     if (!sampler.Pair(d, p, m)) return StepOutcome::kOutside;
     const double s = 0.5 * (p.value + m.value);
     const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
-    const PairRow& row = rows.emplace_back(PairRow{
-        r, {p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)}});
-    const double(&j)[6] = row.j;
+    const double j[6] = {
+        p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
     for (int i = 0; i < n_params; ++i) {
       jtr[i] += j[i] * r;
       for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
@@ -247,11 +244,14 @@ double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
   return std::hypot(step[0], step[1]);
 }
 
-// Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`;
-// `patch` only bounds the window). False, leaving `res` alone, when part of the window falls
-// outside the patch.
+// Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`).
+// `rows` receives the fit's own residual and Jacobian row of every pair there (smoothed samples
+// of `patch`), for RobustShift. False, leaving `res` alone, when part of the window falls outside
+// the patch.
 bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::Point>& offsets, const FitState& state,
-                    SymmetryFitResult& res) {
+                    SymmetryFitResult& res, std::vector<PairRow>& rows) {
+  rows.clear();
+  rows.reserve(offsets.size());
   const double cx = state.cx, cy = state.cy;
   const double(&a)[2] = state.a;
   const double(&b)[2] = state.b;
@@ -260,6 +260,10 @@ bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::
   for (const cv::Point& d : offsets) {
     Sample p, m;
     if (!sampler.Pair(d, p, m)) return false;
+    const double s_fit = 0.5 * (p.value + m.value);
+    rows.push_back(
+        {(p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s_fit - (b[0] * d.x + b[1] * d.y),
+         {p.gx - m.gx, p.gy - m.gy, -d.x * s_fit, -d.y * s_fit, -static_cast<double>(d.x), -static_cast<double>(d.y)}});
     p.value = raw.ValueAt(cx + d.x, cy + d.y);
     m.value = raw.ValueAt(cx - d.x, cy - d.y);
     const double s = 0.5 * (p.value + m.value);
@@ -327,11 +331,9 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
   state.cy = start_px.y - patch.origin.y;
   const auto image_centre = [&] { return cv::Point2d(state.cx + patch.origin.x, state.cy + patch.origin.y); };
 
-  std::vector<PairRow> rows;
-  rows.reserve(offsets_.size());
   for (int it = 0; it < options_.max_iterations; ++it) {
     double step_px = 0.0;
-    const StepOutcome outcome = GaussNewtonStep(patch, offsets_, options_.fit_light_gradient, state, step_px, rows);
+    const StepOutcome outcome = GaussNewtonStep(patch, offsets_, options_.fit_light_gradient, state, step_px);
     if (outcome == StepOutcome::kOutside) {
       res.inside = false;
       res.centre_px = image_centre();
@@ -350,11 +352,11 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     }
   }
   res.centre_px = image_centre();
-  if (!MeasureQuality(patch, raw, offsets_, state, res)) {
+  std::vector<PairRow> rows;
+  if (!MeasureQuality(patch, raw, offsets_, state, res, rows)) {
     res.inside = false;
     res.converged = false;
   }
-  // The last step's rows were taken less than tolerance_px from the final centre.
   if (res.converged) res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
   return res;
 }

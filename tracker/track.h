@@ -84,7 +84,7 @@ struct TrackOptions {
   double misfit_ratio = 3.0;           // misfit limit: at least this x the clip's median; [1, 1000]
   double misfit_mads = 8.0;            // ... and the median + this x the scaled MAD; [1, 1000]
   double min_robust_shift_px = 0.025;  // robust-shift limit: at least this [px]; [0.001, 10]
-  double shift_mads = 12.0;            // ... and the median + this x the scaled MAD; [1, 1000]
+  double shift_mads = 25.0;            // ... and the median + this x the scaled MAD; [1, 1000]
   double washed_out_ratio = 0.5;       // contrast below this x the clip's median: washed out; [0, 1)
   int judge_min_frames = 10;           // fewer frames found: none is judged; [3, 1e6]
 };

@@ -96,12 +96,12 @@ TEST(JointFit, TheTrueLawRanksFirstOrWithinTwoBicOfALawThatNestsIt) {
   for (LawId truth : {LawId::kKelvinVoigt, LawId::kHuntCrossley}) {
     SCOPED_TRACE(ToString(truth));
     const SpecimenFit specimen = FitSpecimen(Specimen(truth, 41), LawFitOptions{}, no_holdout);
-    ASSERT_TRUE(specimen.best);
-    const LawId best = specimen.laws[*specimen.best].fit.law;
+    ASSERT_TRUE(specimen.choice.best);
+    const LawId best = specimen.laws[*specimen.choice.best].fit.law;
     double truth_bic = 0.0;
     for (const auto& j : specimen.laws)
       if (j.fit.law == truth) truth_bic = j.fit.bic;
-    const double best_bic = specimen.laws[*specimen.best].fit.bic;
+    const double best_bic = specimen.laws[*specimen.choice.best].fit.bic;
     EXPECT_TRUE(best == truth || (LawNests(best, truth) && truth_bic - best_bic < 2.0))
         << "best " << ToString(best) << " BIC " << best_bic << ", truth BIC " << truth_bic;
   }

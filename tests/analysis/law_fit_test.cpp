@@ -385,52 +385,5 @@ TEST(LawFit, AnExponentOnItsBoundIsNamedAndTheFitKeepsItsPlaceInTheRanking) {
   EXPECT_TRUE(std::isfinite(fit.bic));
 }
 
-// RankLaws on hand-made results (the rule of docs/methods.md §13): BIC orders every fit that
-// could start, converged or not; a law with an undetermined parameter (relative SD above
-// 50 %) drops below a determined law whose residual is not larger, and only then.
-LawFitResult Ranked(LawId law, double bic, double rms_m, bool converged, double worst_rel_sd) {
-  LawFitResult f;
-  f.law = law;
-  f.param_names = ParameterNames(law);
-  f.params.assign(f.param_names.size(), 2.0);
-  f.param_sd.assign(f.param_names.size(), 0.02);
-  f.param_sd.back() = worst_rel_sd * 2.0;
-  if (law == LawId::kHertz) f.params[1] = 1.5, f.param_sd[1] = 0.0;
-  f.bic = bic;
-  f.rms_residual_m = rms_m;
-  f.converged = converged;
-  return f;
-}
-
-TEST(RankLaws, AFitAtTheIterationCapKeepsItsPlaceByBic) {
-  std::vector<LawFitResult> fits{Ranked(LawId::kKelvinVoigt, -100, 50e-6, true, 0.01),
-                                 Ranked(LawId::kHuntCrossley, -3500, 9e-6, /*converged=*/false, 0.01),
-                                 Ranked(LawId::kBilinear, -200, 45e-6, true, 0.01)};
-  fits.push_back(Ranked(LawId::kVolumetric, 0, 0, true, 0.01));
-  fits.back().failure = "no complete bounce";
-  EXPECT_EQ(RankLaws(fits), (std::vector<int>{1, 2, 0, 3}));
-  EXPECT_EQ(BestOfRanking(fits), 1);
-}
-
-TEST(RankLaws, AnUndeterminedParameterNeverRanksAboveADeterminedLawWithNoLargerResidual) {
-  // The case: bilinear with an undetermined k2 (SD 90 %) has the lowest BIC but the
-  // larger residual than hunt-crossley -> hunt-crossley first; kelvin-voigt, determined but
-  // with a larger residual than bilinear, stays below it.
-  const std::vector<LawFitResult> fits{Ranked(LawId::kKelvinVoigt, -900, 60e-6, true, 0.01),
-                                       Ranked(LawId::kHuntCrossley, -950, 9.3e-6, true, 0.01),
-                                       Ranked(LawId::kBilinear, -1000, 50.7e-6, true, 0.9)};
-  EXPECT_TRUE(HasUndeterminedParameter(fits[2]));
-  EXPECT_FALSE(HasUndeterminedParameter(fits[1]));
-  EXPECT_EQ(RankLaws(fits), (std::vector<int>{1, 2, 0}));
-  // An infinite SD counts as undetermined too; with no determined law of residual <= its own,
-  // the undetermined law keeps its BIC place.
-  std::vector<LawFitResult> alone{Ranked(LawId::kBilinear, -1000, 5e-6, true, 0.01),
-                                  Ranked(LawId::kKelvinVoigt, -900, 6e-6, true, 0.01)};
-  alone[0].param_sd[1] = std::numeric_limits<double>::infinity();
-  EXPECT_EQ(RankLaws(alone), (std::vector<int>{0, 1}));
-  // Hertz's fixed exponent (SD 0) is not a parameter the data must determine.
-  EXPECT_FALSE(HasUndeterminedParameter(Ranked(LawId::kHertz, 0, 1e-5, true, 0.01)));
-}
-
 }  // namespace
 }  // namespace dropfit::analysis

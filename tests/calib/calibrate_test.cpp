@@ -37,6 +37,11 @@ constexpr double kPlaneDistanceTolM = 0.05e-3;
 constexpr double kHeldOutSingleDistanceTolM = 0.1e-3;
 // Absolute positions in the plane also carry the origin's corner noise (~0.02 px at ~0.65 mm/px).
 constexpr double kPlanePositionTolM = 0.05e-3;
+// Overall RMS reprojection error of a good calibration of these boards (1 grey level of noise):
+// with the corner refiner of calib/corner_refine.h it measures ~0.003 px here (cornerSubPix alone
+// gave ~0.03 px); rendered boards give ~0.01 px (docs/methods.md §16a). 0.02 px leaves room for
+// noise and still fails a refiner no better than cornerSubPix.
+constexpr double kGoodRmsPx = 0.02;
 
 struct Pose {
   cv::Vec3d rvec, tvec;
@@ -132,7 +137,7 @@ TEST(Calibrate, RecoversTheFocalLengthWithinHalfAPercent) {
               kFocalTolFraction * TheScene().cam.camera_matrix(0, 0));
   EXPECT_NEAR(rig.lens->camera_matrix(1, 1), TheScene().cam.camera_matrix(1, 1),
               kFocalTolFraction * TheScene().cam.camera_matrix(1, 1));
-  EXPECT_LT(rig.quality.rms_reprojection_px, 0.1);
+  EXPECT_LT(rig.quality.rms_reprojection_px, kGoodRmsPx);
   EXPECT_EQ(rig.quality.view_names.size(), TheScene().views.size() + 1);
   EXPECT_TRUE(out.warnings.empty());
 }
@@ -288,7 +293,7 @@ TEST(Calibrate, AViewFarWorseThanTheRestIsDroppedAndNamed) {
   ASSERT_EQ(out.rig->quality.dropped_views.size(), 1u);
   EXPECT_EQ(out.rig->quality.dropped_views[0].rfind("view_3.png: RMS ", 0), 0u) << out.rig->quality.dropped_views[0];
   EXPECT_EQ(out.rig->quality.view_names.size(), 7u);  // plane view + 6 remaining
-  EXPECT_LT(out.rig->quality.rms_reprojection_px, 0.1);
+  EXPECT_LT(out.rig->quality.rms_reprojection_px, kGoodRmsPx);
 }
 
 TEST(Calibrate, AHighOverallReprojectionErrorIsRefusedUnlessForced) {

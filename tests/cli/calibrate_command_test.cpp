@@ -122,6 +122,14 @@ TEST(CalibrateCommand, AFolderAndAPlaneViewGiveARigFileThatMapsTruthPoints) {
     EXPECT_NEAR(p.y, 0.1 + 0.125 - b.y, kPositionTolM);
   }
   EXPECT_NE(r.out.find("square size measured back: mean error "), std::string::npos) << r.out;
+  // The uncertainty: printed, and in the rig with the default corner height sd (0.5 mm), which
+  // the floor's sd includes.
+  EXPECT_NE(r.out.find("uncertainty (1 sd; corner noise "), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("floor "), std::string::npos) << r.out;
+  ASSERT_TRUE(rig.uncertainty);
+  EXPECT_EQ(rig.uncertainty->corner_height_sd_m, 0.0005);
+  ASSERT_TRUE(rig.uncertainty->floor_sd_m);
+  EXPECT_GE(*rig.uncertainty->floor_sd_m, 0.0005);
 }
 
 TEST(CalibrateCommand, ARefusedCalibrationExitsWithStatusTwoAndWritesNothing) {
@@ -166,6 +174,10 @@ TEST(CalibrateCommand, BadOptionsAreRefusedWithTheValidValues) {
   o = BaseOptions("bad.json");
   o.corner_height_m = -0.1;
   EXPECT_EQ(RunIt(o).status, kExitBadUsage);
+  o = BaseOptions("bad.json");
+  o.corner_height_sd_m = -0.001;
+  EXPECT_EQ(RunIt(o).err,
+            "dropfit calibrate: corner_height_sd_m = -0.001 is out of range (0..1 m); nothing was written\n");
   EXPECT_FALSE(fs::exists(o.out_path));
 }
 

@@ -9,6 +9,7 @@
 #include <fstream>
 #include <string>
 
+#include "calib/rig_uncertainty.h"
 #include "tests/support/temp_dir.h"
 
 namespace dropfit::cli {
@@ -88,6 +89,42 @@ TEST(RigIo, AWrittenRigReadsBackWithTheSameMappingAndFields) {
   // The mapping itself: same plane point for the same pixel.
   const cv::Point2d a = calib::PlaneFromImage(rig, {100, 700}), b = calib::PlaneFromImage(back, {100, 700});
   EXPECT_EQ(a, b);
+}
+
+TEST(RigIo, TheUncertaintyRoundTripsAndARigWithoutOneStillReads) {
+  calib::Rig rig = MakeRig();
+  const calib::Rig older = ParseRigJson(RigToJson(rig), "rig.json");  // MakeRig's rig has no uncertainty
+  EXPECT_FALSE(older.uncertainty);
+  calib::RigUncertainty u;
+  u.plane_corner_sd_px = 0.05;
+  u.lens_corner_sd_px = 0.04;
+  u.corner_height_sd_m = 5e-4;
+  u.height_sd_at_corner_row_m = 1e-5;
+  u.height_sd_100mm_m = 2e-5;
+  u.height_sd_300mm_m = 3e-5;
+  u.floor_sd_m = 5.1e-4;
+  u.scale_rel_sd_centre = 1e-4;
+  u.parameters = calib::MappingParameterNames(rig);
+  const size_t n = u.parameters.size();
+  ASSERT_EQ(n, 17u);  // 8 of the homography, fx fy cx cy, 5 distortion terms
+  u.covariance.assign(n * n, 0.0);
+  for (size_t i = 0; i < n; ++i) u.covariance[i * n + i] = 1e-12 * static_cast<double>(i + 1);
+  u.covariance[1] = u.covariance[n] = 3e-13;
+  rig.uncertainty = u;
+  const calib::Rig back = ParseRigJson(RigToJson(rig), "rig.json");
+  ASSERT_TRUE(back.uncertainty);
+  EXPECT_EQ(back.uncertainty->parameters, u.parameters);
+  EXPECT_EQ(back.uncertainty->covariance, u.covariance);
+  EXPECT_EQ(back.uncertainty->floor_sd_m, u.floor_sd_m);
+  EXPECT_EQ(back.uncertainty->height_sd_100mm_m, u.height_sd_100mm_m);
+  EXPECT_EQ(back.uncertainty->scale_rel_sd_centre, u.scale_rel_sd_centre);
+  EXPECT_EQ(calib::HeightSdAt(back, {0.1, 0.2}), calib::HeightSdAt(rig, {0.1, 0.2}));
+  // A covariance of the wrong shape is refused, naming the field.
+  std::string text = RigToJson(rig);
+  const size_t at = text.find("\"covariance\": [");
+  ASSERT_NE(at, std::string::npos);
+  text.insert(at + std::string("\"covariance\": [").size(), "[1],");
+  EXPECT_NE(ErrorOf(text).find("uncertainty.covariance"), std::string::npos) << ErrorOf(text);
 }
 
 TEST(RigIo, ARigWithoutLensOrFloorRoundTrips) {

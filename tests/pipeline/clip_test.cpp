@@ -66,10 +66,10 @@ TEST(PipelineClip, WithoutAFloorTheBestLawsOnsetHeightIsUsedAndTheTrackIsSegment
   options.fit_laws = true;
   const ClipMeasurement m = MeasureClip(Request(0.55), RigWithFloor(false), drop.series, kFps, options);
   ASSERT_FALSE(m.kinematics.failure) << *m.kinematics.failure;
-  ASSERT_TRUE(m.laws && m.laws->best);
+  ASSERT_TRUE(m.laws && m.laws->choice.best);
   EXPECT_EQ(m.kinematics.segmentation_passes, 1);  // read again at the fitted height, not re-segmented
   EXPECT_TRUE(m.onset_refitted);
-  const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->best)];
+  const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->choice.best)];
   EXPECT_EQ(m.kinematics.segmentation.onset_height_source, analysis::OnsetHeightSource::kFit);
   EXPECT_EQ(m.kinematics.segmentation.onset_height_m, best.onset_height_m);
   ASSERT_FALSE(m.kinematics.impacts.empty());
@@ -133,10 +133,10 @@ TEST(PipelineJointStage, TheSpecimenIsFittedFromTheMeasurementsWithoutSegmenting
   EXPECT_EQ(r.geometry_onset_height_m, kOnsetM);
   EXPECT_EQ(r.law_cor.size(), r.fit->laws.size());
   EXPECT_FALSE(r.measured_cor.cor.empty());
-  ASSERT_TRUE(r.fit->best);
+  ASSERT_TRUE(r.fit->choice.best);
   // The best law's onset height, fitted over both heights, within 0.2 mm of the truth (the
   // contact-law issue's tolerance).
-  EXPECT_NEAR(r.fit->laws[static_cast<size_t>(*r.fit->best)].fit.onset_height_m, kOnsetM, 2e-4);
+  EXPECT_NEAR(r.fit->laws[static_cast<size_t>(*r.fit->choice.best)].fit.onset_height_m, kOnsetM, 2e-4);
 }
 
 TEST(PipelineClip, TheSeriesOfATrackHoldsTheRigsMetresWhereTheMarkerWasFound) {

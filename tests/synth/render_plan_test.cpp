@@ -195,5 +195,24 @@ TEST(RenderPlan, SameSeedTwiceGivesIdenticalTruthAndFilesWhateverTheClipOrder) {
             test::ReadFileBytes(dir.path() / "a" / a.clips[0].clip));
 }
 
+TEST(RenderPlan, TheCalibrationSeedIsDerivedFromTheSeedUnlessGivenAndIsRecordedOnlyWhenGiven) {
+  // Common practice, no source: an override that leaves earlier outputs as they were.
+  RenderOptions o = SmallSet("unused");
+  EXPECT_EQ(CalibrationNoiseSeed(o), 11u ^ 0xCA11B8u);  // what the images always used
+  for (const auto& [name, value] : EffectiveOptions(o, MakePlan(o))) EXPECT_NE(name, "calibration_seed");
+  o.calibration_seed = 42;
+  EXPECT_EQ(CalibrationNoiseSeed(o), 42u);
+  const RenderOptions back = RenderOptionsFromRecord(EffectiveOptions(o, MakePlan(o)));
+  EXPECT_EQ(back.calibration_seed, std::optional<uint64_t>(42));
+  // Different seeds draw different noise on the same scene.
+  const RenderSetPlan set = PlanRenderSet(o);
+  CheckerboardSpec board{5, 4, 0.04};
+  const auto a = RenderCalibrationImages(*set.renderer, board, 1, set.plan.exposure, true, 1);
+  const auto b = RenderCalibrationImages(*set.renderer, board, 1, set.plan.exposure, true, 2);
+  const auto c = RenderCalibrationImages(*set.renderer, board, 1, set.plan.exposure, true, 1);
+  EXPECT_GT(cv::norm(a[1].image, b[1].image, cv::NORM_L1), 0.0);
+  EXPECT_EQ(cv::norm(a[1].image, c[1].image, cv::NORM_L1), 0.0);
+}
+
 }  // namespace
 }  // namespace dropfit::synth
