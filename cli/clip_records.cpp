@@ -145,6 +145,7 @@ void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
   result.tracked_frames = track.tracked_frames;
   result.warnings.insert(result.warnings.end(), track.warnings.begin(), track.warnings.end());
   result.errors.insert(result.errors.end(), track.errors.begin(), track.errors.end());
+  for (const tracker::EmptyFrame& e : track.left_empty) result.frames_left_empty.push_back({e.frame, e.reason});
   result.info.push_back({"marker_kind", track.marker_chosen ? tracker::ToString(track.kind) : "none"});
   result.info.push_back({"marker_choice", track.choice});
   result.info.push_back({"lost_frames", tracker::FormatFrameRanges(track.lost)});

@@ -54,7 +54,7 @@ std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const anal
 analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps);
 
 // Fills result.json's tracking fields from a track: frames, tracked_frames, warnings, errors,
-// and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
+// frames_left_empty, and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
 void AddTrackToResult(const tracker::Track& track, ClipResult& result);
 
 // Fills result.json's analysis fields from a track-only analysis: gravity_check, impacts

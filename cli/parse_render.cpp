@@ -186,6 +186,30 @@ void AddOutputOptions(CLI::App* sub, RenderCommandOptions* o) {
       ->group(output);
 }
 
+// A card crossing the marker (known-answer partly hidden frames).
+void AddOccluderOptions(CLI::App* sub, RenderCommandOptions* o) {
+  const char* occluder = "Occluder";
+  sub->add_option("--occluder", o->occluder,
+                  "Draw a dark card in front of the wheel on frames FIRST:LAST of each clip (e.g. 120:128), "
+                  "its straight edge sweeping across the hub marker; truth.json gives the fraction of the "
+                  "marker covered per frame")
+      ->group(occluder);
+  sub->add_option("--occluder-cover", o->occluder_cover,
+                  "FROM:TO fraction of the marker's extent covered at FIRST and at LAST, linear in between, "
+                  "each [0, 1] (0: the edge touches the marker, 1: the marker is hidden)")
+      ->capture_default_str()
+      ->group(occluder);
+  sub->add_option("--occluder-angle", o->occluder_angle_deg,
+                  "Direction the card's edge moves in the image [deg]: 0 rightwards (the card comes from the "
+                  "left), 90 downwards")
+      ->capture_default_str()
+      ->group(occluder);
+  sub->add_option("--occluder-grey", o->occluder_grey,
+                  "Card brightness [grey levels], [0, 300] (255 and above: a glint that saturates)")
+      ->capture_default_str()
+      ->group(occluder);
+}
+
 }  // namespace
 
 void AddRenderCommand(CLI::App& app, CommandAction& action) {
@@ -201,6 +225,7 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
   AddCameraOptions(sub, o.get());
   AddSensorOptions(sub, o.get());
   AddOutputOptions(sub, o.get());
+  AddOccluderOptions(sub, o.get());
 
   sub->footer(
       "Writes: the clips, manifest.csv, truth.json (per frame the drawn marker centre in pixels at\n"

@@ -84,6 +84,13 @@ struct FitRecord {
   NamedTexts notes;   // e.g. formula, geometry assumed
 };
 
+// A frame where the marker was located but not trusted (tracker::EmptyFrame), left empty in
+// track.csv.
+struct FrameLeftEmpty {
+  int frame = 0;
+  std::string reason;
+};
+
 struct ClipResult {
   std::string clip;
   double capture_fps = 0.0;
@@ -99,9 +106,10 @@ struct ClipResult {
   std::optional<std::string> no_law_fits;    // the verdict when even the best law misfits
   std::vector<std::string> warnings;
   std::vector<std::string> errors;
-  NamedValues extra;          // e.g. noise estimate, tilt
-  NamedTexts info;            // e.g. marker kind chosen and why
-  std::vector<Curve> curves;  // for the report
+  std::vector<FrameLeftEmpty> frames_left_empty;  // in frame order
+  NamedValues extra;                              // e.g. noise estimate, tilt
+  NamedTexts info;                                // e.g. marker kind chosen and why
+  std::vector<Curve> curves;                      // for the report
 };
 
 // One row of summary.csv: a (specimen, nominal height) group. `*_sd` empty for one clip.

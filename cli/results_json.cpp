@@ -185,6 +185,10 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
   j["no_law_fits"] = r.no_law_fits ? ordered_json(*r.no_law_fits) : ordered_json(nullptr);
   j["warnings"] = r.warnings;
   j["errors"] = r.errors;
+  j["frames_left_empty"] = ordered_json::array();
+  for (const FrameLeftEmpty& e : r.frames_left_empty) {
+    j["frames_left_empty"].push_back({{"frame", e.frame}, {"reason", e.reason}});
+  }
   AddExtra(j, r.extra);
   AddTexts(j, r.info);
   j["curves"] = CurvesToJson(r.curves);
@@ -228,10 +232,13 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     if (j.contains("no_law_fits") && j["no_law_fits"].is_string()) r.no_law_fits = j["no_law_fits"].get<std::string>();
     r.warnings = j.value("warnings", std::vector<std::string>{});
     r.errors = j.value("errors", std::vector<std::string>{});
+    for (const json& e : j.value("frames_left_empty", json::array())) {
+      r.frames_left_empty.push_back({e.at("frame").get<int>(), e.at("reason").get<std::string>()});
+    }
     static const char* const kTop[] = {"clip",           "capture_fps",     "capture_fps_source", "frames",
                                        "tracked_frames", "y_origin",        "gravity_check",      "impacts",
                                        "fits",           "best_law",        "warnings",           "errors",
-                                       "curves",         "equivalent_laws", "no_law_fits"};
+                                       "curves",         "equivalent_laws", "no_law_fits",        "frames_left_empty"};
     ReadExtras(j, kTop, r.extra, &r.info);
     r.curves = CurvesFromJson(j);
     return r;

@@ -114,8 +114,9 @@ json ClipJson(const ClipTruth& c) {
   j["impacts"] = impacts;
   json frame = json::array(), t = json::array(), u = json::array(), v = json::array(), x = json::array(),
        y = json::array(), spin = json::array(), vy = json::array(), force = json::array(), contact = json::array(),
-       in_view = json::array();
+       in_view = json::array(), covered = json::array();
   for (const synth::FrameTruth& f : c.frames) {
+    covered.push_back(Rounded(f.marker_covered_fraction, 1e-9));
     frame.push_back(f.frame);
     t.push_back(f.t_s);
     u.push_back(Rounded(f.u_px, 1e-9));
@@ -138,7 +139,8 @@ json ClipJson(const ClipTruth& c) {
                  {"vy_mps", vy},
                  {"contact_force_n", force},
                  {"in_contact", contact},
-                 {"marker_in_view", in_view}};
+                 {"marker_in_view", in_view},
+                 {"marker_covered_fraction", covered}};
   return j;
 }
 
@@ -171,9 +173,13 @@ ClipTruth ClipFromJson(const json& j, const std::string& file) {
   const auto force = Get<std::vector<double>>(frames, "contact_force_n", where);
   const auto contact = Get<std::vector<bool>>(frames, "in_contact", where);
   const auto in_view = Get<std::vector<bool>>(frames, "marker_in_view", where);
+  // Files written before the occluder existed have no such column: nothing was covered.
+  const auto covered = frames.contains("marker_covered_fraction")
+                           ? Get<std::vector<double>>(frames, "marker_covered_fraction", where)
+                           : std::vector<double>(frame.size(), 0.0);
   const size_t n = frame.size();
-  for (size_t len : {t.size(), u.size(), v.size(), x.size(), y.size(), spin.size(), vy.size(), force.size(),
-                     contact.size(), in_view.size()}) {
+  for (size_t len : {covered.size(), t.size(), u.size(), v.size(), x.size(), y.size(), spin.size(), vy.size(),
+                     force.size(), contact.size(), in_view.size()}) {
     if (len != n) throw std::runtime_error(where + ": the per-frame columns differ in length");
   }
   if (Get<size_t>(j, "frame_count", where) != n) {
@@ -192,6 +198,7 @@ ClipTruth ClipFromJson(const json& j, const std::string& file) {
     f.contact_force_n = force[i];
     f.in_contact = contact[i];
     f.marker_in_view = in_view[i];
+    f.marker_covered_fraction = covered[i];
     c.frames.push_back(f);
   }
   return c;

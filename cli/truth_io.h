@@ -24,7 +24,8 @@
 //                         complete, separation_speed_mps, separation_deflection_m, t_lowest_s,
 //                         t_peak_force_s, t_level_s, pressed_at_end } ],
 //             frames { frame [], t_s [], u_px [], v_px [], x_m [], y_m [], spin_rad [],
-//                      vy_mps [], contact_force_n [], in_contact [], marker_in_view [] } } ],
+//                      vy_mps [], contact_force_n [], in_contact [], marker_in_view [],
+//                      marker_covered_fraction [] (0 without an occluder card; optional on reading) } } ],
 //   options { <option>: value text }: the effective options of the run.
 // Per-frame values are columns (arrays of equal length): frame i's drawn marker centre is
 // (u_px[i], v_px[i]) at mid-exposure time t_s[i] = frame / capture_fps; positions are rounded

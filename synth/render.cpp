@@ -517,6 +517,78 @@ const std::vector<float>& StandardNormalTable() {
   return table;
 }
 
+std::optional<std::string> ValidateOccluder(const Occluder& o) {
+  std::ostringstream msg;
+  if (!o.active()) return std::nullopt;
+  if (!(o.first_frame >= 0 && o.first_frame <= 10000000 && o.last_frame >= o.first_frame && o.last_frame <= 10000000)) {
+    msg << "occluder frames " << o.first_frame << ":" << o.last_frame << " must satisfy 0 <= first <= last <= 10000000";
+    return msg.str();
+  }
+  if (!(o.cover_from >= 0 && o.cover_from <= 1 && o.cover_to >= 0 && o.cover_to <= 1)) {
+    msg << "occluder cover " << o.cover_from << ":" << o.cover_to << " must lie in [0, 1]";
+    return msg.str();
+  }
+  if (!std::isfinite(o.angle_deg)) return std::string("occluder angle must be finite");
+  if (!(o.grey >= 0 && o.grey <= 300)) {
+    msg << "occluder grey " << o.grey << " is outside [0, 300] grey levels";
+    return msg.str();
+  }
+  return std::nullopt;
+}
+
+double OccluderCover(const Occluder& o, int frame) {
+  if (!o.active() || frame < o.first_frame || frame > o.last_frame) return 0.0;
+  if (o.last_frame == o.first_frame) return o.cover_from;
+  return o.cover_from + (o.cover_to - o.cover_from) * (frame - o.first_frame) / (o.last_frame - o.first_frame);
+}
+
+void DrawOccluder(const SceneRenderer& renderer, const WheelPose& pose, const Occluder& occluder, double cover,
+                  double psf_sigma_px, cv::Mat1f& radiance) {
+  const double angle = occluder.angle_deg * std::numbers::pi / 180.0;
+  const cv::Point2d n(std::cos(angle), std::sin(angle));
+  const cv::Point2d centre = ImageFromDropPlane(renderer.camera(), {pose.x_m, pose.y_m});
+  // The marker disc's extent along n: its rim's image, finely sampled.
+  const double r = renderer.wheel().marker_diameter_m / 2;
+  double lo = 1e300, hi = -1e300;
+  for (int i = 0; i < 720; ++i) {
+    const double a = 2 * std::numbers::pi * i / 720;
+    const cv::Point2d p =
+        ImageFromDropPlane(renderer.camera(), {pose.x_m + r * std::cos(a), pose.y_m + r * std::sin(a)});
+    const double s = (p - centre).dot(n);
+    lo = std::min(lo, s);
+    hi = std::max(hi, s);
+  }
+  const double edge = lo + std::clamp(cover, 0.0, 1.0) * (hi - lo);  // along n, from the centre [px]
+  // Card fraction of a point at signed distance s = edge - (p - centre).n (positive on the card).
+  constexpr int kSub = 8;
+  const double reach = 1.0 + 5.0 * psf_sigma_px;
+  auto fraction = [&](double s) {
+    if (psf_sigma_px > 0) return 0.5 * std::erfc(-s / (psf_sigma_px * std::numbers::sqrt2));
+    return std::clamp(0.5 + s * kSub, 0.0, 1.0);  // ramp over one sub-sample (render.h, "Anti-aliasing")
+  };
+  const float grey = static_cast<float>(occluder.grey);
+  for (int v = 0; v < radiance.rows; ++v) {
+    float* row = radiance.ptr<float>(v);
+    for (int u = 0; u < radiance.cols; ++u) {
+      const double s = edge - ((u - centre.x) * n.x + (v - centre.y) * n.y);
+      double a;
+      if (s > reach) {
+        a = 1.0;
+      } else if (s < -reach) {
+        continue;
+      } else {
+        double sum = 0;
+        for (int iv = 0; iv < kSub; ++iv) {
+          const double ov = (iv + 0.5) / kSub - 0.5;
+          for (int iu = 0; iu < kSub; ++iu) sum += fraction(s - ((iu + 0.5) / kSub - 0.5) * n.x - ov * n.y);
+        }
+        a = sum / (kSub * kSub);
+      }
+      row[u] = static_cast<float>(row[u] + (grey - row[u]) * a);
+    }
+  }
+}
+
 FrameTruth TruthOfFrame(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frame,
                         double capture_fps) {
   FrameTruth truth;
@@ -551,17 +623,24 @@ std::vector<WheelPose> SubframePoses(const analysis::Trajectory& trajectory, int
 
 std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frames,
                                    double capture_fps, const ExposureSettings& exposure, bool add_noise,
-                                   uint64_t noise_seed, media::FrameSink& sink) {
+                                   uint64_t noise_seed, media::FrameSink& sink, const Occluder& occluder) {
   if (auto msg = ValidateExposure(exposure, capture_fps)) throw std::invalid_argument("exposure: " + *msg);
+  if (auto msg = ValidateOccluder(occluder)) throw std::invalid_argument(*msg);
   if (frames < 1) throw std::invalid_argument("a clip needs at least one frame (got " + std::to_string(frames) + ")");
   std::mt19937_64 rng(noise_seed);
   std::vector<FrameTruth> truth;
   truth.reserve(static_cast<size_t>(frames));
   for (int i = 0; i < frames; ++i) {
-    const cv::Mat1f radiance =
+    cv::Mat1f radiance =
         renderer.RenderRadiance(SubframePoses(trajectory, i, capture_fps, exposure), exposure.psf_sigma_px);
+    FrameTruth frame_truth = TruthOfFrame(renderer, trajectory, i, capture_fps);
+    if (i >= occluder.first_frame && i <= occluder.last_frame && occluder.active()) {
+      frame_truth.marker_covered_fraction = OccluderCover(occluder, i);
+      DrawOccluder(renderer, {frame_truth.x_m, frame_truth.y_m, frame_truth.spin_rad}, occluder,
+                   frame_truth.marker_covered_fraction, exposure.psf_sigma_px, radiance);
+    }
     sink.Write(renderer.Expose(radiance, i / capture_fps, exposure, add_noise ? &rng : nullptr));
-    truth.push_back(TruthOfFrame(renderer, trajectory, i, capture_fps));
+    truth.push_back(frame_truth);
   }
   return truth;
 }

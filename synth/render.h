@@ -168,6 +168,40 @@ void ApplyLensBlur(cv::Mat1f& radiance, double psf_sigma_px);
 // probability, is far below what a noise model needs).
 const std::vector<float>& StandardNormalTable();
 
+// A card held in front of the wheel that crosses the marker over chosen frames: a known-answer
+// case of a partly hidden marker (a guide rail, a hand, a cable passing in front of the hub).
+// The card is an opaque half-plane of uniform radiance `grey`, bounded by one straight edge. It is
+// positioned per frame relative to the marker's drawn centre at mid-exposure: on frame f in
+// [first_frame, last_frame] it covers the fraction
+//   cover(f) = cover_from + (cover_to - cover_from) (f - first_frame) / (last_frame - first_frame)
+// (cover_from when first = last) of the marker's extent along the edge's direction of travel
+// n = (cos angle, sin angle) in the image (u right, v down: angle 0 = the edge moves right, the
+// card comes from the left; 90 = it moves down, the card comes from the top). The extent is that of
+// the marker disc's image, so cover 0 leaves the card's edge touching the marker and 1 hides it
+// whole. The card is still during the exposure (no motion blur) and is seen through the same
+// lens blur as the scene: its edge profile is the pixel-integrated Gaussian edge,
+// Phi(s / psf_sigma_px) at signed distance s, supersampled 8 x 8 within reach of the edge
+// (common practice for an ideal edge, no source). It then goes through the exposure model
+// (vignetting, flicker, noise) like everything else.
+struct Occluder {
+  int first_frame = -1;     // first frame the card is drawn; -1 = no card; [-1, 1e7]
+  int last_frame = -1;      // last frame it is drawn (inclusive); [first_frame, 1e7]
+  double cover_from = 0.0;  // marker fraction covered at first_frame; [0, 1]
+  double cover_to = 1.0;    // ... at last_frame; [0, 1]
+  double angle_deg = 0.0;   // direction the edge moves in the image [deg]; finite
+  double grey = 20.0;       // card radiance [grey levels]; [0, 300]
+  bool active() const { return first_frame >= 0; }
+};
+// A message naming the first bad field and its valid range, or nothing.
+std::optional<std::string> ValidateOccluder(const Occluder& occluder);
+// The fraction of the marker covered on `frame` (0 when the card is not drawn then).
+double OccluderCover(const Occluder& occluder, int frame);
+// Draws the card into `radiance` (already lens-blurred, psf_sigma_px its blur) so that it covers
+// the fraction `cover` in [0, 1] of the marker whose hub is at `pose` (at 0 its edge touches the
+// marker).
+void DrawOccluder(const SceneRenderer& renderer, const WheelPose& pose, const Occluder& occluder, double cover,
+                  double psf_sigma_px, cv::Mat1f& radiance);
+
 // Truth of one frame: the hub at the frame's mid-exposure time.
 struct FrameTruth {
   int frame = 0;
@@ -181,6 +215,8 @@ struct FrameTruth {
   double contact_force_n = 0.0;
   bool in_contact = false;
   bool marker_in_view = true;
+  double marker_covered_fraction = 0.0;  // of the marker's extent hidden by the Occluder card
+                                         // (0 when none is drawn on this frame)
 };
 
 // The frame truth for frame `frame` of a clip at `capture_fps`.
@@ -193,9 +229,10 @@ std::vector<WheelPose> SubframePoses(const analysis::Trajectory& trajectory, int
 
 // Renders frames 0..frames-1 of a clip of `trajectory` (clip clock: frame i at i / capture_fps)
 // into `sink` and returns their truth. `noise_seed` seeds the clip's own std::mt19937_64;
-// `add_noise` false renders noise-free frames. Deterministic for a given seed.
+// `add_noise` false renders noise-free frames; `occluder` (inactive by default) draws a card
+// over the marker on its frames. Deterministic for a given seed.
 std::vector<FrameTruth> RenderClip(const SceneRenderer& renderer, const analysis::Trajectory& trajectory, int frames,
                                    double capture_fps, const ExposureSettings& exposure, bool add_noise,
-                                   uint64_t noise_seed, media::FrameSink& sink);
+                                   uint64_t noise_seed, media::FrameSink& sink, const Occluder& occluder = {});
 
 }  // namespace dropfit::synth

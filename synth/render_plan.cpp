@@ -28,6 +28,48 @@ std::optional<std::pair<int, int>> ParsePair(const std::string& text) {
   }
 }
 
+// "A:B" as two numbers; nothing when malformed.
+std::optional<std::pair<double, double>> ParseColonPair(const std::string& text) {
+  const size_t colon = text.find(':');
+  if (colon == std::string::npos) return std::nullopt;
+  try {
+    size_t used_a = 0, used_b = 0;
+    const double a = std::stod(text.substr(0, colon), &used_a);
+    const double b = std::stod(text.substr(colon + 1), &used_b);
+    if (used_a != colon || used_b != text.size() - colon - 1 || !std::isfinite(a) || !std::isfinite(b)) {
+      return std::nullopt;
+    }
+    return std::pair{a, b};
+  } catch (const std::exception&) {
+    return std::nullopt;
+  }
+}
+
+// The card of --occluder, --occluder-cover, --occluder-angle, --occluder-grey (inactive without
+// --occluder). Throws std::invalid_argument naming the malformed option.
+Occluder OccluderOf(const RenderOptions& o) {
+  Occluder card;
+  if (o.occluder.empty()) return card;
+  const auto frames = ParseColonPair(o.occluder);
+  if (!frames || frames->first != std::floor(frames->first) || frames->second != std::floor(frames->second) ||
+      frames->first < 0 || frames->second < frames->first || frames->second > 1e7) {
+    throw std::invalid_argument("--occluder '" + o.occluder +
+                                "' is not FIRST:LAST, two frame numbers with 0 <= FIRST <= LAST <= 1e7");
+  }
+  const auto cover = ParseColonPair(o.occluder_cover);
+  if (!cover || !(cover->first >= 0 && cover->first <= 1 && cover->second >= 0 && cover->second <= 1)) {
+    throw std::invalid_argument("--occluder-cover '" + o.occluder_cover +
+                                "' is not FROM:TO, two fractions of the marker in [0, 1]");
+  }
+  card.first_frame = static_cast<int>(frames->first);
+  card.last_frame = static_cast<int>(frames->second);
+  card.cover_from = cover->first;
+  card.cover_to = cover->second;
+  card.angle_deg = o.occluder_angle_deg;
+  card.grey = o.occluder_grey;
+  return card;
+}
+
 // The records' number format, short.
 std::string Fmt(double v) { return FormatRecordNumber(v); }
 
@@ -123,6 +165,7 @@ RenderPlan MakePlan(const RenderOptions& o) {
   }
   plan.format = o.format == "auto" ? (o.clean ? media::VideoFormat::kPngFrames : media::VideoFormat::kMjpgAvi)
                                    : media::VideoFormatFromString(o.format);
+  plan.occluder = OccluderOf(o);
   return plan;
 }
 
@@ -192,6 +235,12 @@ std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOp
   // Only when given, so that the files of a set rendered without it stay as they were.
   if (o.calibration_seed) add("calibration_seed", std::to_string(*o.calibration_seed));
   add("first_frames", std::to_string(o.first_frames));
+  if (plan.occluder.active()) {  // recorded only when a card is drawn
+    add("occluder", o.occluder);
+    add("occluder_cover", o.occluder_cover);
+    add("occluder_angle_deg", Fmt(o.occluder_angle_deg));
+    add("occluder_grey", Fmt(o.occluder_grey));
+  }
   return out;
 }
 
@@ -359,6 +408,10 @@ std::optional<std::string> ValidateRenderOptions(const RenderOptions& o) {
   if (auto msg = ValidateWheelLook(plan.wheel)) return "wheel: " + *msg;
   if (auto msg = ValidateExposure(plan.exposure, o.fps)) return "sensor: " + *msg;
   if (auto msg = ValidateCheckerboard(plan.board)) return "--board/--square: " + *msg;
+  if (!std::isfinite(o.occluder_angle_deg)) return "--occluder-angle must be a finite number of degrees";
+  if (!(o.occluder_grey >= 0 && o.occluder_grey <= 300))
+    return OutOfRange("occluder-grey", o.occluder_grey, "[0, 300]", "grey levels");
+  if (auto msg = ValidateOccluder(plan.occluder)) return "--occluder: " + *msg;
   if (const auto tread = analysis::Validate(plan.tread)) return "tread: " + *tread;
   return std::nullopt;
 }
@@ -443,6 +496,10 @@ std::map<std::string, RecordSetter> RecordSetters(RenderOptions& o) {
       {"lens_views", [&o](auto& n, auto& v) { o.lens_views = RecordedInteger(n, v); }},
       {"calibration_seed", [&o](auto&, auto& v) { o.calibration_seed = std::stoull(v); }},
       {"first_frames", [&o](auto& n, auto& v) { o.first_frames = RecordedInteger(n, v); }},
+      {"occluder", [&o](auto&, auto& v) { o.occluder = v; }},
+      {"occluder_cover", [&o](auto&, auto& v) { o.occluder_cover = v; }},
+      {"occluder_angle_deg", [&o](auto& n, auto& v) { o.occluder_angle_deg = RecordedNumber(n, v); }},
+      {"occluder_grey", [&o](auto& n, auto& v) { o.occluder_grey = RecordedNumber(n, v); }},
   };
 }
 

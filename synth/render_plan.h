@@ -87,6 +87,15 @@ struct RenderOptions {
   int first_frames = 0;                      // render only the first N frames of each clip (quick
                                              // checks); 0 = all. Impacts in the truth stay those of
                                              // the full clip.
+  // Occluder: a card crossing the marker (synth/render.h, Occluder), for known-answer partly
+  // hidden frames.
+  std::string occluder;                // "FIRST:LAST": frames of each clip the card is drawn on;
+                                       // "" = no card
+  std::string occluder_cover = "0:1";  // "FROM:TO": fraction of the marker covered at FIRST and
+                                       // at LAST (linear in between), each [0, 1]
+  double occluder_angle_deg = 0.0;     // direction the card's edge moves in the image [deg]:
+                                       // 0 right (card from the left), 90 down
+  double occluder_grey = 20.0;         // card radiance [grey levels]; [0, 300]
 };
 
 // A message naming the first bad option, its value and its valid range, or nothing.
@@ -114,6 +123,7 @@ struct RenderPlan {
   CheckerboardSpec board;
   media::VideoFormat format = media::VideoFormat::kMjpgAvi;  // "auto" resolved
   bool add_noise = true;                                     // false when clean
+  Occluder occluder;                                         // inactive without --occluder
 };
 
 // The checkerboard images' noise seed: calibration_seed, or by default seed ^ 0xCA11B8 (as before

@@ -81,8 +81,8 @@ ClipTruth RenderOneClip(const RenderSetPlan& set, const RenderSetPlan::Clip& cli
   truth.clip_id = clip.clip_id;
   truth.clip = clip.file;
   truth.drop_height_m = clip.drop_height_m;
-  truth.frames =
-      RenderClip(*set.renderer, trajectory, frames, options.fps, exposure, plan.add_noise, clip.plan.noise_seed, *sink);
+  truth.frames = RenderClip(*set.renderer, trajectory, frames, options.fps, exposure, plan.add_noise,
+                            clip.plan.noise_seed, *sink, plan.occluder);
   sink->Close();
   const analysis::DropScenario& s = clip.plan.scenario;
   truth.release_drop_height_m = clip.plan.release_drop_height_m;

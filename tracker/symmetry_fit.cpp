@@ -158,6 +158,12 @@ class PairSampler {
   Weights weights_;
 };
 
+// One pair's residual and Jacobian row (centre x, y; a x, y; b x, y) at the fitted centre.
+struct PairRow {
+  double r;
+  double j[6];
+};
+
 enum class StepOutcome {
   kTaken,     // `state` moved by the step
   kOutside,   // a sample fell outside the patch; `state` unchanged
@@ -204,11 +210,48 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
   return StepOutcome::kTaken;
 }
 
-// Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`;
-// `patch` only bounds the window). False, leaving `res` alone, when part of the window falls
-// outside the patch.
+// The robust shift (header, "Robust shift"): the length of one Gauss-Newton step, weighted with
+// Tukey's biweight w = (1 - (r / (c s))²)² (0 beyond c s; c = 4.685, s = 1.4826 median |r|, at
+// least kMinScaleGrey), from the fitted state whose pair rows are `rows`. -1 when the weighted
+// normal equations cannot be solved.
+double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
+  constexpr double kTukeyC = 4.685;      // 95 % efficiency for normal residuals (Holland & Welsch 1977)
+  constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
+  if (rows.empty()) return -1.0;
+  std::vector<double> abs_r(rows.size());
+  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
+  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
+  std::nth_element(abs_r.begin(), mid, abs_r.end());
+  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
+  const double inv_c2 = 1.0 / (kTukeyC * kTukeyC * scale * scale);
+  const int n_params = fit_light_gradient ? 6 : 2;
+  cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
+  cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
+  for (const PairRow& row : rows) {
+    const double u = 1.0 - row.r * row.r * inv_c2;
+    if (u <= 0) continue;
+    const double w = u * u;
+    for (int i = 0; i < n_params; ++i) {
+      jtr[i] += w * row.j[i] * row.r;
+      for (int k = 0; k <= i; ++k) jtj(i, k) += w * row.j[i] * row.j[k];
+    }
+  }
+  for (int i = 0; i < n_params; ++i)
+    for (int k = i + 1; k < n_params; ++k) jtj(i, k) = jtj(k, i);
+  for (int i = n_params; i < 6; ++i) jtj(i, i) = 1.0;
+  cv::Vec<double, 6> step;
+  if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) return -1.0;
+  return std::hypot(step[0], step[1]);
+}
+
+// Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`).
+// `rows` receives the fit's own residual and Jacobian row of every pair there (smoothed samples
+// of `patch`), for RobustShift. False, leaving `res` alone, when part of the window falls outside
+// the patch.
 bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::Point>& offsets, const FitState& state,
-                    SymmetryFitResult& res) {
+                    SymmetryFitResult& res, std::vector<PairRow>& rows) {
+  rows.clear();
+  rows.reserve(offsets.size());
   const double cx = state.cx, cy = state.cy;
   const double(&a)[2] = state.a;
   const double(&b)[2] = state.b;
@@ -217,6 +260,10 @@ bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::
   for (const cv::Point& d : offsets) {
     Sample p, m;
     if (!sampler.Pair(d, p, m)) return false;
+    const double s_fit = 0.5 * (p.value + m.value);
+    rows.push_back(
+        {(p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s_fit - (b[0] * d.x + b[1] * d.y),
+         {p.gx - m.gx, p.gy - m.gy, -d.x * s_fit, -d.y * s_fit, -static_cast<double>(d.x), -static_cast<double>(d.y)}});
     p.value = raw.ValueAt(cx + d.x, cy + d.y);
     m.value = raw.ValueAt(cx - d.x, cy - d.y);
     const double s = 0.5 * (p.value + m.value);
@@ -228,6 +275,7 @@ bool MeasureQuality(const Patch& patch, const Patch& raw, const std::vector<cv::
   const double n = 2.0 * static_cast<double>(offsets.size());
   const double sst = sum2 - sum * sum / n;
   res.residual_rms = std::sqrt(rss / static_cast<double>(offsets.size()));
+  res.window_sd = std::sqrt(std::max(sst, 0.0) / n);
   res.quality = sst > 0 ? std::clamp(1.0 - rss / sst, 0.0, 1.0) : 0.0;
   return true;
 }
@@ -304,10 +352,12 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     }
   }
   res.centre_px = image_centre();
-  if (!MeasureQuality(patch, raw, offsets_, state, res)) {
+  std::vector<PairRow> rows;
+  if (!MeasureQuality(patch, raw, offsets_, state, res, rows)) {
     res.inside = false;
     res.converged = false;
   }
+  if (res.converged) res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
   return res;
 }
 

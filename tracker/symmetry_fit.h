@@ -31,6 +31,17 @@
 // Quality: q = 1 - Σ r² / Σ((I(c+d) - m)² + (I(c-d) - m)²), m the mean sample, clamped to [0, 1].
 // It is 1 for a perfectly symmetric, noise-free window and about 0 for pure noise or an
 // anti-symmetric pattern; with contrast C and noise σ it is near 1 - σ²/var(window).
+//
+// Robust shift: how far the centre would move if pairs that disagree much more than the rest
+// were discounted: the length of one Gauss-Newton step from the fitted centre with every pair
+// weighted by Tukey's biweight of its residual, w = (1 - (r / (c s))²)² for |r| < c s, else 0,
+// c = 4.685 (Holland & Welsch 1977, "Robust regression using iteratively reweighted
+// least-squares", Commun. Stat. A6(9); the constant from memory), s = 1.4826 median |r| (at
+// least 1 grey level). The fitted (unweighted) centre sets Jᵀr = 0, so this step is the first
+// iteration of the reweighted fit: near 0 for a clean marker, and about the pull of the pixels
+// that do not fit when part of the marker is hidden (a card edge over the rim, a glint). The
+// tracker judges it against the clip's own frames (tracker/track.h); the centre reported is the
+// unweighted one.
 
 #include <opencv2/core.hpp>
 
@@ -65,9 +76,11 @@ struct SymmetryFitOptions {
 std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& options);
 
 struct SymmetryFitResult {
-  cv::Point2d centre_px;      // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
-  double quality = 0.0;       // [0, 1], see above
-  double residual_rms = 0.0;  // RMS of r(d) [grey levels]
+  cv::Point2d centre_px;          // OpenCV pixel convention (centre of the top-left pixel is (0, 0))
+  double quality = 0.0;           // [0, 1], see above
+  double residual_rms = 0.0;      // RMS of r(d) [grey levels]
+  double window_sd = 0.0;         // s.d. of the window's samples (unsmoothed) [grey levels]: its contrast
+  double robust_shift_px = -1.0;  // see "Robust shift" above; -1 when not converged
   int iterations = 0;
   bool converged = false;  // false: did not settle, moved too far, or left the image
   bool inside = true;      // false: part of the window fell outside the image

@@ -12,6 +12,7 @@
 #include <mutex>
 #include <stdexcept>
 #include <thread>
+#include <utility>
 
 #include "tracker/overlay.h"
 #include "tracker/symmetry_fit.h"
@@ -67,6 +68,15 @@ std::optional<std::string> ValidateTrackOptions(const TrackOptions& o) {
     return "presmooth_sigma_px = " + Num(o.presmooth_sigma_px) + " is outside [0, 3]";
   if (o.queue_frames < 1 || o.queue_frames > 256)
     return "queue_frames = " + std::to_string(o.queue_frames) + " is outside [1, 256]";
+  if (!in(o.misfit_ratio, 1, 1000)) return "misfit_ratio = " + Num(o.misfit_ratio) + " is outside [1, 1000]";
+  if (!in(o.misfit_mads, 1, 1000)) return "misfit_mads = " + Num(o.misfit_mads) + " is outside [1, 1000]";
+  if (!in(o.min_robust_shift_px, 0.001, 10))
+    return "min_robust_shift_px = " + Num(o.min_robust_shift_px) + " px is outside [0.001, 10]";
+  if (!in(o.shift_mads, 1, 1000)) return "shift_mads = " + Num(o.shift_mads) + " is outside [1, 1000]";
+  if (!(o.washed_out_ratio >= 0 && o.washed_out_ratio < 1))
+    return "washed_out_ratio = " + Num(o.washed_out_ratio) + " is outside [0, 1)";
+  if (o.judge_min_frames < 3 || o.judge_min_frames > 1000000)
+    return "judge_min_frames = " + std::to_string(o.judge_min_frames) + " is outside [3, 1000000]";
   if (o.seed_px && !(std::isfinite(o.seed_px->x) && std::isfinite(o.seed_px->y))) return "seed_px is not finite";
   if (o.marker == MarkerKind::kTemplate && !o.seed_px)
     return "a template marker needs a seed: give --seed U,V at the centre of the patch to follow in the first frame";
@@ -86,9 +96,82 @@ std::string FormatFrameRanges(const std::vector<FrameRange>& ranges) {
   return s;
 }
 
+namespace {
+
+// What the symmetry fit measured on a frame where it found the marker.
+struct FitFigures {
+  bool fitted = false;
+  double misfit = 0.0;     // 1 - quality
+  double window_sd = 0.0;  // [grey levels]
+  double robust_shift_px = 0.0;
+};
+
+double Median(std::vector<double> v) {
+  const size_t mid = v.size() / 2;
+  std::nth_element(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(mid), v.end());
+  const double upper = v[mid];
+  if (v.size() % 2 == 1) return upper;
+  return 0.5 * (upper + *std::max_element(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(mid)));
+}
+
+// Median and scaled median absolute deviation (1.4826 MAD: the s.d. for normal data; Rousseeuw &
+// Croux 1993, JASA 88(424), from memory).
+std::pair<double, double> MedianAndScaledMad(const std::vector<double>& v) {
+  const double med = Median(v);
+  std::vector<double> dev(v.size());
+  for (size_t i = 0; i < v.size(); ++i) dev[i] = std::abs(v[i] - med);
+  return {med, 1.4826 * Median(std::move(dev))};
+}
+
+// Leaves empty the found frames whose fit stands out from the clip's own (header, TrackOptions):
+// the robust centre and spread of the misfit and the window contrast over the frames found.
+void JudgeAgainstClip(const TrackOptions& o, const std::vector<FitFigures>& figures, std::vector<TrackSample>& samples,
+                      std::vector<EmptyFrame>& left_empty) {
+  std::vector<double> misfits, contrasts, shifts;
+  for (const TrackSample& s : samples) {
+    const size_t f = static_cast<size_t>(s.frame);
+    if (!s.found || f >= figures.size() || !figures[f].fitted) continue;
+    misfits.push_back(figures[f].misfit);
+    contrasts.push_back(figures[f].window_sd);
+    shifts.push_back(figures[f].robust_shift_px);
+  }
+  if (static_cast<int>(misfits.size()) < o.judge_min_frames) return;
+  const auto [misfit_median, misfit_mad] = MedianAndScaledMad(misfits);
+  const auto [shift_median, shift_mad] = MedianAndScaledMad(shifts);
+  const double contrast_median = Median(contrasts);
+  const double misfit_limit = std::max(o.misfit_ratio * misfit_median, misfit_median + o.misfit_mads * misfit_mad);
+  const double shift_limit = std::max(o.min_robust_shift_px, shift_median + o.shift_mads * shift_mad);
+  for (TrackSample& s : samples) {
+    const size_t f = static_cast<size_t>(s.frame);
+    if (!s.found || f >= figures.size() || !figures[f].fitted) continue;
+    const FitFigures& g = figures[f];
+    std::string reason;
+    if (g.misfit > misfit_limit) {
+      reason = "marker partly hidden or disturbed: symmetry misfit 1 - quality = " + Num(g.misfit, "%.4f") + ", " +
+               Num(g.misfit / misfit_median, "%.1f") + " x the clip's median " + Num(misfit_median, "%.4f") +
+               " (limit " + Num(misfit_limit, "%.4f") + ")";
+    } else if (g.robust_shift_px > shift_limit) {
+      reason = "marker partly hidden or disturbed: discounting the pixels that do not fit moves the centre by " +
+               Num(g.robust_shift_px, "%.3f") + " px (the clip's median " + Num(shift_median, "%.3f") + " px, limit " +
+               Num(shift_limit, "%.3f") + " px)";
+    } else if (g.window_sd < o.washed_out_ratio * contrast_median) {
+      reason = "marker washed out: contrast (window s.d.) " + Num(g.window_sd, "%.1f") + " grey levels, " +
+               Num(g.window_sd / contrast_median, "%.2f") + " of the clip's median " + Num(contrast_median, "%.1f");
+    } else {
+      continue;
+    }
+    s.found = false;
+    s.quality = 0.0;
+    left_empty.push_back({s.frame, reason});
+  }
+}
+
+}  // namespace
+
 struct MarkerTracker::Impl {
   TrackOptions o;
   std::vector<TrackSample> samples;
+  std::vector<FitFigures> figures;  // per frame, for JudgeAgainstClip
   std::vector<std::string> warnings;
 
   // The chosen marker.
@@ -246,6 +329,8 @@ struct MarkerTracker::Impl {
     cv::Point2d centre;
     double quality = 0;
     bool outside = false;
+    double window_sd = -1;  // symmetry fits only
+    double robust_shift_px = 0;
   };
 
   Located FitAt(const cv::Mat& grey, cv::Point2d start) const {
@@ -254,6 +339,8 @@ struct MarkerTracker::Impl {
     l.outside = !r.inside;
     l.centre = r.centre_px;
     l.quality = r.quality;
+    l.window_sd = r.window_sd;
+    l.robust_shift_px = r.robust_shift_px;
     l.ok = r.converged && r.inside && r.quality >= o.min_quality;
     return l;
   }
@@ -337,6 +424,7 @@ struct MarkerTracker::Impl {
                                                     : FitAt(grey, start);
           if (l.ok) {
             rep.sample = {frame, true, l.centre, l.quality};
+            Record(frame, l);
           }
           if (!l.ok) lost_since = frame;
         }
@@ -382,6 +470,7 @@ struct MarkerTracker::Impl {
     }
     if (l.ok) {
       rep.sample = {frame, true, l.centre, l.quality};
+      Record(frame, l);
       if (lost_since >= 0 && lost_since < frame) {
         warnings.push_back("marker found again at frame " + std::to_string(frame) + " at " + Point(l.centre));
       }
@@ -406,6 +495,12 @@ struct MarkerTracker::Impl {
     rep.marker_radius_px = radius_px;
     samples.push_back(rep.sample);
     return rep;
+  }
+
+  void Record(int frame, const Located& l) {
+    if (kind == MarkerKind::kTemplate || l.window_sd < 0) return;
+    if (static_cast<int>(figures.size()) <= frame) figures.resize(static_cast<size_t>(frame) + 1);
+    figures[static_cast<size_t>(frame)] = {true, 1.0 - l.quality, l.window_sd, l.robust_shift_px};
   }
 
   cv::Point2d candidate_centre{0, 0};  // centre of the candidate chosen
@@ -434,6 +529,23 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
   t.choice = im.choice;
   const std::string prefix = clip_name.empty() ? "" : clip_name + ": ";
   for (const std::string& w : im.warnings) t.warnings.push_back(prefix + w);
+  if (im.o.judge_against_clip && im.chosen && im.kind != MarkerKind::kTemplate) {
+    JudgeAgainstClip(im.o, im.figures, t.samples, t.left_empty);
+  }
+  if (!t.left_empty.empty()) {
+    std::vector<FrameRange> ranges;
+    for (const EmptyFrame& e : t.left_empty) {
+      if (!ranges.empty() && ranges.back().last == e.frame - 1) {
+        ranges.back().last = e.frame;
+      } else {
+        ranges.push_back({e.frame, e.frame});
+      }
+    }
+    t.warnings.push_back(prefix + "marker located but not trusted on " + std::to_string(t.left_empty.size()) +
+                         " frames: " + FormatFrameRanges(ranges) +
+                         " (partly hidden, cut or washed out compared with the clip's other frames); left empty, "
+                         "each with its reason");
+  }
   for (const TrackSample& s : t.samples) {
     if (s.found) {
       ++t.tracked_frames;

@@ -27,6 +27,22 @@
 //    the frames between (a marker hidden for a few frames is found again on the first frame it
 //    shows). Positions are never invented: a frame without the
 //    marker has found = false, and the lost frames are reported as ranges.
+// 4. Judging each frame against the clip's own (quadrant discs and dots, when judge_against_clip
+//    and at least judge_min_frames frames were found; docs/methods.md §15). A marker partly
+//    hidden (a guide rail, a hand, a cable, a card), cut or washed out still gives a fit, with a
+//    confident-looking quality and a centre pulled by up to a pixel. Over the frames found, the
+//    clip's median and scaled MAD (1.4826 x the median absolute deviation) are taken of three
+//    figures of the fit (tracker/symmetry_fit.h): the misfit m = 1 - quality, the robust shift
+//    (how far the centre moves when the pixels that do not fit are discounted) and the window's
+//    contrast (s.d.). A frame is left empty (found = false, quality 0, and an EmptyFrame entry
+//    with the reason in Track::left_empty) when
+//      m     > max(misfit_ratio x median, median + misfit_mads x MAD),          or
+//      shift > max(min_robust_shift_px, median + shift_mads x MAD),              or
+//      contrast < washed_out_ratio x median.
+//    Judged on the clip's own spread rather than fixed thresholds, so noise, JPEG or H.264,
+//    motion blur at impact, vignetting and flicker, which move every frame's figures alike, do
+//    not count against a frame; the judgement is made once the clip is read (Finish), so the
+//    per-frame reports of Process (and the overlay) still show such frames as found.
 //
 // Positions are in OpenCV's pixel convention (the centre of the top-left pixel is (0, 0)). Under
 // motion blur they are the mid-exposure positions (symmetric blur, see symmetry_fit.h).
@@ -63,6 +79,14 @@ struct TrackOptions {
   int history_span_frames = 8;            // ... within this many frames back; [1, 1000]
   double presmooth_sigma_px = 0.7;        // see SymmetryFitOptions; [0, 3]
   int queue_frames = 8;                   // frames decoded ahead on the reading thread; [1, 256]
+  // Frames judged against the clip's own (quadrant discs and dots; see 4. above).
+  bool judge_against_clip = true;
+  double misfit_ratio = 3.0;           // misfit limit: at least this x the clip's median; [1, 1000]
+  double misfit_mads = 8.0;            // ... and the median + this x the scaled MAD; [1, 1000]
+  double min_robust_shift_px = 0.025;  // robust-shift limit: at least this [px]; [0.001, 10]
+  double shift_mads = 25.0;            // ... and the median + this x the scaled MAD; [1, 1000]
+  double washed_out_ratio = 0.5;       // contrast below this x the clip's median: washed out; [0, 1)
+  int judge_min_frames = 10;           // fewer frames found: none is judged; [3, 1e6]
 };
 // A message naming the first field out of range, or nothing.
 std::optional<std::string> ValidateTrackOptions(const TrackOptions& options);
@@ -72,6 +96,13 @@ struct TrackSample {
   bool found = false;
   cv::Point2d centre_px{0.0, 0.0};  // meaningful only when found
   double quality = 0.0;             // [0, 1]; 0 when not found
+};
+
+// A frame where the marker was located but the location is not trusted: left empty in the track
+// (found = false, quality 0), with the reason.
+struct EmptyFrame {
+  int frame = 0;
+  std::string reason;  // one sentence, e.g. "marker partly hidden or disturbed: symmetry misfit ..."
 };
 
 struct FrameRange {
@@ -97,7 +128,8 @@ struct Track {
   MarkerKind kind = MarkerKind::kAuto;  // kind followed (kAuto when none was chosen)
   double marker_radius_px = 0.0;        // disc/dot radius, or template half-size
   std::string choice;                   // what was chosen and why (one sentence)
-  std::vector<FrameRange> lost;         // frames without the marker
+  std::vector<FrameRange> lost;         // frames without the marker (left_empty included)
+  std::vector<EmptyFrame> left_empty;   // frames judged untrustworthy against the clip, in order
   std::vector<std::string> warnings;    // unreadable frames, truncation, lost ranges, marker
                                         // leaving the view, other candidates
   std::vector<std::string> errors;      // marker never found

@@ -4,6 +4,8 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
+
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -82,6 +84,8 @@ TEST_F(ResultsTest, ClipResultRoundTripsWithExtraFields) {
   r.best_law = "hunt-crossley";
   r.warnings = {"w1"};
   r.errors = {};
+  r.frames_left_empty = {{311, "marker partly hidden or disturbed: symmetry misfit 1 - quality = 0.0480"},
+                         {312, "marker washed out: contrast (window s.d.) 20.1 grey levels"}};
   r.info = {{"marker_kind", "quadrant"}};
   const auto path = dir_ / "result.json";
   WriteClipResult(path, r);
@@ -107,7 +111,12 @@ TEST_F(ResultsTest, ClipResultRoundTripsWithExtraFields) {
   EXPECT_TRUE(b.fits[0].converged);
   EXPECT_EQ(b.best_law, r.best_law);
   EXPECT_EQ(b.warnings, r.warnings);
-  EXPECT_EQ(b.info, r.info);
+  ASSERT_EQ(b.frames_left_empty.size(), 2u);
+  EXPECT_EQ(b.frames_left_empty[1].frame, 312);
+  EXPECT_EQ(b.frames_left_empty[1].reason, r.frames_left_empty[1].reason);
+  EXPECT_EQ(b.info, r.info);  // the list is not read back as an extra text
+  EXPECT_TRUE(
+      std::none_of(b.extra.begin(), b.extra.end(), [](const auto& e) { return e.first == "frames_left_empty"; }));
 }
 
 TEST_F(ResultsTest, NonFiniteNumbersAreWrittenAsNull) {

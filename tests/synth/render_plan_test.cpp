@@ -62,6 +62,38 @@ TEST(RenderPlan, ValidatorRejectsAnOptionOutsideItsRangeAndNamesTheRange) {
       std::invalid_argument);
 }
 
+TEST(RenderPlan, OccluderOptionsAreCheckedRecordedOnlyWhenACardIsDrawnAndReadBack) {
+  // Common practice, no source: a malformed option is named with the form it expects.
+  RenderOptions o = SmallSet("/unused");
+  const auto plain = EffectiveOptions(o, MakePlan(o));
+  o.occluder = "4-9";
+  EXPECT_EQ(*ValidateRenderOptions(o),
+            "--occluder '4-9' is not FIRST:LAST, two frame numbers with 0 <= FIRST <= LAST <= 1e7");
+  o.occluder = "4:9";
+  o.occluder_cover = "0:2";
+  EXPECT_EQ(*ValidateRenderOptions(o), "--occluder-cover '0:2' is not FROM:TO, two fractions of the marker in [0, 1]");
+  o.occluder_cover = "0.125:1";
+  o.occluder_grey = 400;
+  EXPECT_EQ(*ValidateRenderOptions(o), "--occluder-grey 400 grey levels is outside [0, 300]");
+  o.occluder_grey = 30;
+  o.occluder_angle_deg = 45;
+  EXPECT_FALSE(ValidateRenderOptions(o).has_value());
+  const RenderPlan plan = MakePlan(o);
+  EXPECT_EQ(plan.occluder.first_frame, 4);
+  EXPECT_EQ(plan.occluder.last_frame, 9);
+  EXPECT_EQ(plan.occluder.cover_from, 0.125);
+  EXPECT_EQ(plan.occluder.cover_to, 1.0);
+  // Without a card the record is as before; with one it names the card and reads back.
+  const auto record = EffectiveOptions(o, plan);
+  EXPECT_EQ(record.size(), plain.size() + 4);
+  const RenderOptions back = RenderOptionsFromRecord(record);
+  EXPECT_EQ(back.occluder, "4:9");
+  EXPECT_EQ(back.occluder_cover, "0.125:1");
+  EXPECT_EQ(back.occluder_angle_deg, 45);
+  EXPECT_EQ(back.occluder_grey, 30);
+  EXPECT_EQ(EffectiveOptions(back, MakePlan(back)), record);
+}
+
 TEST(RenderPlan, SmallSetHasOneClipPerHeightNamedByHeightAndRepeatWithTheAskedFrames) {
   const test::TempDir dir("render_plan_small");
   const RenderOptions o = SmallSet(dir.path() / "set");

@@ -244,6 +244,83 @@ TEST(Render, FlattenedTyreNeverCrossesTheFloor) {
   EXPECT_GT(changed_above, 1000);
 }
 
+// The card's edge is a straight line: in a row across it, the card's coverage summed over the
+// pixels (each pixel u covering [u - 1/2, u + 1/2]) is the distance from the row's start to the
+// edge, with or without the symmetric lens blur (which moves no area); common practice, no
+// source. Where the edge stands comes from the marker rim's image (ImageFromDropPlane, checked
+// against OpenCV in camera_test).
+TEST(Render, OccluderCardCoversTheAskedFractionOfTheMarker) {
+  // Sampling of the edge profile (8 x 8 per pixel): far below a hundredth of a pixel.
+  constexpr double kEdgeTolerancePx = 2e-3;
+  const PinholeCamera camera = MakeCamera(CameraSetup{});
+  WheelLook look;
+  look.marker = MarkerShape::kDot;
+  look.marker_diameter_m = 0.018;
+  const SceneRenderer renderer(camera, look, SceneLook{});
+  const WheelPose pose{0.21, 0.33, 0.4};
+  const cv::Point2d centre = ImageFromDropPlane(camera, {pose.x_m, pose.y_m});
+  double left = 1e9, right = -1e9;
+  for (int i = 0; i < 3600; ++i) {
+    const double a = 2 * 3.141592653589793 * i / 3600;
+    const cv::Point2d p = ImageFromDropPlane(camera, {pose.x_m + 0.009 * std::cos(a), pose.y_m + 0.009 * std::sin(a)});
+    left = std::min(left, p.x);
+    right = std::max(right, p.x);
+  }
+  Occluder card;
+  card.first_frame = 0;
+  card.last_frame = 0;
+  card.grey = 0.0;  // angle 0: the card comes from the left
+  const int row = static_cast<int>(std::lround(centre.y));
+  for (double psf : {0.0, 0.5}) {
+    for (double cover : {0.0, 0.375, 1.0}) {
+      cv::Mat1f radiance(renderer.image_size(), 200.0f);
+      DrawOccluder(renderer, pose, card, cover, psf, radiance);
+      double covered = 0;
+      for (int u = 0; u < radiance.cols; ++u) covered += 1.0 - radiance(row, u) / 200.0;
+      const double edge_u = left + cover * (right - left);
+      EXPECT_NEAR(covered, edge_u + 0.5, kEdgeTolerancePx) << "psf " << psf << ", cover " << cover;
+    }
+  }
+  // The cover grows linearly over the card's frames and is 0 outside them.
+  card.first_frame = 10;
+  card.last_frame = 18;
+  card.cover_from = 0.0;
+  card.cover_to = 1.0;
+  EXPECT_DOUBLE_EQ(OccluderCover(card, 9), 0.0);
+  EXPECT_DOUBLE_EQ(OccluderCover(card, 10), 0.0);
+  EXPECT_DOUBLE_EQ(OccluderCover(card, 13), 3.0 / 8);
+  EXPECT_DOUBLE_EQ(OccluderCover(card, 18), 1.0);
+  EXPECT_DOUBLE_EQ(OccluderCover(card, 19), 0.0);
+  EXPECT_DOUBLE_EQ(OccluderCover(Occluder{}, 13), 0.0);
+  card.cover_to = 1.5;
+  EXPECT_EQ(*ValidateOccluder(card), "occluder cover 0:1.5 must lie in [0, 1]");
+}
+
+TEST(Render, ClipTruthGivesTheFractionCoveredOnTheCardsFramesOnly) {
+  CameraSetup setup;
+  setup.intrinsics.image_size = {320, 640};
+  setup.intrinsics.cx_px = 160.3;
+  const PinholeCamera camera = MakeCamera(setup);
+  const SceneRenderer renderer(camera, WheelLook{}, SceneLook{});
+  Occluder card;
+  card.first_frame = 1;
+  card.last_frame = 2;
+  card.cover_from = 0.25;
+  card.cover_to = 0.75;
+  MemorySink with, without;
+  const auto truth = RenderClip(renderer, TestDrop(), 4, 2000, CleanExposure(), false, 7, with, card);
+  RenderClip(renderer, TestDrop(), 4, 2000, CleanExposure(), false, 7, without);
+  ASSERT_EQ(truth.size(), 4u);
+  EXPECT_EQ(truth[0].marker_covered_fraction, 0.0);
+  EXPECT_EQ(truth[1].marker_covered_fraction, 0.25);
+  EXPECT_EQ(truth[2].marker_covered_fraction, 0.75);
+  EXPECT_EQ(truth[3].marker_covered_fraction, 0.0);
+  // Only the card's frames differ from the clip without it.
+  EXPECT_EQ(cv::norm(with.frames[0], without.frames[0], cv::NORM_INF), 0.0);
+  EXPECT_GT(cv::norm(with.frames[1], without.frames[1], cv::NORM_INF), 0.0);
+  EXPECT_EQ(cv::norm(with.frames[3], without.frames[3], cv::NORM_INF), 0.0);
+}
+
 TEST(Render, BadLooksAreRejectedWithTheFieldAndWhatToDo) {
   WheelLook look;
   look.rim_radius_m = 0.03;
