@@ -95,6 +95,7 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.tread_width_m = row.tread_width_m;
   r.section_radius_m = row.section_radius_m;
   r.fps_manifest = row.capture_fps;
+  r.marker_offset_manifest_m = row.marker_offset_m;
   return r;
 }
 
@@ -136,6 +137,11 @@ analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, 
     }
   }
   return series;
+}
+
+void AddMarkerOffsetToResult(const pipeline::MarkerOffset& offset, ClipResult& result) {
+  result.extra.push_back({"marker_offset_m", offset.offset_m});
+  result.info.push_back({"marker_offset_source", pipeline::ToString(offset.source)});
 }
 
 void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
@@ -195,6 +201,7 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
   result.capture_fps = rate.fps;
   result.capture_fps_source = pipeline::ToString(rate.source);
   if (rate.warning) result.warnings.push_back(name + ": " + *rate.warning);
+  AddMarkerOffsetToResult(outcome.opened.marker_offset, result);
 
   const tracker::Track& track = outcome.tracked->track;
   AddTrackToResult(track, result);

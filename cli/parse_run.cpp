@@ -13,6 +13,10 @@ void AddRunCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
   sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")
       ->check(CLI::NonNegativeNumber);
+  sub->add_option("--marker-offset", opts->marker_offset_m,
+                  "Offset [m] of the hub marker's plane from the calibrated plane (the board's), toward the camera "
+                  "positive (e.g. 0.03 for a hub face 30 mm in front of the tyre's mid-plane); wins over the "
+                  "manifest's marker_offset_m; needs a rig with lens views (the plane's pose)");
   sub->footer("Example:\n  dropfit run demo_clips --rig demo_clips/rig.json -o demo_out --jobs 2");
   sub->callback([opts, &action] { action = [opts] { return RunRun(*opts); }; });
 }

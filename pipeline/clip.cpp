@@ -107,6 +107,12 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
                   "capture_fps in the manifest";
     return out;
   }
+  out.marker_offset = ResolveMarkerOffset(request.marker_offset_option_m, request.marker_offset_manifest_m);
+  if (auto offset_problem = calib::MarkerOffsetProblem(rig, out.marker_offset.offset_m)) {
+    out.setup_problem = true;
+    out.problem = name + ": " + *offset_problem;
+    return out;
+  }
   if (!rig.image_size.empty() && info.size != rig.image_size) {
     out.setup_problem = true;
     out.problem = name + ": frames are " + SizeText(info.size) + " but the rig was made for " +
@@ -117,9 +123,12 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
   return out;
 }
 
-analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps) {
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps,
+                                         double marker_offset_m) {
   if (!(fps > 0.0) || !std::isfinite(fps))
     throw std::invalid_argument("TimeSeriesFromTrack: capture rate " + std::to_string(fps) + " is not > 0");
+  if (auto problem = calib::MarkerOffsetProblem(rig, marker_offset_m))
+    throw std::invalid_argument("TimeSeriesFromTrack: " + *problem);
   const int first_frame = track.samples.empty() ? 0 : track.samples.front().frame;
   analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(track.samples.size()), fps, first_frame);
   for (size_t i = 0; i < track.samples.size(); ++i) {
@@ -129,7 +138,7 @@ analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const cali
                                   std::to_string(s.frame) + ", expected " +
                                   std::to_string(first_frame + static_cast<int>(i)));
     if (!s.found) continue;
-    const cv::Point2d p = calib::PlaneFromImage(rig, s.centre_px);
+    const cv::Point2d p = calib::MarkerPlaneFromImage(rig, s.centre_px, marker_offset_m);
     if (std::isfinite(p.x) && std::isfinite(p.y)) {
       series.x_m[i] = p.x;
       series.y_m[i] = p.y;
@@ -149,7 +158,7 @@ TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, O
   TrackedClip out;
   out.track = tracker::TrackClip(*opened.source, track_options, progress);
   opened.source.reset();  // read to the end; free the decoder
-  out.series = TimeSeriesFromTrack(out.track, rig, opened.rate->fps);
+  out.series = TimeSeriesFromTrack(out.track, rig, opened.rate->fps, opened.marker_offset.offset_m);
   return out;
 }
 

@@ -35,6 +35,7 @@
 #include "media/frame_source.h"
 #include "pipeline/capture_rate.h"
 #include "pipeline/law_curves.h"
+#include "pipeline/marker_offset.h"
 #include "tracker/marker_kind.h"
 #include "tracker/track.h"
 
@@ -52,6 +53,9 @@ struct ClipRequest {
   std::optional<double> fps_option;        // --fps (wins over everything)
   std::optional<double> fps_manifest;      // manifest capture_fps
   std::optional<double> gravity_mps2;      // local gravity; default standard gravity
+  // The hub marker's plane (pipeline/marker_offset.h): --marker-offset, manifest marker_offset_m.
+  std::optional<double> marker_offset_option_m;
+  std::optional<double> marker_offset_manifest_m;
   tracker::MarkerKind marker = tracker::MarkerKind::kAuto;
   std::optional<cv::Point2d> seed_px;  // marker position in the first frames [px]
   bool fit_laws = true;                // run the per-clip contact-law fits
@@ -66,11 +70,14 @@ analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, con
 analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
 
 // The start-up checks of a clip, the one place `track`, `analyze` and `run` make them: open the
-// clip (media::FrameSource), find its capture rate (ResolveCaptureRate) and compare its frame
-// size with the rig's. The clip is opened once; the caller passes the result on.
+// clip (media::FrameSource), find its capture rate (ResolveCaptureRate), compare its frame size
+// with the rig's, and resolve the marker's plane (ResolveMarkerOffset; an offset the rig cannot
+// map, calib::MarkerOffsetProblem, is a set-up problem). The clip is opened once; the caller
+// passes the result on.
 struct OpenedClip {
   std::unique_ptr<media::FrameSource> source;  // null when nothing can be read from the clip
   std::optional<CaptureRate> rate;             // set when the clip can be tracked
+  MarkerOffset marker_offset;                  // the plane the track's pixels are mapped onto
   // Why the clip cannot be tracked, naming the clip and saying what to do; unset when it can.
   std::optional<std::string> problem;
   // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a
@@ -83,9 +90,12 @@ struct OpenedClip {
 OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
 
 // The drop-plane time series of a track: t = frame / fps (mid-exposure), metres through the rig
-// (calib::PlaneFromImage: undistort, then the plane mapping) where the marker was found and the
-// mapping is finite; other samples invalid. Throws std::invalid_argument when fps is not > 0.
-analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
+// where the marker was found and the mapping is finite; other samples invalid. The pixels are
+// mapped onto the marker's plane `marker_offset_m` in front of the calibrated plane
+// (calib::MarkerPlaneFromImage; at offset 0 calib::PlaneFromImage: undistort, then the plane
+// mapping). Throws std::invalid_argument when fps is not > 0 or the rig cannot map the offset.
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps,
+                                         double marker_offset_m = 0.0);
 
 // frames done, frames total (0 when unknown)
 using ClipProgress = std::function<void(int, int)>;
