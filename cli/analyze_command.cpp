@@ -74,6 +74,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
   request.fps_option = options.fps;
   request.gravity_mps2 = options.gravity_mps2;
   request.marker_offset_option_m = options.marker_offset_m;
+  request.gravity_ruler = !options.no_gravity_ruler;
   request.marker = track_options.marker;
   request.seed_px = track_options.seed_px;
   // A set-up problem (no capture rate, a rig for another image size) stops the command; a clip
@@ -103,6 +104,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
     if (options.marker_offset_m) text << " marker_offset_m=" << Num(*options.marker_offset_m);
+    if (options.no_gravity_ruler) text << " gravity_ruler=off";
     text << " onset_height="
          << analysis::ToString(geometry_onset ? analysis::OnsetHeightSource::kGeometry
                                               : analysis::OnsetHeightSource::kFit);

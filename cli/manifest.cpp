@@ -132,7 +132,8 @@ enum class Column {
   kFreeRadius,
   kTreadWidth,
   kSectionRadius,
-  kMarkerOffset
+  kMarkerOffset,
+  kGravity
 };
 
 const std::vector<std::pair<std::string, Column>>& KnownColumns() {
@@ -146,6 +147,7 @@ const std::vector<std::pair<std::string, Column>>& KnownColumns() {
       {"tread_width_m", Column::kTreadWidth},
       {"section_radius_m", Column::kSectionRadius},
       {"marker_offset_m", Column::kMarkerOffset},
+      {"gravity_mps2", Column::kGravity},
   };
   return columns;
 }
@@ -335,6 +337,7 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
       {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
       {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
       {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
+      {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}},
   };
   for (const auto& [column, name, target, spec] : optional_numbers) {
     if (!header.index.count(column) || get(column).empty()) continue;

@@ -46,6 +46,8 @@ struct ManifestRow {
   // Offset of the hub marker's plane from the calibrated plane, toward the camera positive [m];
   // finite, |value| <= kMaxMarkerOffsetM; may be 0 or negative (calib/rig.h, "The marker's plane").
   std::optional<double> marker_offset_m;
+  // Local gravity [m/s^2]; positive; `--gravity` wins; default standard gravity 9.80665.
+  std::optional<double> gravity_mps2;
   std::string error;  // empty when the row is usable; else why this clip fails
   bool ok() const { return error.empty(); }
 };

@@ -41,7 +41,9 @@ std::string SettingsText(const ManifestRow& row, const RunCommandOptions& option
     << "; free_radius_m=" << OptionalText(row.free_radius_m) << "; tread_width_m=" << OptionalText(row.tread_width_m)
     << "; section_radius_m=" << OptionalText(row.section_radius_m) << "; specimen=" << row.specimen
     << "; marker_offset_m=" << OptionalText(row.marker_offset_m)
-    << "; --marker-offset=" << OptionalText(options.marker_offset_m);
+    << "; --marker-offset=" << OptionalText(options.marker_offset_m)
+    << "; gravity_mps2=" << OptionalText(row.gravity_mps2) << "; --gravity=" << OptionalText(options.gravity_mps2)
+    << "; gravity_ruler=" << (options.no_gravity_ruler ? "off" : "on");
   return s.str();
 }
 
@@ -107,6 +109,11 @@ struct RunStart {
 std::optional<std::string> StartRun(const RunCommandOptions& options, RunStart& start) {
   if (options.jobs < 0) {
     return "--jobs " + std::to_string(options.jobs) + " is negative; give 0 (all cores) or a positive count";
+  }
+  if (options.gravity_mps2 &&
+      !(std::isfinite(*options.gravity_mps2) && *options.gravity_mps2 > 0 && *options.gravity_mps2 <= 100)) {
+    return "--gravity " + FormatNumber(*options.gravity_mps2) +
+           " m/s^2 is outside (0, 100] (standard gravity is 9.80665)";
   }
   if (options.marker_offset_m &&
       !(std::isfinite(*options.marker_offset_m) && std::abs(*options.marker_offset_m) <= kMaxMarkerOffsetM)) {
@@ -252,6 +259,8 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
     slot.row = &row;
     slot.request = ClipRequestFor(row, manifest.folder);
     slot.request.marker_offset_option_m = options.marker_offset_m;
+    if (options.gravity_mps2) slot.request.gravity_mps2 = options.gravity_mps2;
+    slot.request.gravity_ruler = !options.no_gravity_ruler;
     slots.push_back(std::move(slot));
   }
 

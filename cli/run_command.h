@@ -16,6 +16,8 @@ struct RunCommandOptions {
   // positive [m]; wins over the manifest's marker_offset_m; |value| <= kMaxMarkerOffsetM
   // (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).
   std::optional<double> marker_offset_m;
+  std::optional<double> gravity_mps2;  // local gravity [m/s^2], (0, 100]; wins over the manifest's gravity_mps2
+  bool no_gravity_ruler = false;       // --no-gravity-ruler: no marker-plane estimate from the flights
 };
 
 // Returns the contract's exit status. Messages and progress go to `err` (progress rewritten in

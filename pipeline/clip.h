@@ -27,6 +27,7 @@
 #include <vector>
 
 #include "analysis/drop_conditions.h"
+#include "analysis/gravity_ruler.h"
 #include "analysis/kinematics.h"
 #include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
@@ -59,6 +60,9 @@ struct ClipRequest {
   tracker::MarkerKind marker = tracker::MarkerKind::kAuto;
   std::optional<cv::Point2d> seed_px;  // marker position in the first frames [px]
   bool fit_laws = true;                // run the per-clip contact-law fits
+  // The gravity ruler (analysis/gravity_ruler.h): estimate the marker plane's offset from the
+  // flights, and apply it when none was given and the policy allows (`--no-gravity-ruler`: off).
+  bool gravity_ruler = true;
 };
 
 // Mass, gravity and tread of a request, as one value.
@@ -121,6 +125,12 @@ struct ClipMeasurement {
   std::optional<analysis::LawComparison> laws;  // per-clip fits, when fitted
   std::vector<FitTrace> law_traces;             // one per laws->fits (empty for failed fits)
   bool onset_refitted = false;                  // figures read again at the best law's onset
+  // The plane `series` is in: the offset given, the gravity ruler's when it was applied, or 0.
+  MarkerOffset marker_offset;
+  // The gravity ruler's estimate (at the final plane's flight windows), when it ran.
+  std::optional<analysis::MarkerOffsetEstimate> gravity_offset;
+  std::optional<double> camera_distance_m;    // from the rig's plane pose
+  std::vector<std::string> gravity_warnings;  // the ruler's warnings, as sentences
   // The report's force-deflection loop from the filtered track (first complete bounce).
   std::optional<ForceDeflection> track_force;
   double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
@@ -132,10 +142,19 @@ struct ClipMeasurement {
 struct MeasureOptions {
   bool fit_laws = true;
   std::optional<std::pair<double, double>> onset_from_fit;  // (height [m], sd [m])
+  // The plane `series` was mapped onto.
+  MarkerOffset marker_offset;
+  // The track the series came from (its pixels): lets the gravity ruler map it onto other planes.
+  // Without it (a clip rebuilt from track.csv) the ruler does not run.
+  const tracker::Track* track = nullptr;
 };
 
-// Measures a clip from its series. Throws std::invalid_argument for an invalid series or
-// request; a clip that cannot be analysed comes back with kinematics.failure set.
+// Measures a clip from its series. With options.track, a rig that knows its plane's pose and
+// request.gravity_ruler, the gravity ruler runs on the kinematics' flights (analysis/gravity_ruler.h);
+// when no offset was given and the policy allows, the series is mapped again at the estimate
+// (source "gravity") and measured again, twice at most, before the law fits. Throws
+// std::invalid_argument for an invalid series or request; a clip that cannot be analysed comes
+// back with kinematics.failure set.
 ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series, double fps,
                             const MeasureOptions& options);
 

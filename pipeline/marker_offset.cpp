@@ -11,6 +11,8 @@ std::string ToString(MarkerOffsetSource source) {
       return "option";
     case MarkerOffsetSource::kManifest:
       return "manifest";
+    case MarkerOffsetSource::kGravity:
+      return "gravity";
     case MarkerOffsetSource::kNone:
       return "none";
   }
@@ -18,10 +20,11 @@ std::string ToString(MarkerOffsetSource source) {
 }
 
 MarkerOffsetSource MarkerOffsetSourceFromString(const std::string& text) {
-  for (MarkerOffsetSource s : {MarkerOffsetSource::kOption, MarkerOffsetSource::kManifest, MarkerOffsetSource::kNone}) {
+  for (MarkerOffsetSource s : {MarkerOffsetSource::kOption, MarkerOffsetSource::kManifest, MarkerOffsetSource::kGravity,
+                               MarkerOffsetSource::kNone}) {
     if (ToString(s) == text) return s;
   }
-  throw std::invalid_argument("unknown marker offset source \"" + text + "\"; valid: option, manifest, none");
+  throw std::invalid_argument("unknown marker offset source \"" + text + "\"; valid: option, manifest, gravity, none");
 }
 
 MarkerOffset ResolveMarkerOffset(std::optional<double> option_m, std::optional<double> manifest_m) {

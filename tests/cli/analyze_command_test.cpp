@@ -114,7 +114,7 @@ TEST_F(AnalyzeCommandTest, AReferenceClipGivesTheTrueFiguresWithinTheReferenceTo
   EXPECT_TRUE(has_options);
 }
 
-TEST_F(AnalyzeCommandTest, AMarkerInFrontOfTheBoardGivesTheTrueFiguresWhenItsOffsetIsGiven) {
+TEST_F(AnalyzeCommandTest, AMarkerInFrontOfTheBoardGivesTheTrueFiguresWithItsOffsetGivenOrFoundByGravity) {
   // The renderer draws the hub 30 mm in front of the drop plane the rig was made in; with
   // --marker-offset 0.03 the pixels are mapped onto the marker's plane (calib/rig.h), and the
   // figures meet the same reference tolerances as a marker in the plane.
@@ -140,6 +140,30 @@ TEST_F(AnalyzeCommandTest, AMarkerInFrontOfTheBoardGivesTheTrueFiguresWhenItsOff
   ASSERT_TRUE(result.gravity_check.flight_accel_mps2.has_value());
   EXPECT_NEAR(*result.gravity_check.flight_accel_mps2 / 9.80665, 1.0, 0.01);
 
+  // No offset given: the gravity ruler (analysis/gravity_ruler.h) finds it from the flights
+  // within the 1 mm, applies it (source "gravity") and the figures are as good.
+  AnalyzeCommandOptions estimated = Options(truth);
+  estimated.out_dir = (dir_ / "out_estimated").string();
+  ASSERT_EQ(RunAnalyze(estimated), kExitDone);
+  const ClipResult by_gravity = ReadClipResult(fs::path(estimated.out_dir) / "result.json");
+  constexpr double kRulerTolM = 1e-3;  // the acceptance for the estimated offset
+  EXPECT_EQ(InfoValue(by_gravity, "marker_offset_source"), "gravity");
+  EXPECT_NEAR(ExtraValue(by_gravity, "marker_offset_m"), offset_m, kRulerTolM);
+  EXPECT_NEAR(ExtraValue(by_gravity, "marker_offset_gravity_m"), offset_m, kRulerTolM);
+  EXPECT_GT(ExtraValue(by_gravity, "marker_offset_gravity_sd_m"), 0.0);
+  ASSERT_FALSE(by_gravity.impacts.empty());
+  EXPECT_NEAR(by_gravity.impacts[0].max_deflection_m, t.max_deflection_m, kReferenceDeflectionToleranceM);
+  EXPECT_NEAR(by_gravity.impacts[0].cor, t.cor, kReferenceCorTolerance);
+  // Switched off, the marker is taken to lie in the board's plane: lengths read D / (D - d) large.
+  estimated.no_gravity_ruler = true;
+  estimated.out_dir = (dir_ / "out_ruler_off").string();
+  ASSERT_EQ(RunAnalyze(estimated), kExitDone);
+  const ClipResult off = ReadClipResult(fs::path(estimated.out_dir) / "result.json");
+  EXPECT_EQ(InfoValue(off, "marker_offset_source"), "none");
+  EXPECT_FALSE(std::isfinite(ExtraValue(off, "marker_offset_gravity_m")));
+  ASSERT_FALSE(off.impacts.empty());
+  EXPECT_GT(std::abs(off.impacts[0].max_deflection_m - t.max_deflection_m), kReferenceDeflectionToleranceM);
+
   // A rig without the plane's pose (plane view only, no lens) cannot place the marker's plane:
   // exit status 2 with the reason, nothing written.
   calib::Rig plane_only = ReadRigFile(dir_ / "rig.json");
@@ -153,6 +177,13 @@ TEST_F(AnalyzeCommandTest, AMarkerInFrontOfTheBoardGivesTheTrueFiguresWhenItsOff
   EXPECT_EQ(RunAnalyze(options, out, err), kExitBadUsage);
   EXPECT_NE(err.str().find("needs the pose of the calibrated plane"), std::string::npos) << err.str();
   EXPECT_FALSE(fs::exists(dir_ / "out_plane_only" / "result.json"));
+  // Without an offset the same rig analyses the clip, and says the gravity ruler was skipped.
+  options.marker_offset_m.reset();
+  EXPECT_EQ(RunAnalyze(options, out, err), kExitDone);
+  const ClipResult skipped = ReadClipResult(fs::path(options.out_dir) / "result.json");
+  bool said = false;
+  for (const std::string& w : skipped.warnings) said |= w.find("gravity ruler was skipped") != std::string::npos;
+  EXPECT_TRUE(said);
 }
 
 TEST_F(AnalyzeCommandTest, AClipWithoutImpactExitsWithOneAndSaysWhatToCheck) {
