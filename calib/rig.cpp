@@ -3,6 +3,7 @@
 #include <opencv2/calib3d.hpp>
 
 #include <cmath>
+#include <limits>
 #include <sstream>
 #include <stdexcept>
 
@@ -169,6 +170,79 @@ cv::Vec2d ImageUpDirection(const Rig& rig, cv::Point2d image_px) {
   cv::Vec2d d(q.x - image_px.x, q.y - image_px.y);
   const double n = cv::norm(d);
   return n > 0 ? d / n : d;
+}
+
+namespace {
+
+// The calibrated plane in the camera frame: unit normal toward the camera and the distance D.
+struct PlaneInCamera {
+  cv::Vec3d normal_to_camera;
+  double distance_m = 0.0;
+};
+
+std::optional<PlaneInCamera> CalibratedPlane(const Rig& rig) {
+  if (!HasPlanePose(rig)) return std::nullopt;
+  cv::Matx33d r;
+  cv::Rodrigues(*rig.plane_rvec_rad, r);
+  cv::Vec3d n(r(0, 2), r(1, 2), r(2, 2));
+  const cv::Vec3d& t = *rig.plane_tvec_m;
+  // Signed distance of the camera centre (the origin) from the plane through t along n.
+  double distance = -n.dot(t);
+  if (distance < 0) {
+    n = -n;
+    distance = -distance;
+  }
+  if (!(distance > 0) || !std::isfinite(distance)) return std::nullopt;
+  return PlaneInCamera{n, distance};
+}
+
+}  // namespace
+
+bool HasPlanePose(const Rig& rig) { return rig.lens && rig.plane_rvec_rad && rig.plane_tvec_m; }
+
+std::optional<double> CameraDistanceM(const Rig& rig) {
+  const std::optional<PlaneInCamera> plane = CalibratedPlane(rig);
+  if (!plane) return std::nullopt;
+  return plane->distance_m;
+}
+
+std::optional<std::string> MarkerOffsetProblem(const Rig& rig, double marker_offset_m) {
+  std::ostringstream msg;
+  if (!std::isfinite(marker_offset_m)) {
+    msg << "marker offset " << marker_offset_m << " m is not a number";
+    return msg.str();
+  }
+  if (marker_offset_m == 0.0) return std::nullopt;
+  const std::optional<PlaneInCamera> plane = CalibratedPlane(rig);
+  if (!plane) {
+    msg << "marker offset " << marker_offset_m
+        << " m needs the pose of the calibrated plane in the camera, and this rig has none (it was made from the "
+           "plane view alone, without a lens model); calibrate with lens views, or give no marker offset";
+    return msg.str();
+  }
+  if (!(std::abs(marker_offset_m) < plane->distance_m)) {
+    msg << "marker offset " << marker_offset_m << " m is not smaller than the camera's distance " << plane->distance_m
+        << " m from the calibrated plane; give the offset in metres, toward the camera positive";
+    return msg.str();
+  }
+  return std::nullopt;
+}
+
+cv::Point2d MarkerPlaneFromImage(const Rig& rig, cv::Point2d image_px, double marker_offset_m) {
+  if (auto problem = MarkerOffsetProblem(rig, marker_offset_m)) throw std::invalid_argument(*problem);
+  if (marker_offset_m == 0.0) return PlaneFromImage(rig, image_px);
+  const PlaneInCamera plane = *CalibratedPlane(rig);
+  const cv::Matx33d& k = rig.lens->camera_matrix;
+  const cv::Point2d und = UndistortedFromImage(rig, image_px);
+  const cv::Vec3d ray = k.inv() * cv::Vec3d(und.x, und.y, 1.0);
+  const double toward = -plane.normal_to_camera.dot(ray);  // > 0 when the ray runs toward the plane
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  if (!(toward > 0)) return {nan, nan};
+  const double s = (plane.distance_m - marker_offset_m) / toward;
+  const cv::Vec3d foot = s * ray - marker_offset_m * plane.normal_to_camera;  // on Pi_0
+  if (!(foot[2] > 0)) return {nan, nan};
+  const cv::Vec3d q = k * foot;
+  return ApplyHomography(rig.plane_from_undistorted, {q[0] / q[2], q[1] / q[2]});
 }
 
 }  // namespace dropfit::calib

@@ -137,4 +137,35 @@ cv::Point2d ImageFromPlane(const Rig& rig, cv::Point2d plane_m);
 // The unit vector, in the image, of the plane's +y_m (up) direction at an image point.
 cv::Vec2d ImageUpDirection(const Rig& rig, cv::Point2d image_px);
 
+// --- The marker's plane (docs/formats.md, "Marker plane"; docs/methods.md §19) ---------------
+// A hub marker on the hub face lies in a plane parallel to the calibrated plane Pi_0 (the plane
+// view's board, stood where the tyre's mid-plane runs), in front of it or behind it. Convention
+// (stated once, here): the marker plane Pi_d is Pi_0 moved by the signed offset d along Pi_0's
+// normal, TOWARD THE CAMERA POSITIVE. Its plane frame is Pi_0's frame moved with it: the point
+// (x_m, y_m) of Pi_d lies d in front of the point (x_m, y_m) of Pi_0. The board stands upright,
+// so its normal is horizontal and y_m stays the height above the floor (or above the board's
+// lowest corner row) in Pi_d too.
+// Geometry (pinhole projection; Hartley & Zisserman 2004, "Multiple View Geometry", 2nd ed.,
+// §6.1 and §8.1, ray back-projection and ray-plane intersection; FROM MEMORY): with the camera
+// centre at the origin of the camera frame, n the unit normal of Pi_0 pointing to the camera and
+// D > 0 the camera's distance from Pi_0, a pixel's ray X = s K^-1 (u, v, 1) (undistorted pixel)
+// meets Pi_d (n . X = d - D) at s = (D - d) / (-n . K^-1 (u, v, 1)). Lengths in Pi_d therefore
+// scale by (D - d) / D against Pi_0 about the foot of the perpendicular from the camera.
+
+// True when the rig knows the pose of its calibrated plane in the camera (lens model and
+// plane_rvec_rad / plane_tvec_m), which the marker plane needs.
+bool HasPlanePose(const Rig& rig);
+// The camera centre's distance D from the calibrated plane along its normal [m]; nothing without
+// a plane pose (or when the camera lies in the plane).
+std::optional<double> CameraDistanceM(const Rig& rig);
+// Why a marker offset cannot be used with this rig (no plane pose; |d| not below D; not finite),
+// naming the offset and saying what to do; nothing when it can. Offset 0 is always usable.
+std::optional<std::string> MarkerOffsetProblem(const Rig& rig, double marker_offset_m);
+// Image pixel -> marker-plane metres (x_m, y_m) of the plane `marker_offset_m` in front of the
+// calibrated plane: undistort, back-project the ray, meet Pi_d at X, take X's foot on Pi_0
+// (X - d n), project it to an undistorted pixel and map it by plane_from_undistorted. At offset 0
+// this is PlaneFromImage, exactly (the same code). NaN coordinates when the ray does not meet
+// Pi_d in front of the camera. Throws std::invalid_argument with MarkerOffsetProblem's message.
+cv::Point2d MarkerPlaneFromImage(const Rig& rig, cv::Point2d image_px, double marker_offset_m);
+
 }  // namespace dropfit::calib

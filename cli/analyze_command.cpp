@@ -47,6 +47,9 @@ std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o
     return PositiveRangeMessage("--free-radius", *o.free_radius_m, 10.0, "m");
   if (o.gravity_mps2 && !in_range(*o.gravity_mps2, 100.0))
     return PositiveRangeMessage("--gravity", *o.gravity_mps2, 100.0, "m/s^2 (standard gravity is 9.80665)");
+  if (o.marker_offset_m && !(std::isfinite(*o.marker_offset_m) && std::abs(*o.marker_offset_m) <= kMaxMarkerOffsetM))
+    return "--marker-offset " + Num(*o.marker_offset_m) + " m is outside [-" + Num(kMaxMarkerOffsetM) + ", " +
+           Num(kMaxMarkerOffsetM) + "] m";
   if (o.out_dir.empty()) return std::string("-o DIR is required: the folder for result.json and track.csv");
   return std::nullopt;
 }
@@ -70,6 +73,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
   request.free_radius_m = options.free_radius_m;
   request.fps_option = options.fps;
   request.gravity_mps2 = options.gravity_mps2;
+  request.marker_offset_option_m = options.marker_offset_m;
+  request.gravity_ruler = !options.no_gravity_ruler;
   request.marker = track_options.marker;
   request.seed_px = track_options.seed_px;
   // A set-up problem (no capture rate, a rig for another image size) stops the command; a clip
@@ -98,6 +103,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
     text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
+    if (options.marker_offset_m) text << " marker_offset_m=" << Num(*options.marker_offset_m);
+    if (options.no_gravity_ruler) text << " gravity_ruler=off";
     text << " onset_height="
          << analysis::ToString(geometry_onset ? analysis::OnsetHeightSource::kGeometry
                                               : analysis::OnsetHeightSource::kFit);

@@ -37,9 +37,13 @@ struct AnalyzeCommandOptions {
   std::optional<double> free_radius_m;  // unloaded radius, hub to tread [m]; (0, 10]
   std::optional<double> gravity_mps2;   // local gravity [m/s^2]; (0, 100]; default standard
                                         // gravity 9.80665 (3rd CGPM, 1901)
-  std::string marker = "auto";          // auto|quadrant|dot|template (tracker/marker_kind.h)
-  std::string seed;                     // "U,V" [px] to pick one marker among several
-  std::string out_dir;                  // folder for result.json and track.csv
+  // Offset of the marker's plane from the calibrated plane, toward the camera positive [m];
+  // |value| <= kMaxMarkerOffsetM (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).
+  std::optional<double> marker_offset_m;
+  bool no_gravity_ruler = false;  // --no-gravity-ruler: no marker-plane estimate from the flights
+  std::string marker = "auto";    // auto|quadrant|dot|template (tracker/marker_kind.h)
+  std::string seed;               // "U,V" [px] to pick one marker among several
+  std::string out_dir;            // folder for result.json and track.csv
 };
 // A message naming the first bad option and its valid range, or nothing.
 std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& options);

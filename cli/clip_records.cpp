@@ -97,6 +97,8 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.tread_width_m = row.tread_width_m;
   r.section_radius_m = row.section_radius_m;
   r.fps_manifest = row.capture_fps;
+  r.marker_offset_manifest_m = row.marker_offset_m;
+  r.gravity_mps2 = row.gravity_mps2;
   return r;
 }
 
@@ -138,6 +140,23 @@ analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, 
     }
   }
   return series;
+}
+
+void AddMarkerOffsetToResult(const pipeline::MarkerOffset& offset, ClipResult& result) {
+  result.extra.push_back({"marker_offset_m", offset.offset_m});
+  result.info.push_back({"marker_offset_source", pipeline::ToString(offset.source)});
+}
+
+void AddGravityRulerToResult(const pipeline::ClipMeasurement& m, const std::string& clip, ClipResult& result) {
+  if (m.camera_distance_m) result.extra.push_back({"camera_distance_m", *m.camera_distance_m});
+  if (m.gravity_offset && !m.gravity_offset->failure) {
+    const analysis::MarkerOffsetEstimate& e = *m.gravity_offset;
+    result.extra.push_back({"marker_offset_gravity_m", e.offset_m});
+    result.extra.push_back({"marker_offset_gravity_sd_m", e.sd_m});
+    result.extra.push_back({"gravity_ruler_flights", static_cast<double>(e.flights)});
+    result.extra.push_back({"gravity_ruler_birge_ratio", e.birge_ratio});
+  }
+  for (const std::string& w : m.gravity_warnings) result.warnings.push_back(clip + ": " + w);
 }
 
 void AddTrackToResult(const tracker::Track& track, ClipResult& result) {
@@ -203,7 +222,12 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
   AddTrackToResult(track, result);
   result.extra.push_back({"time_decode_s", track.read_seconds});
   result.extra.push_back({"time_track_s", track.track_seconds});
-  out.track = TrackRowsFromTrack(track, outcome.tracked->series, rate.fps);
+  // The metres of the plane the clip was measured in (the gravity ruler's, when it was applied).
+  out.track =
+      TrackRowsFromTrack(track, outcome.measurement ? outcome.measurement->series : outcome.tracked->series, rate.fps);
+  AddMarkerOffsetToResult(outcome.measurement ? outcome.measurement->marker_offset : outcome.opened.marker_offset,
+                          result);
+  if (outcome.measurement) AddGravityRulerToResult(*outcome.measurement, name, result);
   if (outcome.stopped == pipeline::ClipOutcome::Stop::kNoFrames) {
     result.errors.push_back(name + ": no frames could be read");
     return out;
@@ -234,13 +258,29 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
                                         const ClipResult& result, const std::vector<TrackRow>& track) {
   pipeline::MeasureOptions options;
   options.fit_laws = false;
+  // The metres of track.csv are in the plane the clip was measured in.
+  const double offset = ExtraValue(result, "marker_offset_m");
+  const std::string offset_source = InfoValue(result, "marker_offset_source");
+  if (std::isfinite(offset) && !offset_source.empty())
+    options.marker_offset = {offset, pipeline::MarkerOffsetSourceFromString(offset_source)};
   const std::string source = InfoValue(result, "onset_height_source");
   if (!source.empty() && analysis::OnsetHeightSourceFromString(source) == analysis::OnsetHeightSource::kFit) {
     const double h = ExtraValue(result, "onset_height_m"), sd = ExtraValue(result, "onset_height_sd_m");
     if (std::isfinite(h) && std::isfinite(sd)) options.onset_from_fit = std::make_pair(h, sd);
   }
-  return pipeline::MeasureClip(request, rig, TimeSeriesFromTrackRows(track, result.capture_fps), result.capture_fps,
-                               options);
+  pipeline::ClipMeasurement m = pipeline::MeasureClip(request, rig, TimeSeriesFromTrackRows(track, result.capture_fps),
+                                                      result.capture_fps, options);
+  // The gravity ruler's estimate as the result saved it (the run pools it over the specimen).
+  const double est = ExtraValue(result, "marker_offset_gravity_m"),
+               sd = ExtraValue(result, "marker_offset_gravity_sd_m");
+  if (std::isfinite(est) && std::isfinite(sd)) {
+    analysis::MarkerOffsetEstimate e;
+    e.offset_m = est;
+    e.sd_m = sd;
+    e.flights = static_cast<int>(ExtraValue(result, "gravity_ruler_flights"));
+    m.gravity_offset = e;
+  }
+  return m;
 }
 
 }  // namespace dropfit::cli

@@ -53,6 +53,14 @@ std::vector<TrackRow> TrackRowsFromTrack(const tracker::Track& track, const anal
 // rows are not consecutive frames or fps is not > 0.
 analysis::TimeSeries TimeSeriesFromTrackRows(const std::vector<TrackRow>& rows, double fps);
 
+// Fills result.json's marker_offset_m (the offset the track's metres were mapped at) and
+// marker_offset_source ("option", "manifest", "none").
+void AddMarkerOffsetToResult(const pipeline::MarkerOffset& offset, ClipResult& result);
+
+// Fills result.json's gravity-ruler fields (docs/formats.md, "Gravity ruler"): camera_distance_m,
+// marker_offset_gravity_m and its sd, the flights and Birge ratio it used, and its warnings.
+void AddGravityRulerToResult(const pipeline::ClipMeasurement& m, const std::string& clip, ClipResult& result);
+
 // Fills result.json's tracking fields from a track: frames, tracked_frames, warnings, errors,
 // frames_left_empty, and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
 void AddTrackToResult(const tracker::Track& track, ClipResult& result);

@@ -37,6 +37,21 @@ SpecimenSummary SummaryOf(const pipeline::SpecimenResult& r) {
   return summary;
 }
 
+// The gravity ruler pooled over the specimen's clips (analysis::PoolMarkerOffsets): the offset
+// belongs to the wheel's hub on that rig.
+void AddPooledGravityRuler(const std::vector<const pipeline::ClipMeasurement*>& clips, SpecimenSummary& summary) {
+  std::vector<analysis::MarkerOffsetEstimate> estimates;
+  for (const pipeline::ClipMeasurement* m : clips) {
+    if (m->gravity_offset) estimates.push_back(*m->gravity_offset);
+  }
+  const analysis::MarkerOffsetEstimate pooled = analysis::PoolMarkerOffsets(estimates);
+  if (pooled.failure) return;
+  summary.extra.emplace_back("marker_offset_gravity_m", pooled.offset_m);
+  summary.extra.emplace_back("marker_offset_gravity_sd_m", pooled.sd_m);
+  summary.extra.emplace_back("marker_offset_gravity_clips", pooled.flights);
+  summary.extra.emplace_back("marker_offset_gravity_birge_ratio", pooled.birge_ratio);
+}
+
 }  // namespace
 
 std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips,
@@ -54,6 +69,7 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips,
     }
     const pipeline::SpecimenResult r = pipeline::FitSpecimenClips(order[index], mine);
     out[index] = SummaryOf(r);
+    AddPooledGravityRuler(mine, out[index]);
     if (!r.fit) return;
     char line[256];
     std::snprintf(line, sizeof(line), "joint fits for specimen '%s': %d clips, best law %s, %.1f s",

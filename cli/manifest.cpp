@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstdio>
 #include <fstream>
 #include <map>
 #include <sstream>
@@ -122,7 +123,18 @@ bool IsValidUtf8(std::string_view s) {
   return true;
 }
 
-enum class Column { kClip, kDropHeight, kMass, kFps, kSpecimen, kFreeRadius, kTreadWidth, kSectionRadius };
+enum class Column {
+  kClip,
+  kDropHeight,
+  kMass,
+  kFps,
+  kSpecimen,
+  kFreeRadius,
+  kTreadWidth,
+  kSectionRadius,
+  kMarkerOffset,
+  kGravity
+};
 
 const std::vector<std::pair<std::string, Column>>& KnownColumns() {
   static const std::vector<std::pair<std::string, Column>> columns{
@@ -134,6 +146,8 @@ const std::vector<std::pair<std::string, Column>>& KnownColumns() {
       {"free_radius_m", Column::kFreeRadius},
       {"tread_width_m", Column::kTreadWidth},
       {"section_radius_m", Column::kSectionRadius},
+      {"marker_offset_m", Column::kMarkerOffset},
+      {"gravity_mps2", Column::kGravity},
   };
   return columns;
 }
@@ -153,6 +167,23 @@ std::string ParsePositive(const std::string& text, const NumberSpec& spec, doubl
     return "'" + text + "' is not a number; give the " + spec.what + " in " + spec.unit;
   }
   if (value <= 0) return "'" + text + "' is not positive; give the " + spec.what + " in " + spec.unit;
+  return {};
+}
+
+// Parses a finite number of either sign whose magnitude is at most `max_abs`; returns an error
+// text (empty when fine).
+std::string ParseSigned(const std::string& text, const NumberSpec& spec, double max_abs, double& value) {
+  const char* begin = text.data();
+  const char* end = begin + text.size();
+  auto [ptr, ec] = std::from_chars(begin, end, value);
+  if (ec != std::errc() || ptr != end || !std::isfinite(value)) {
+    return "'" + text + "' is not a number; give the " + spec.what + " in " + spec.unit;
+  }
+  if (std::abs(value) > max_abs) {
+    char limit[32];
+    std::snprintf(limit, sizeof limit, "%g", max_abs);
+    return "'" + text + "' is outside [-" + limit + ", " + limit + "]; give the " + spec.what + " in " + spec.unit;
+  }
   return {};
 }
 
@@ -306,6 +337,7 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
       {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
       {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
       {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
+      {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}},
   };
   for (const auto& [column, name, target, spec] : optional_numbers) {
     if (!header.index.count(column) || get(column).empty()) continue;
@@ -314,6 +346,17 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
       *target = value;
     else
       Fail(row, where, name, err + " (or leave it empty)");
+  }
+  // The marker's plane: signed, toward the camera positive (calib/rig.h, "The marker's plane").
+  if (header.index.count(Column::kMarkerOffset) && !get(Column::kMarkerOffset).empty()) {
+    err = ParseSigned(
+        get(Column::kMarkerOffset),
+        {"offset of the hub marker's plane from the calibrated plane (toward the camera positive)", "metres"},
+        kMaxMarkerOffsetM, value);
+    if (err.empty())
+      row.marker_offset_m = value;
+    else
+      Fail(row, where, "marker_offset_m", err + " (or leave it empty)");
   }
 }
 

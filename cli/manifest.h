@@ -28,6 +28,10 @@ class ManifestStructureError : public std::runtime_error {
   using std::runtime_error::runtime_error;
 };
 
+// Largest |marker_offset_m| a manifest row may give [m] (a hub face is centimetres off the
+// tyre's mid-plane; a metre is a typing error).
+inline constexpr double kMaxMarkerOffsetM = 1.0;
+
 struct ManifestRow {
   int line = 0;                            // 1-based line of the row in the file
   std::string clip;                        // as written: a video file or a folder of numbered images
@@ -39,7 +43,12 @@ struct ManifestRow {
   std::optional<double> free_radius_m;     // unloaded radius, hub centre to tread
   std::optional<double> tread_width_m;     // for the volumetric law's cylinder
   std::optional<double> section_radius_m;  // for the volumetric law's torus (wins)
-  std::string error;                       // empty when the row is usable; else why this clip fails
+  // Offset of the hub marker's plane from the calibrated plane, toward the camera positive [m];
+  // finite, |value| <= kMaxMarkerOffsetM; may be 0 or negative (calib/rig.h, "The marker's plane").
+  std::optional<double> marker_offset_m;
+  // Local gravity [m/s^2]; positive; `--gravity` wins; default standard gravity 9.80665.
+  std::optional<double> gravity_mps2;
+  std::string error;  // empty when the row is usable; else why this clip fails
   bool ok() const { return error.empty(); }
 };
 

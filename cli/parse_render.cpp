@@ -210,6 +210,16 @@ void AddOccluderOptions(CLI::App* sub, RenderCommandOptions* o) {
       ->group(occluder);
 }
 
+// The marker's plane (issue 15), in its own block.
+void AddMarkerPlaneOptions(CLI::App* sub, RenderCommandOptions* o) {
+  sub->add_option("--marker-offset", o->marker_offset_m,
+                  "Draw the wheel (its hub face with the marker) in a plane this far in front of (> 0, toward "
+                  "the camera) or behind the drop plane [m], [-0.5, 0.5]; the calibration boards stay in the "
+                  "drop plane, truth.json keeps the hub's heights above the floor")
+      ->capture_default_str()
+      ->group("Specimen");
+}
+
 }  // namespace
 
 void AddRenderCommand(CLI::App& app, CommandAction& action) {
@@ -226,6 +236,7 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
   AddSensorOptions(sub, o.get());
   AddOutputOptions(sub, o.get());
   AddOccluderOptions(sub, o.get());
+  AddMarkerPlaneOptions(sub, o.get());
 
   sub->footer(
       "Writes: the clips, manifest.csv, truth.json (per frame the drawn marker centre in pixels at\n"

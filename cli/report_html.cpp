@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <map>
 #include <sstream>
 
@@ -160,6 +161,17 @@ void SpecimenSection(std::ostringstream& html, const SpecimenSummary& sp) {
   html << "<h2>Specimen: " << EscapeHtml(sp.specimen.empty() ? "(unnamed)" : sp.specimen) << "</h2>";
   html << "<p>Best law over all heights: <strong>" << EscapeHtml(sp.best_law.value_or("none")) << "</strong>"
        << LawChoiceNote(sp.equivalent_laws, sp.no_law_fits) << "</p>";
+  double pooled = std::numeric_limits<double>::quiet_NaN(), pooled_sd = pooled, clips = pooled;
+  for (const auto& [name, value] : sp.extra) {
+    if (name == "marker_offset_gravity_m") pooled = value;
+    if (name == "marker_offset_gravity_sd_m") pooled_sd = value;
+    if (name == "marker_offset_gravity_clips") clips = value;
+  }
+  if (std::isfinite(pooled)) {
+    html << "<p>Marker plane from the flights (gravity ruler, " << Num(clips, 3)
+         << " clips pooled): " << Num(pooled * 1000, 4) << " &plusmn; " << Num(pooled_sd * 1000, 2)
+         << " mm in front of the board</p>";
+  }
   std::vector<const FitRecord*> fits;
   for (const JointFitRecord& jf : sp.joint_fits) fits.push_back(&jf.fit);
   html << "<h3>Joint fits (one law, one onset height, all clips)</h3>";
@@ -216,6 +228,17 @@ void RigSection(std::ostringstream& html, const Summary& summary) {
   }
 }
 
+// "; marker plane ... (source); gravity ruler: d +- sd mm" (docs/formats.md, "Gravity ruler").
+std::string MarkerPlaneNote(const ClipResult& r) {
+  const double offset = ExtraValue(r, "marker_offset_m");
+  if (!std::isfinite(offset)) return "";
+  std::string s = "; marker plane " + Num(offset * 1000, 4) + " mm in front of the board (" +
+                  EscapeHtml(InfoValue(r, "marker_offset_source")) + ")";
+  const double est = ExtraValue(r, "marker_offset_gravity_m"), sd = ExtraValue(r, "marker_offset_gravity_sd_m");
+  if (std::isfinite(est)) s += "; gravity ruler: " + Num(est * 1000, 4) + " &plusmn; " + Num(sd * 1000, 2) + " mm";
+  return s;
+}
+
 void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
   const ClipResult& r = clip.result;
   html << "<div class=\"clip\"><h3>Clip " << EscapeHtml(r.clip) << "</h3><p class=\"small\">" << r.frames
@@ -223,7 +246,7 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
        << r.tracked_frames << " tracked; y origin: " << EscapeHtml(r.y_origin)
        << "; best law: " << EscapeHtml(r.best_law.value_or("none")) << "; flight acceleration "
        << (r.gravity_check.flight_accel_mps2 ? Num(*r.gravity_check.flight_accel_mps2, 5) : std::string("&ndash;"))
-       << " m/s&sup2; (expected " << Num(r.gravity_check.expected_mps2, 6) << ")</p>";
+       << " m/s&sup2; (expected " << Num(r.gravity_check.expected_mps2, 6) << ")" << MarkerPlaneNote(r) << "</p>";
   if (!r.impacts.empty()) {
     html << "<table><tr><th>#</th><th>contact [s]</th><th>impact speed [m/s]</th><th>rebound speed [m/s]</th>"
             "<th>COR</th><th>contact [ms]</th><th>max deflection [mm]</th><th>peak force [N]</th>"

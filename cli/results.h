@@ -148,6 +148,7 @@ struct SpecimenSummary {
   std::optional<std::string> no_law_fits;
   std::vector<JointFitRecord> joint_fits;
   std::vector<Curve> curves;  // for the report (COR against impact speed)
+  NamedValues extra;          // e.g. the gravity ruler pooled over the specimen's clips
 };
 
 struct ClipMessage {

@@ -285,6 +285,7 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
       js["joint_fits"].push_back(f);
     }
     js["curves"] = CurvesToJson(sp.curves);
+    AddExtra(js, sp.extra);
     j["specimens"].push_back(js);
   }
   auto messages = [](const std::vector<ClipMessage>& list) {
@@ -343,6 +344,10 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
         sp.joint_fits.push_back(rec);
       }
       sp.curves = CurvesFromJson(js);
+      for (const char* key : {"marker_offset_gravity_m", "marker_offset_gravity_sd_m", "marker_offset_gravity_clips",
+                              "marker_offset_gravity_birge_ratio"}) {
+        if (js.contains(key)) sp.extra.emplace_back(key, GetNumber(js, key));
+      }
       s.specimens.push_back(sp);
     }
     for (const json& m : j.value("errors", json::array())) s.errors.push_back({m.at("clip"), m.at("message")});

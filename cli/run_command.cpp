@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <ctime>
 #include <fstream>
@@ -33,12 +34,16 @@ namespace {
 std::string OptionalText(const std::optional<double>& v) { return v ? FormatNumber(*v) : "-"; }
 
 // What a clip's result depends on besides the clip file and the rig.
-std::string SettingsText(const ManifestRow& row) {
+std::string SettingsText(const ManifestRow& row, const RunCommandOptions& options) {
   std::ostringstream s;
   s << "dropfit " << kVersion << "; mass_kg=" << FormatNumber(row.mass_kg)
     << "; drop_height_m=" << FormatNumber(row.drop_height_m) << "; capture_fps=" << OptionalText(row.capture_fps)
     << "; free_radius_m=" << OptionalText(row.free_radius_m) << "; tread_width_m=" << OptionalText(row.tread_width_m)
-    << "; section_radius_m=" << OptionalText(row.section_radius_m) << "; specimen=" << row.specimen;
+    << "; section_radius_m=" << OptionalText(row.section_radius_m) << "; specimen=" << row.specimen
+    << "; marker_offset_m=" << OptionalText(row.marker_offset_m)
+    << "; --marker-offset=" << OptionalText(options.marker_offset_m)
+    << "; gravity_mps2=" << OptionalText(row.gravity_mps2) << "; --gravity=" << OptionalText(options.gravity_mps2)
+    << "; gravity_ruler=" << (options.no_gravity_ruler ? "off" : "on");
   return s.str();
 }
 
@@ -105,6 +110,16 @@ std::optional<std::string> StartRun(const RunCommandOptions& options, RunStart& 
   if (options.jobs < 0) {
     return "--jobs " + std::to_string(options.jobs) + " is negative; give 0 (all cores) or a positive count";
   }
+  if (options.gravity_mps2 &&
+      !(std::isfinite(*options.gravity_mps2) && *options.gravity_mps2 > 0 && *options.gravity_mps2 <= 100)) {
+    return "--gravity " + FormatNumber(*options.gravity_mps2) +
+           " m/s^2 is outside (0, 100] (standard gravity is 9.80665)";
+  }
+  if (options.marker_offset_m &&
+      !(std::isfinite(*options.marker_offset_m) && std::abs(*options.marker_offset_m) <= kMaxMarkerOffsetM)) {
+    return "--marker-offset " + FormatNumber(*options.marker_offset_m) + " m is outside [-" +
+           FormatNumber(kMaxMarkerOffsetM) + ", " + FormatNumber(kMaxMarkerOffsetM) + "] m";
+  }
   try {
     start.manifest = ReadManifest(options.folder);
   } catch (const ManifestStructureError& e) {
@@ -114,6 +129,10 @@ std::optional<std::string> StartRun(const RunCommandOptions& options, RunStart& 
     start.rig = ReadRigFile(options.rig_path);
   } catch (const std::exception& e) {
     return std::string(e.what()) + "; nothing was written";
+  }
+  if (options.marker_offset_m) {
+    if (auto problem = calib::MarkerOffsetProblem(start.rig, *options.marker_offset_m))
+      return "--marker-offset: " + *problem + "; nothing was written";
   }
   start.out = std::filesystem::path(options.out_dir);
   std::error_code ec;
@@ -151,12 +170,12 @@ bool ReuseEarlierResult(const std::filesystem::path& clip_out, const std::string
 }
 
 // One clip: reuse or analyse, then write its result.json and track.csv.
-void AnalyseSlot(const RunStart& start, ProgressDisplay& progress, ClipSlot& slot) {
+void AnalyseSlot(const RunCommandOptions& options, const RunStart& start, ProgressDisplay& progress, ClipSlot& slot) {
   const ManifestRow& row = *slot.row;
   const auto t0 = std::chrono::steady_clock::now();
   const std::filesystem::path clip_out = start.out / "clips" / row.clip_id;
   const std::string fingerprint =
-      media::InputFingerprint(slot.request.clip_path) + "/" + start.rig_hash + "/" + SettingsText(row);
+      media::InputFingerprint(slot.request.clip_path) + "/" + start.rig_hash + "/" + SettingsText(row, options);
   if (ReuseEarlierResult(clip_out, fingerprint, start.rig, slot)) {
     progress.ClipDone(row.clip_id + ": unchanged since the last run (clip, rig and settings): reused");
     return;
@@ -239,6 +258,9 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
     ClipSlot slot;
     slot.row = &row;
     slot.request = ClipRequestFor(row, manifest.folder);
+    slot.request.marker_offset_option_m = options.marker_offset_m;
+    if (options.gravity_mps2) slot.request.gravity_mps2 = options.gravity_mps2;
+    slot.request.gravity_ruler = !options.no_gravity_ruler;
     slots.push_back(std::move(slot));
   }
 
@@ -248,7 +270,7 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
                 std::to_string(start.jobs) + " in parallel");
   const auto clip_stage_started = std::chrono::steady_clock::now();
   const std::clock_t clip_stage_cpu_started = std::clock();  // process CPU time, all threads
-  ParallelFor(slots.size(), start.jobs, [&](size_t i) { AnalyseSlot(start, progress, slots[i]); });
+  ParallelFor(slots.size(), start.jobs, [&](size_t i) { AnalyseSlot(options, start, progress, slots[i]); });
   const double clip_stage_seconds = SecondsSince(clip_stage_started);
   const double clip_stage_cpu_seconds =
       static_cast<double>(std::clock() - clip_stage_cpu_started) / static_cast<double>(CLOCKS_PER_SEC);

@@ -105,6 +105,11 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
   if (options.fps && !Usable(options.fps)) {
     return BadUsage(err, "--fps " + Num(*options.fps) + " is not a positive number of frames per second");
   }
+  if (options.marker_offset_m &&
+      !(std::isfinite(*options.marker_offset_m) && std::abs(*options.marker_offset_m) <= kMaxMarkerOffsetM)) {
+    return BadUsage(err, "--marker-offset " + Num(*options.marker_offset_m) + " m is outside [-" +
+                             Num(kMaxMarkerOffsetM) + ", " + Num(kMaxMarkerOffsetM) + "] m");
+  }
   if (options.out_dir.empty()) return BadUsage(err, "-o DIR is required: the folder for track.csv and result.json");
   tracker::TrackOptions track_options;
   calib::Rig rig;
@@ -120,6 +125,7 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
   result.info.push_back(
       {"track_options", "marker=" + options.marker + (options.seed.empty() ? "" : " seed=" + options.seed) +
                             (options.fps ? " fps=" + Num(*options.fps) : "") +
+                            (options.marker_offset_m ? " marker_offset_m=" + Num(*options.marker_offset_m) : "") +
                             (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});
   const fs::path out_dir(options.out_dir);
 
@@ -130,6 +136,7 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
   request.clip_path = clip_path;
   request.clip_id = result.clip;
   request.fps_option = options.fps;
+  request.marker_offset_option_m = options.marker_offset_m;
   pipeline::OpenedClip opened = pipeline::OpenClip(request, rig);
   if (opened.setup_problem) return BadUsage(err, *opened.problem + "; nothing was written");
   media::FrameSource* source = opened.source.get();
@@ -146,6 +153,7 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
     result.capture_fps = rate->fps;
     result.capture_fps_source = pipeline::ToString(rate->source);
     if (rate->warning) result.warnings.push_back(options.clip + ": " + *rate->warning);
+    AddMarkerOffsetToResult(opened.marker_offset, result);
     TerminalProgress progress(err);
     tracker::OverlayOptions overlay;
     overlay.path = options.overlay_path;
@@ -162,7 +170,8 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
     }
     progress.Done();
     AddTrackToResult(track, result);
-    rows = TrackRowsFromTrack(track, pipeline::TimeSeriesFromTrack(track, rig, rate->fps), rate->fps);
+    rows = TrackRowsFromTrack(
+        track, pipeline::TimeSeriesFromTrack(track, rig, rate->fps, opened.marker_offset.offset_m), rate->fps);
     if (track.frames == 0) result.errors.push_back(options.clip + ": no frames could be read");
   }
 

@@ -1,7 +1,7 @@
 #pragma once
 // `dropfit track`: one clip -> sub-pixel hub-marker track (track.csv, result.json).
 //
-//   dropfit track CLIP --rig rig.json [--fps N] [--marker auto|quadrant|dot|template]
+//   dropfit track CLIP --rig rig.json [--fps N] [--marker-offset M] [--marker auto|quadrant|dot|template]
 //                 [--seed U,V] [--overlay FILE] -o DIR
 //
 // Writes DIR/track.csv (docs/formats.md, "track.csv": frame,t_s,u_px,v_px,x_m,y_m,quality; coordinates
@@ -30,9 +30,12 @@
 namespace dropfit::cli {
 
 struct TrackCommandOptions {
-  std::string clip;             // video file or folder of numbered images
-  std::string rig_path;         // rig.json from `dropfit calibrate`
-  std::optional<double> fps;    // true capture rate [frames/s]; overrides rig and container
+  std::string clip;           // video file or folder of numbered images
+  std::string rig_path;       // rig.json from `dropfit calibrate`
+  std::optional<double> fps;  // true capture rate [frames/s]; overrides rig and container
+  // Offset of the marker's plane from the calibrated plane, toward the camera positive [m];
+  // |value| <= kMaxMarkerOffsetM (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).
+  std::optional<double> marker_offset_m;
   std::string marker = "auto";  // auto|quadrant|dot|template
   std::string seed;             // "U,V" [px] to pick one marker among several
   std::string overlay_path;     // optional overlay video (.avi, .mp4, .mov, .mkv)

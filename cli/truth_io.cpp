@@ -233,11 +233,9 @@ std::string TruthToJson(const RenderTruth& truth) {
                  {"tvec_m", Vec3(truth.camera.tvec_m)},
                  {"centre_in_world_m", Vec3(synth::CameraCentreInWorld(truth.camera))},
                  {"metres_per_px_centre", synth::MetresPerPixelAtCentre(truth.camera)}};
-  j["wheel"] = {{"free_radius_m", truth.wheel.free_radius_m},
-                {"rim_radius_m", truth.wheel.rim_radius_m},
-                {"marker", synth::ToString(truth.wheel.marker)},
-                {"marker_diameter_m", truth.wheel.marker_diameter_m},
-                {"cap_radius_m", synth::CapRadius(truth.wheel)}};
+  j["wheel"] = {{"free_radius_m", truth.wheel.free_radius_m},    {"rim_radius_m", truth.wheel.rim_radius_m},
+                {"marker", synth::ToString(truth.wheel.marker)}, {"marker_diameter_m", truth.wheel.marker_diameter_m},
+                {"cap_radius_m", synth::CapRadius(truth.wheel)}, {"marker_offset_m", truth.wheel.marker_offset_m}};
   const synth::ExposureSettings& e = truth.exposure;
   j["exposure"] = {{"exposure_s", e.exposure_s},
                    {"subframes", e.subframes},
@@ -331,6 +329,8 @@ RenderTruth ParseTruthJson(const std::string& text, const std::string& file) {
     throw std::runtime_error(ww + ": " + e.what());
   }
   t.wheel.marker_diameter_m = GetNumber(wheel, "marker_diameter_m", ww);
+  // Absent in sets rendered before the option existed: the wheel in the drop plane.
+  if (wheel.contains("marker_offset_m")) t.wheel.marker_offset_m = GetNumber(wheel, "marker_offset_m", ww);
   const json& ex = Field(j, "exposure", file);
   const std::string ew = file + ": exposure";
   t.exposure.exposure_s = GetNumber(ex, "exposure_s", ew);

@@ -2,6 +2,7 @@
 
 #include <chrono>
 #include <cmath>
+#include <cstdio>
 #include <stdexcept>
 
 #include "calib/rig.h"
@@ -48,6 +49,75 @@ void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurem
     }
   }
   m.fit_seconds = Seconds(fit_start);
+}
+
+std::string Mm(double metres) {
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.1f mm", metres * 1000);
+  return buf;
+}
+
+std::vector<analysis::FlightWindow> FlightWindowsOf(const analysis::Segmentation& segmentation) {
+  std::vector<analysis::FlightWindow> windows;
+  for (const analysis::FlightPhase& f : segmentation.flights)
+    windows.push_back({f.first_index, f.last_index, f.cut_by_clip_start});
+  return windows;
+}
+
+// The gravity ruler on a measured clip (docs/formats.md, "Gravity ruler"): estimate the marker
+// plane's offset; with none given, apply it when the policy allows (mapping the track again and
+// measuring it again, twice at most); with one given, warn where they disagree beyond 3 sd.
+void ApplyGravityRuler(const calib::Rig& rig, double fps, const tracker::Track& track,
+                       const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
+  if (!m.camera_distance_m) {
+    m.gravity_warnings.push_back(
+        "the gravity ruler was skipped: the rig knows no pose of its calibrated plane (plane view only, no lens "
+        "model), so the marker's plane cannot be estimated; calibrate with lens views");
+    return;
+  }
+  analysis::GravityRulerOptions ruler;
+  ruler.gravity_mps2 = m.conditions.gravity_mps2;
+  const analysis::SeriesAtOffset series_at = [&](double offset_m) {
+    return TimeSeriesFromTrack(track, rig, fps, offset_m);
+  };
+  const double distance = *m.camera_distance_m;
+  analysis::MarkerOffsetEstimate estimate = analysis::EstimateMarkerOffset(
+      series_at, m.marker_offset.offset_m, FlightWindowsOf(m.kinematics.segmentation), ruler);
+  m.gravity_offset = estimate;
+  if (estimate.failure) {
+    m.gravity_warnings.push_back("the gravity ruler made no estimate: " + *estimate.failure);
+    return;
+  }
+  const std::string said = "the flights fall at g with the marker's plane " + Mm(estimate.offset_m) + " +- " +
+                           Mm(estimate.sd_m) + " in front of the calibrated plane (camera " + Mm(distance) + " away)";
+  if (m.marker_offset.given()) {
+    const double apart = estimate.offset_m - m.marker_offset.offset_m;
+    if (std::abs(apart) > ruler.apply_sigmas * estimate.sd_m) {
+      m.gravity_warnings.push_back(said + ", but the offset given is " + Mm(m.marker_offset.offset_m) +
+                                   ": check the offset, the local gravity (--gravity, gravity_mps2) and the rig");
+    }
+    return;
+  }
+  const analysis::OffsetVerdict verdict = analysis::JudgeMarkerOffset(estimate, distance, ruler);
+  if (verdict == analysis::OffsetVerdict::kOutOfRange) {
+    m.gravity_warnings.push_back(said +
+                                 ": beyond 10 % of the camera distance this is no marker offset but a wrong "
+                                 "capture rate, unit or rig; not applied");
+    return;
+  }
+  if (verdict != analysis::OffsetVerdict::kApply) return;
+  // Apply: map again at the estimate, measure again, and estimate again on the new flights.
+  double applied = estimate.offset_m;
+  for (int pass = 0; pass < 2; ++pass) {
+    m.series = series_at(applied);
+    m.kinematics = analysis::AnalyzeKinematics(m.series, kinematics_options);
+    m.marker_offset = {applied, MarkerOffsetSource::kGravity};
+    if (m.kinematics.failure) return;
+    estimate = analysis::EstimateMarkerOffset(series_at, applied, FlightWindowsOf(m.kinematics.segmentation), ruler);
+    m.gravity_offset = estimate;
+    if (estimate.failure || std::abs(estimate.offset_m - applied) <= 0.1 * estimate.sd_m) break;
+    if (pass == 0) applied = estimate.offset_m;
+  }
 }
 
 analysis::LawFitOptions LawFitOptionsOf(const analysis::DropConditions& conditions) {
@@ -107,6 +177,12 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
                   "capture_fps in the manifest";
     return out;
   }
+  out.marker_offset = ResolveMarkerOffset(request.marker_offset_option_m, request.marker_offset_manifest_m);
+  if (auto offset_problem = calib::MarkerOffsetProblem(rig, out.marker_offset.offset_m)) {
+    out.setup_problem = true;
+    out.problem = name + ": " + *offset_problem;
+    return out;
+  }
   if (!rig.image_size.empty() && info.size != rig.image_size) {
     out.setup_problem = true;
     out.problem = name + ": frames are " + SizeText(info.size) + " but the rig was made for " +
@@ -117,9 +193,12 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig) {
   return out;
 }
 
-analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps) {
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps,
+                                         double marker_offset_m) {
   if (!(fps > 0.0) || !std::isfinite(fps))
     throw std::invalid_argument("TimeSeriesFromTrack: capture rate " + std::to_string(fps) + " is not > 0");
+  if (auto problem = calib::MarkerOffsetProblem(rig, marker_offset_m))
+    throw std::invalid_argument("TimeSeriesFromTrack: " + *problem);
   const int first_frame = track.samples.empty() ? 0 : track.samples.front().frame;
   analysis::TimeSeries series = analysis::MakeTimeSeries(static_cast<int>(track.samples.size()), fps, first_frame);
   for (size_t i = 0; i < track.samples.size(); ++i) {
@@ -129,7 +208,7 @@ analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const cali
                                   std::to_string(s.frame) + ", expected " +
                                   std::to_string(first_frame + static_cast<int>(i)));
     if (!s.found) continue;
-    const cv::Point2d p = calib::PlaneFromImage(rig, s.centre_px);
+    const cv::Point2d p = calib::MarkerPlaneFromImage(rig, s.centre_px, marker_offset_m);
     if (std::isfinite(p.x) && std::isfinite(p.y)) {
       series.x_m[i] = p.x;
       series.y_m[i] = p.y;
@@ -149,7 +228,7 @@ TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, O
   TrackedClip out;
   out.track = tracker::TrackClip(*opened.source, track_options, progress);
   opened.source.reset();  // read to the end; free the decoder
-  out.series = TimeSeriesFromTrack(out.track, rig, opened.rate->fps);
+  out.series = TimeSeriesFromTrack(out.track, rig, opened.rate->fps, opened.marker_offset.offset_m);
   return out;
 }
 
@@ -157,10 +236,14 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
                             const MeasureOptions& options) {
   ClipMeasurement m;
   m.series = std::move(series);
+  m.marker_offset = options.marker_offset;
+  m.camera_distance_m = calib::CameraDistanceM(rig);
   m.conditions = DropConditionsOf(request);
   m.fit_options = LawFitOptionsOf(m.conditions);
   const analysis::KinematicsOptions kinematics_options = KinematicsOptionsFor(request, rig, fps);
   m.kinematics = analysis::AnalyzeKinematics(m.series, kinematics_options);
+  if (m.kinematics.failure) return m;
+  if (options.track && request.gravity_ruler) ApplyGravityRuler(rig, fps, *options.track, kinematics_options, m);
   if (m.kinematics.failure) return m;
   m.fit_clip = analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, m.series,
                                      m.kinematics.segmentation, m.kinematics.impacts);
@@ -193,6 +276,8 @@ ClipOutcome AnalyzeClip(const ClipRequest& request, const calib::Rig& rig, Opene
   }
   MeasureOptions measure;
   measure.fit_laws = request.fit_laws;
+  measure.marker_offset = out.opened.marker_offset;
+  measure.track = &out.tracked->track;
   out.measurement = MeasureClip(request, rig, out.tracked->series, out.opened.rate->fps, measure);
   return out;
 }

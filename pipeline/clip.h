@@ -27,6 +27,7 @@
 #include <vector>
 
 #include "analysis/drop_conditions.h"
+#include "analysis/gravity_ruler.h"
 #include "analysis/kinematics.h"
 #include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
@@ -35,6 +36,7 @@
 #include "media/frame_source.h"
 #include "pipeline/capture_rate.h"
 #include "pipeline/law_curves.h"
+#include "pipeline/marker_offset.h"
 #include "tracker/marker_kind.h"
 #include "tracker/track.h"
 
@@ -52,9 +54,15 @@ struct ClipRequest {
   std::optional<double> fps_option;        // --fps (wins over everything)
   std::optional<double> fps_manifest;      // manifest capture_fps
   std::optional<double> gravity_mps2;      // local gravity; default standard gravity
+  // The hub marker's plane (pipeline/marker_offset.h): --marker-offset, manifest marker_offset_m.
+  std::optional<double> marker_offset_option_m;
+  std::optional<double> marker_offset_manifest_m;
   tracker::MarkerKind marker = tracker::MarkerKind::kAuto;
   std::optional<cv::Point2d> seed_px;  // marker position in the first frames [px]
   bool fit_laws = true;                // run the per-clip contact-law fits
+  // The gravity ruler (analysis/gravity_ruler.h): estimate the marker plane's offset from the
+  // flights, and apply it when none was given and the policy allows (`--no-gravity-ruler`: off).
+  bool gravity_ruler = true;
 };
 
 // Mass, gravity and tread of a request, as one value.
@@ -66,11 +74,14 @@ analysis::KinematicsOptions KinematicsOptionsFor(const ClipRequest& request, con
 analysis::LawFitOptions LawFitOptionsFor(const ClipRequest& request);
 
 // The start-up checks of a clip, the one place `track`, `analyze` and `run` make them: open the
-// clip (media::FrameSource), find its capture rate (ResolveCaptureRate) and compare its frame
-// size with the rig's. The clip is opened once; the caller passes the result on.
+// clip (media::FrameSource), find its capture rate (ResolveCaptureRate), compare its frame size
+// with the rig's, and resolve the marker's plane (ResolveMarkerOffset; an offset the rig cannot
+// map, calib::MarkerOffsetProblem, is a set-up problem). The clip is opened once; the caller
+// passes the result on.
 struct OpenedClip {
   std::unique_ptr<media::FrameSource> source;  // null when nothing can be read from the clip
   std::optional<CaptureRate> rate;             // set when the clip can be tracked
+  MarkerOffset marker_offset;                  // the plane the track's pixels are mapped onto
   // Why the clip cannot be tracked, naming the clip and saying what to do; unset when it can.
   std::optional<std::string> problem;
   // The problem lies in the set-up, not in the clip's content (no capture rate known anywhere, a
@@ -83,9 +94,12 @@ struct OpenedClip {
 OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
 
 // The drop-plane time series of a track: t = frame / fps (mid-exposure), metres through the rig
-// (calib::PlaneFromImage: undistort, then the plane mapping) where the marker was found and the
-// mapping is finite; other samples invalid. Throws std::invalid_argument when fps is not > 0.
-analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps);
+// where the marker was found and the mapping is finite; other samples invalid. The pixels are
+// mapped onto the marker's plane `marker_offset_m` in front of the calibrated plane
+// (calib::MarkerPlaneFromImage; at offset 0 calib::PlaneFromImage: undistort, then the plane
+// mapping). Throws std::invalid_argument when fps is not > 0 or the rig cannot map the offset.
+analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps,
+                                         double marker_offset_m = 0.0);
 
 // frames done, frames total (0 when unknown)
 using ClipProgress = std::function<void(int, int)>;
@@ -111,6 +125,12 @@ struct ClipMeasurement {
   std::optional<analysis::LawComparison> laws;  // per-clip fits, when fitted
   std::vector<FitTrace> law_traces;             // one per laws->fits (empty for failed fits)
   bool onset_refitted = false;                  // figures read again at the best law's onset
+  // The plane `series` is in: the offset given, the gravity ruler's when it was applied, or 0.
+  MarkerOffset marker_offset;
+  // The gravity ruler's estimate (at the final plane's flight windows), when it ran.
+  std::optional<analysis::MarkerOffsetEstimate> gravity_offset;
+  std::optional<double> camera_distance_m;    // from the rig's plane pose
+  std::vector<std::string> gravity_warnings;  // the ruler's warnings, as sentences
   // The report's force-deflection loop from the filtered track (first complete bounce).
   std::optional<ForceDeflection> track_force;
   double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
@@ -122,10 +142,19 @@ struct ClipMeasurement {
 struct MeasureOptions {
   bool fit_laws = true;
   std::optional<std::pair<double, double>> onset_from_fit;  // (height [m], sd [m])
+  // The plane `series` was mapped onto.
+  MarkerOffset marker_offset;
+  // The track the series came from (its pixels): lets the gravity ruler map it onto other planes.
+  // Without it (a clip rebuilt from track.csv) the ruler does not run.
+  const tracker::Track* track = nullptr;
 };
 
-// Measures a clip from its series. Throws std::invalid_argument for an invalid series or
-// request; a clip that cannot be analysed comes back with kinematics.failure set.
+// Measures a clip from its series. With options.track, a rig that knows its plane's pose and
+// request.gravity_ruler, the gravity ruler runs on the kinematics' flights (analysis/gravity_ruler.h);
+// when no offset was given and the policy allows, the series is mapped again at the estimate
+// (source "gravity") and measured again, twice at most, before the law fits. Throws
+// std::invalid_argument for an invalid series or request; a clip that cannot be analysed comes
+// back with kinematics.failure set.
 ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series, double fps,
                             const MeasureOptions& options);
 

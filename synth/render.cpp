@@ -203,6 +203,10 @@ std::optional<std::string> ValidateWheelLook(const WheelLook& look) {
     msg << "free radius " << look.free_radius_m << " m is outside [0.02, 1] m";
     return msg.str();
   }
+  if (!(look.marker_offset_m >= -0.5 && look.marker_offset_m <= 0.5)) {
+    msg << "marker offset " << look.marker_offset_m << " m is outside [-0.5, 0.5] m";
+    return msg.str();
+  }
   if (!(look.marker_diameter_m >= 0.004 && look.marker_diameter_m <= 0.2)) {
     msg << "marker diameter " << look.marker_diameter_m << " m is outside [0.004, 0.2] m";
     return msg.str();
@@ -280,8 +284,10 @@ SceneRenderer::SceneRenderer(const PinholeCamera& camera, const WheelLook& wheel
   const int width = k.image_size.width, height = k.image_size.height;
   const cv::Matx33d world_from_camera = CameraFromWorldRotation(camera).t();
   const cv::Vec3d origin = CameraCentreInWorld(camera);
-  if (!(origin[2] > 0) || !(origin[1] > 0)) {
-    throw std::invalid_argument("the camera must be in front of the drop plane and above the floor");
+  const double wheel_z = wheel.marker_offset_m;  // the plane the wheel is drawn in
+  if (!(origin[2] > wheel_z) || !(origin[2] > 0) || !(origin[1] > 0)) {
+    throw std::invalid_argument(
+        "the camera must be in front of the drop plane and the wheel's plane, and above the floor");
   }
   auto ray_of = [&](double u, double v) {
     const cv::Point2d n = UndistortNormalized(k, {(u - k.cx_px) / k.fx_px, (v - k.cy_px) / k.fy_px});
@@ -302,7 +308,7 @@ SceneRenderer::SceneRenderer(const PinholeCamera& camera, const WheelLook& wheel
       const cv::Vec3d ray = ray_of(u, v);
       if (!(ray[2] < 0))
         throw std::invalid_argument("a pixel's ray does not meet the drop plane; tilt the camera less");
-      const double s = -origin[2] / ray[2];
+      const double s = (wheel_z - origin[2]) / ray[2];
       plane_x_(v, u) = origin[0] + s * ray[0];
       plane_y_(v, u) = origin[1] + s * ray[1];
       // 2 x 2 supersampled static scene (its texture is smooth; only its few edges need it).
@@ -336,6 +342,10 @@ SceneRenderer::SceneRenderer(const PinholeCamera& camera, const WheelLook& wheel
 
 cv::Point2d SceneRenderer::PlaneAtPixel(int u, int v) const { return {plane_x_(v, u), plane_y_(v, u)}; }
 
+cv::Point2d SceneRenderer::ImageFromWheelPlane(cv::Point2d p_m) const {
+  return ProjectWorldPoint(camera_, cv::Vec3d(p_m.x, p_m.y, wheel_.marker_offset_m));
+}
+
 cv::Rect SceneRenderer::WheelBoundingBox(const WheelPose& pose) const {
   const cv::Size size = image_size();
   double u0 = 1e18, v0 = 1e18, u1 = -1e18, v1 = -1e18;
@@ -343,8 +353,8 @@ cv::Rect SceneRenderer::WheelBoundingBox(const WheelPose& pose) const {
   for (int i = 0; i < 32; ++i) {
     const double a = 2 * std::numbers::pi * i / 32;
     // The 32-gon's edge midpoints lie at r cos(pi/32) from the hub: r / cos(pi/32) encloses the circle.
-    const cv::Point2d p = ImageFromDropPlane(camera_, {pose.x_m + r / std::cos(std::numbers::pi / 32) * std::cos(a),
-                                                       pose.y_m + r / std::cos(std::numbers::pi / 32) * std::sin(a)});
+    const cv::Point2d p = ImageFromWheelPlane({pose.x_m + r / std::cos(std::numbers::pi / 32) * std::cos(a),
+                                               pose.y_m + r / std::cos(std::numbers::pi / 32) * std::sin(a)});
     u0 = std::min(u0, p.x);
     u1 = std::max(u1, p.x);
     v0 = std::min(v0, p.y);
@@ -365,7 +375,7 @@ bool SceneRenderer::MarkerInView(const WheelPose& pose) const {
   for (int i = 0; i < 16; ++i) {
     const double a = 2 * std::numbers::pi * i / 16;
     const double r = CapRadius(wheel_);
-    const cv::Point2d p = ImageFromDropPlane(camera_, {pose.x_m + r * std::cos(a), pose.y_m + r * std::sin(a)});
+    const cv::Point2d p = ImageFromWheelPlane({pose.x_m + r * std::cos(a), pose.y_m + r * std::sin(a)});
     if (p.x < -0.5 + margin_px || p.y < -0.5 + margin_px || p.x > size.width - 0.5 - margin_px ||
         p.y > size.height - 0.5 - margin_px) {
       return false;
@@ -601,7 +611,7 @@ FrameTruth TruthOfFrame(const SceneRenderer& renderer, const analysis::Trajector
   truth.vy_mps = s.vy_mps;
   truth.contact_force_n = s.contact_force_n;
   truth.in_contact = s.in_contact;
-  const cv::Point2d image = ImageFromDropPlane(renderer.camera(), {s.x_m, s.y_m});
+  const cv::Point2d image = renderer.ImageFromWheelPlane({s.x_m, s.y_m});
   truth.u_px = image.x;
   truth.v_px = image.y;
   truth.marker_in_view = renderer.MarkerInView({s.x_m, s.y_m, s.spin_angle_rad});

@@ -20,7 +20,9 @@
 //             its centre is the saddle point where the quarter edges cross;
 //   dot       a white disc of marker_diameter_m on the black cap.
 // The marker centre is the hub centre, in the drop plane, so its image is exactly
-// ImageFromDropPlane(camera, hub) (camera.h).
+// ImageFromDropPlane(camera, hub) (camera.h). With WheelLook::marker_offset_m = d the whole wheel
+// is drawn in the parallel plane z_m = d instead (hub (x_m, y_m) there, heights still above the
+// floor y_m = 0), and the marker's image is ProjectWorldPoint(camera, (x_m, y_m, d)).
 //
 // Anti-aliasing (why the drawn centre is exact): every edge is drawn with a coverage ramp that
 // is odd-symmetric about the true edge: a sample at signed distance s (metres) from an edge
@@ -72,6 +74,11 @@ struct WheelLook {
   double rim_radius_m = 0.11;  // rim outer radius; (cap radius / 0.45, free_radius_m)
   MarkerShape marker = MarkerShape::kQuadrant;
   double marker_diameter_m = 0.030;  // quadrant disc or dot diameter; [0.004, 0.2]
+  // The plane the wheel is drawn in, z_m = marker_offset_m: its hub face, which carries the
+  // marker, lies this far in front of (> 0, toward the camera) or behind the drop plane [m];
+  // [-0.5, 0.5]. 0: the wheel in the drop plane. The tyre is drawn in the same plane (only the
+  // marker is measured).
+  double marker_offset_m = 0.0;
 };
 // Radius of the black hub cap around the marker [m]: 1.6 x the marker radius for a quadrant,
 // 1.8 x for a dot.
@@ -126,8 +133,11 @@ class SceneRenderer {
 
   // Radiance of the scene without the wheel (CV_32F).
   const cv::Mat1f& static_radiance() const { return static_radiance_; }
-  // Drop-plane point (x_m, y_m) seen at the centre of each pixel.
+  // Wheel-plane point (x_m, y_m) seen at the centre of each pixel (the plane z_m =
+  // wheel().marker_offset_m; the drop plane when it is 0).
   cv::Point2d PlaneAtPixel(int u, int v) const;
+  // Image of the wheel-plane point (x_m, y_m, wheel().marker_offset_m).
+  cv::Point2d ImageFromWheelPlane(cv::Point2d p_m) const;
 
   // Radiance with the wheel at the mean of the given sub-frame poses (motion blur), seen
   // through a Gaussian lens blur of s.d. psf_sigma_px (0 = none). Thread-safe.

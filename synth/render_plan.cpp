@@ -148,6 +148,7 @@ RenderPlan MakePlan(const RenderOptions& o) {
                             : o.section_radius_m > 0 ? o.free_radius_m - 2 * o.section_radius_m
                                                      : 0.55 * o.free_radius_m;
   plan.wheel.marker = MarkerShapeFromString(o.marker);
+  plan.wheel.marker_offset_m = o.marker_offset_m;
   plan.wheel.marker_diameter_m = o.marker_diameter_m > 0                  ? o.marker_diameter_m
                                  : plan.wheel.marker == MarkerShape::kDot ? 0.018
                                                                           : 0.030;
@@ -241,6 +242,8 @@ std::vector<std::pair<std::string, std::string>> EffectiveOptions(const RenderOp
     add("occluder_angle_deg", Fmt(o.occluder_angle_deg));
     add("occluder_grey", Fmt(o.occluder_grey));
   }
+  // Only when not 0, so that the files of a set rendered without it stay as they were.
+  if (o.marker_offset_m != 0.0) add("marker_offset_m", Fmt(o.marker_offset_m));
   return out;
 }
 
@@ -398,6 +401,9 @@ std::optional<std::string> ValidateRenderOptions(const RenderOptions& o) {
   if (!(o.floor_margin_px >= 0 && o.floor_margin_px < size->second / 2.0)) {
     return OutOfRange("floor-margin", o.floor_margin_px, "[0, image height / 2)", "px");
   }
+  if (!(o.marker_offset_m >= -0.5 && o.marker_offset_m <= 0.5 && o.marker_offset_m < 0.9 * o.camera_distance_m)) {
+    return OutOfRange("marker-offset", o.marker_offset_m, "[-0.5, 0.5] and below 0.9 x the camera distance", "m");
+  }
   RenderPlan plan;
   try {
     plan = MakePlan(o);
@@ -495,6 +501,7 @@ std::map<std::string, RecordSetter> RecordSetters(RenderOptions& o) {
       {"square_m", [&o](auto& n, auto& v) { o.square_m = RecordedNumber(n, v); }},
       {"lens_views", [&o](auto& n, auto& v) { o.lens_views = RecordedInteger(n, v); }},
       {"calibration_seed", [&o](auto&, auto& v) { o.calibration_seed = std::stoull(v); }},
+      {"marker_offset_m", [&o](auto& n, auto& v) { o.marker_offset_m = RecordedNumber(n, v); }},
       {"first_frames", [&o](auto& n, auto& v) { o.first_frames = RecordedInteger(n, v); }},
       {"occluder", [&o](auto&, auto& v) { o.occluder = v; }},
       {"occluder_cover", [&o](auto&, auto& v) { o.occluder_cover = v; }},

@@ -96,6 +96,12 @@ struct RenderOptions {
   double occluder_angle_deg = 0.0;     // direction the card's edge moves in the image [deg]:
                                        // 0 right (card from the left), 90 down
   double occluder_grey = 20.0;         // card radiance [grey levels]; [0, 300]
+  // The marker's plane (issue 15). The wheel, whose hub face carries the marker, is drawn in the
+  // plane z_m = marker_offset_m, parallel to the drop plane (toward the camera positive) [m];
+  // [-0.5, 0.5] and below the camera distance. The calibration boards stay in the drop plane, so
+  // a rig made from them maps the marker as if it were there. The truth keeps its meaning: the
+  // hub's (x_m, y_m), heights above the floor. Recorded only when not 0.
+  double marker_offset_m = 0.0;
 };
 
 // A message naming the first bad option, its value and its valid range, or nothing.

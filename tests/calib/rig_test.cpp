@@ -90,5 +90,88 @@ TEST(Rig, UnknownUpSideIsRejectedWithTheValidList) {
   EXPECT_EQ(ToString(UpSide::kBottom), "bottom");
 }
 
+// --- The marker's plane (calib/rig.h, docs/methods.md §19) ---------------------------------
+
+// Points on the parallel plane `offset_m` in front of the calibrated plane, projected by OpenCV's
+// cv::projectPoints (the reference), come back through MarkerPlaneFromImage as the plane point
+// they were made from. The board frame of MakeTiltedRig has Z into the scene, so "toward the
+// camera" is Z = -offset_m; the plane point (x_m, y_m) is (x_m, -y_m) in that frame.
+// Tolerance: the undistortion converges to about 1e-12 px and 1 px is about 1 mm here.
+constexpr double kOffsetPlaneTolM = 1e-8;
+
+TEST(MarkerPlane, PointsOnTheOffsetPlaneProjectedByOpenCvMapBackExactly) {
+  const Rig rig = MakeTiltedRig();
+  for (double offset_m : {0.03, -0.02, 0.4}) {
+    for (double x : {-0.1, 0.0, 0.25}) {
+      for (double y : {-0.2, 0.05, 0.3}) {
+        std::vector<cv::Point3d> obj{{x, -y, -offset_m}};
+        std::vector<cv::Point2d> px;
+        cv::projectPoints(obj, *rig.plane_rvec_rad, *rig.plane_tvec_m, rig.lens->camera_matrix, rig.lens->distortion,
+                          px);
+        const cv::Point2d back = MarkerPlaneFromImage(rig, px[0], offset_m);
+        EXPECT_NEAR(back.x, x, kOffsetPlaneTolM) << "offset " << offset_m;
+        EXPECT_NEAR(back.y, y, kOffsetPlaneTolM) << "offset " << offset_m;
+      }
+    }
+  }
+}
+
+TEST(MarkerPlane, APoseWhoseNormalPointsToTheCameraGivesTheSameMapping) {
+  // The renderer's exact rig (synth/camera.h) poses a frame with Z toward the camera: the same
+  // plane, axes Y and Z turned over. The offset must still count toward the camera.
+  const Rig rig = MakeTiltedRig();
+  Rig flipped = rig;
+  cv::Matx33d r;
+  cv::Rodrigues(*rig.plane_rvec_rad, r);
+  const cv::Matx33d r2 = r * cv::Matx33d(1, 0, 0, 0, -1, 0, 0, 0, -1);
+  cv::Vec3d rvec2;
+  cv::Rodrigues(r2, rvec2);
+  flipped.plane_rvec_rad = rvec2;
+  const double offset_m = 0.03;
+  for (double x : {-0.1, 0.25}) {
+    for (double y : {-0.2, 0.3}) {
+      std::vector<cv::Point3d> obj{{x, y, offset_m}};  // Z toward the camera in this frame
+      std::vector<cv::Point2d> px;
+      cv::projectPoints(obj, rvec2, *rig.plane_tvec_m, rig.lens->camera_matrix, rig.lens->distortion, px);
+      const cv::Point2d back = MarkerPlaneFromImage(flipped, px[0], offset_m);
+      EXPECT_NEAR(back.x, x, kOffsetPlaneTolM);
+      EXPECT_NEAR(back.y, y, kOffsetPlaneTolM);
+    }
+  }
+  EXPECT_DOUBLE_EQ(*CameraDistanceM(flipped), *CameraDistanceM(rig));
+}
+
+TEST(MarkerPlane, LengthsScaleByTheDistanceRatioAndOffsetZeroIsThePlaneMapping) {
+  // Similar triangles (pinhole projection, common practice, no source): a length in a plane
+  // parallel to the calibrated one at distance D - d is read in the calibrated plane as
+  // D / (D - d) times itself.
+  const Rig rig = MakeTiltedRig();
+  const double d = *CameraDistanceM(rig);
+  const double offset_m = 0.05;
+  const cv::Point2d a_px(300, 200), b_px(500, 420);
+  const cv::Point2d a0 = PlaneFromImage(rig, a_px), b0 = PlaneFromImage(rig, b_px);
+  const cv::Point2d a1 = MarkerPlaneFromImage(rig, a_px, offset_m), b1 = MarkerPlaneFromImage(rig, b_px, offset_m);
+  constexpr double kRatioTol = 1e-9;  // exact in double precision for a metric plane frame
+  EXPECT_NEAR(cv::norm(b1 - a1) / cv::norm(b0 - a0), (d - offset_m) / d, kRatioTol);
+  const cv::Point2d same = MarkerPlaneFromImage(rig, a_px, 0.0);
+  EXPECT_EQ(same.x, a0.x);
+  EXPECT_EQ(same.y, a0.y);
+}
+
+TEST(MarkerPlane, ARigWithoutAPlanePoseRefusesAnOffsetWithTheReason) {
+  Rig rig = MakeTiltedRig();
+  rig.plane_rvec_rad.reset();
+  rig.plane_tvec_m.reset();
+  EXPECT_FALSE(HasPlanePose(rig));
+  EXPECT_FALSE(CameraDistanceM(rig).has_value());
+  EXPECT_FALSE(MarkerOffsetProblem(rig, 0.0).has_value());
+  const std::string problem = MarkerOffsetProblem(rig, 0.03).value_or("");
+  EXPECT_NE(problem.find("needs the pose of the calibrated plane"), std::string::npos) << problem;
+  EXPECT_THROW(MarkerPlaneFromImage(rig, {400, 300}, 0.03), std::invalid_argument);
+  const Rig posed = MakeTiltedRig();
+  EXPECT_NE(MarkerOffsetProblem(posed, 2.0).value_or("").find("not smaller than the camera's distance"),
+            std::string::npos);
+}
+
 }  // namespace
 }  // namespace dropfit::calib

@@ -7,6 +7,7 @@
 
 #include <cmath>
 #include <filesystem>
+#include <sstream>
 #include <string>
 
 #include "cli/clip_records.h"
@@ -38,8 +39,9 @@ class AnalyzeCommandTest : public ::testing::Test {
   // A short, small clip of one drop from 0.08 m (the fall, the first contact and the rebound
   // to its apex) under the renderer's reference noise and blur; half the default image size
   // and focal length (same view, 2x larger pixels) to keep the test to seconds.
-  RenderTruth Render(double duration_s, uint64_t seed) {
+  RenderTruth Render(double duration_s, uint64_t seed, double marker_offset_m = 0.0) {
     RenderCommandOptions o;
+    o.marker_offset_m = marker_offset_m;
     o.out_dir = (dir_ / "clips").string();
     o.heights_m = {0.08};
     o.duration_s = duration_s;
@@ -110,6 +112,78 @@ TEST_F(AnalyzeCommandTest, AReferenceClipGivesTheTrueFiguresWithinTheReferenceTo
   for (const auto& [name, text] : result.info)
     has_options |= name == "analyze_options" && text.find("mass_kg=5") != std::string::npos;
   EXPECT_TRUE(has_options);
+}
+
+TEST_F(AnalyzeCommandTest, AMarkerInFrontOfTheBoardGivesTheTrueFiguresWithItsOffsetGivenOrFoundByGravity) {
+  // The renderer draws the hub 30 mm in front of the drop plane the rig was made in; with
+  // --marker-offset 0.03 the pixels are mapped onto the marker's plane (calib/rig.h), and the
+  // figures meet the same reference tolerances as a marker in the plane.
+  const double offset_m = 0.03;
+  const RenderTruth truth = Render(0.21, 7, offset_m);
+  const ClipTruth& clip = truth.clips.at(0);
+  ASSERT_FALSE(clip.impacts.empty());
+  AnalyzeCommandOptions options = Options(truth);
+  options.marker_offset_m = offset_m;
+  ASSERT_EQ(RunAnalyze(options), kExitDone);
+  const ClipResult result = ReadClipResult(fs::path(options.out_dir) / "result.json");
+  EXPECT_DOUBLE_EQ(ExtraValue(result, "marker_offset_m"), offset_m);
+  EXPECT_EQ(InfoValue(result, "marker_offset_source"), "option");
+  ASSERT_FALSE(result.impacts.empty());
+  const ImpactRecord& r = result.impacts[0];
+  const analysis::ImpactTruth& t = clip.impacts[0];
+  EXPECT_NEAR(r.cor, t.cor, kReferenceCorTolerance);
+  EXPECT_NEAR(r.impact_speed_mps / t.impact_speed_mps, 1.0, kReferenceImpactSpeedRelTolerance);
+  EXPECT_NEAR(r.max_deflection_m, t.max_deflection_m, kReferenceDeflectionToleranceM);
+  EXPECT_NEAR(r.contact_duration_s, t.contact_duration_s, kLawDurationToleranceS);
+  // Standard gravity (3rd CGPM 1901) measured in flight to 1 %, as for a marker in the plane
+  // (mapped through the board's plane the clip reads 2.2 % high, D / (D - d) = 1.2 / 1.17).
+  ASSERT_TRUE(result.gravity_check.flight_accel_mps2.has_value());
+  EXPECT_NEAR(*result.gravity_check.flight_accel_mps2 / 9.80665, 1.0, 0.01);
+
+  // No offset given: the gravity ruler (analysis/gravity_ruler.h) finds it from the flights
+  // within the 1 mm, applies it (source "gravity") and the figures are as good.
+  AnalyzeCommandOptions estimated = Options(truth);
+  estimated.out_dir = (dir_ / "out_estimated").string();
+  ASSERT_EQ(RunAnalyze(estimated), kExitDone);
+  const ClipResult by_gravity = ReadClipResult(fs::path(estimated.out_dir) / "result.json");
+  constexpr double kRulerTolM = 1e-3;  // the acceptance for the estimated offset
+  EXPECT_EQ(InfoValue(by_gravity, "marker_offset_source"), "gravity");
+  EXPECT_NEAR(ExtraValue(by_gravity, "marker_offset_m"), offset_m, kRulerTolM);
+  EXPECT_NEAR(ExtraValue(by_gravity, "marker_offset_gravity_m"), offset_m, kRulerTolM);
+  EXPECT_GT(ExtraValue(by_gravity, "marker_offset_gravity_sd_m"), 0.0);
+  ASSERT_FALSE(by_gravity.impacts.empty());
+  EXPECT_NEAR(by_gravity.impacts[0].max_deflection_m, t.max_deflection_m, kReferenceDeflectionToleranceM);
+  EXPECT_NEAR(by_gravity.impacts[0].cor, t.cor, kReferenceCorTolerance);
+  // Switched off, the marker is taken to lie in the board's plane: lengths read D / (D - d) large.
+  estimated.no_gravity_ruler = true;
+  estimated.out_dir = (dir_ / "out_ruler_off").string();
+  ASSERT_EQ(RunAnalyze(estimated), kExitDone);
+  const ClipResult off = ReadClipResult(fs::path(estimated.out_dir) / "result.json");
+  EXPECT_EQ(InfoValue(off, "marker_offset_source"), "none");
+  EXPECT_FALSE(std::isfinite(ExtraValue(off, "marker_offset_gravity_m")));
+  ASSERT_FALSE(off.impacts.empty());
+  EXPECT_GT(std::abs(off.impacts[0].max_deflection_m - t.max_deflection_m), kReferenceDeflectionToleranceM);
+
+  // A rig without the plane's pose (plane view only, no lens) cannot place the marker's plane:
+  // exit status 2 with the reason, nothing written.
+  calib::Rig plane_only = ReadRigFile(dir_ / "rig.json");
+  plane_only.lens.reset();
+  plane_only.plane_rvec_rad.reset();
+  plane_only.plane_tvec_m.reset();
+  WriteRigFile(dir_ / "rig_plane_only.json", plane_only);
+  options.rig_path = (dir_ / "rig_plane_only.json").string();
+  options.out_dir = (dir_ / "out_plane_only").string();
+  std::ostringstream out, err;
+  EXPECT_EQ(RunAnalyze(options, out, err), kExitBadUsage);
+  EXPECT_NE(err.str().find("needs the pose of the calibrated plane"), std::string::npos) << err.str();
+  EXPECT_FALSE(fs::exists(dir_ / "out_plane_only" / "result.json"));
+  // Without an offset the same rig analyses the clip, and says the gravity ruler was skipped.
+  options.marker_offset_m.reset();
+  EXPECT_EQ(RunAnalyze(options, out, err), kExitDone);
+  const ClipResult skipped = ReadClipResult(fs::path(options.out_dir) / "result.json");
+  bool said = false;
+  for (const std::string& w : skipped.warnings) said |= w.find("gravity ruler was skipped") != std::string::npos;
+  EXPECT_TRUE(said);
 }
 
 TEST_F(AnalyzeCommandTest, AClipWithoutImpactExitsWithOneAndSaysWhatToCheck) {

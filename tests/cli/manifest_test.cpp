@@ -130,6 +130,21 @@ TEST_F(ManifestTest, ABadOptionalNumberSaysItMayBeLeftEmpty) {
             "(or leave it empty)");
 }
 
+TEST_F(ManifestTest, TheMarkerOffsetIsSignedMayBeZeroOrEmptyAndIsBounded) {
+  // docs/formats.md, "manifest.csv" and "Marker plane": toward the camera positive.
+  const Manifest m = Parse(
+      "clip,drop_height_m,mass_kg,marker_offset_m\na.avi,0.3,12,0.03\nb.avi,0.3,12,-0.02\nc.mov,0.3,12,\n"
+      "seq_01,0.3,12,1.5\n");
+  ASSERT_EQ(m.rows.size(), 4u);
+  EXPECT_DOUBLE_EQ(m.rows[0].marker_offset_m.value(), 0.03);
+  EXPECT_DOUBLE_EQ(m.rows[1].marker_offset_m.value(), -0.02);
+  EXPECT_FALSE(m.rows[2].marker_offset_m.has_value());
+  EXPECT_TRUE(m.rows[2].ok());
+  EXPECT_EQ(m.rows[3].error,
+            "m.csv:5: column 'marker_offset_m': '1.5' is outside [-1, 1]; give the offset of the hub marker's plane "
+            "from the calibrated plane (toward the camera positive) in metres (or leave it empty)");
+}
+
 TEST_F(ManifestTest, ADuplicateClipFailsTheLaterRow) {
   const Manifest m = Parse("clip,drop_height_m,mass_kg\na.avi,0.3,12\nb.avi,0.3,12\na.avi,0.4,12\n");
   ASSERT_EQ(m.rows.size(), 3u);

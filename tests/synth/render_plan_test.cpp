@@ -215,4 +215,15 @@ TEST(RenderPlan, TheCalibrationSeedIsDerivedFromTheSeedUnlessGivenAndIsRecordedO
 }
 
 }  // namespace
+TEST(RenderPlan, TheMarkerOffsetReachesTheWheelIsRecordedOnlyWhenSetAndIsRangeChecked) {
+  // Common practice, no source: an option that leaves earlier outputs as they were.
+  RenderOptions o = SmallSet("unused");
+  for (const auto& [name, value] : EffectiveOptions(o, MakePlan(o))) EXPECT_NE(name, "marker_offset_m");
+  o.marker_offset_m = 0.03;
+  EXPECT_DOUBLE_EQ(MakePlan(o).wheel.marker_offset_m, 0.03);
+  EXPECT_DOUBLE_EQ(RenderOptionsFromRecord(EffectiveOptions(o, MakePlan(o))).marker_offset_m, 0.03);
+  o.marker_offset_m = 0.7;
+  EXPECT_NE(ValidateRenderOptions(o).value_or("").find("--marker-offset"), std::string::npos);
+}
+
 }  // namespace dropfit::synth

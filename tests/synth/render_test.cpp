@@ -11,6 +11,7 @@
 #include "synth/render.h"
 
 #include <gtest/gtest.h>
+#include <opencv2/calib3d.hpp>
 
 #include <cmath>
 
@@ -59,7 +60,7 @@ cv::Point2d MomentCentroid(const Image& image, cv::Point2d guess, double window_
 // against it, and the renderer's truth stays the projected centre (the quadrant's saddle
 // point, and the dot's centre).
 cv::Point2d PredictedMomentCentroid(const PinholeCamera& camera, const WheelPose& pose, double radius_m,
-                                    MarkerShape shape) {
+                                    MarkerShape shape, double plane_z_m = 0.0) {
   // Polar midpoint rule in the marker's own frame, so the quarter edges fall between nodes.
   const int nr = 120, nt = 480;
   const double h = 1e-6;
@@ -71,9 +72,9 @@ cv::Point2d PredictedMomentCentroid(const PinholeCamera& camera, const WheelPose
       if (shape == MarkerShape::kQuadrant && (j / (nt / 4)) % 2 == 1) continue;
       const double a = pose.spin_rad + (j + 0.5) / nt * 2 * CV_PI;
       const double x = pose.x_m + r * std::cos(a), y = pose.y_m + r * std::sin(a);
-      const cv::Point2d p = ImageFromDropPlane(camera, {x, y});
-      const cv::Point2d px = ImageFromDropPlane(camera, {x + h, y});
-      const cv::Point2d py = ImageFromDropPlane(camera, {x, y + h});
+      const cv::Point2d p = ProjectWorldPoint(camera, {x, y, plane_z_m});
+      const cv::Point2d px = ProjectWorldPoint(camera, {x + h, y, plane_z_m});
+      const cv::Point2d py = ProjectWorldPoint(camera, {x, y + h, plane_z_m});
       const double area = std::abs((px.x - p.x) * (py.y - p.y) - (px.y - p.y) * (py.x - p.x)) / (h * h);
       const double w = r * area;
       m0 += w;
@@ -119,6 +120,47 @@ TEST(Render, DrawnMarkerCentreMatchesTheTruthByIntensityMoments) {
         EXPECT_NEAR(measured8.x, truth.x, kCentreTolerancePx) << ToString(c.shape) << " 8-bit";
         EXPECT_NEAR(measured8.y, truth.y, kCentreTolerancePx) << ToString(c.shape) << " 8-bit";
       }
+    }
+  }
+}
+
+TEST(Render, AMarkerOffTheDropPlaneIsDrawnWhereOpenCvProjectsItsPoint) {
+  // The wheel drawn in the plane z_m = d (WheelLook::marker_offset_m): the marker's drawn centre,
+  // by intensity moments, is where cv::projectPoints (the reference library) puts the world point
+  // (x_m, y_m, d), and the frame truth says the same; it is not where the drop-plane point is.
+  const PinholeCamera camera = MakeCamera(CameraSetup{});
+  const double px_per_m = 1.0 / MetresPerPixelAtCentre(camera);
+  const cv::Matx33d k(camera.intrinsics.fx_px, 0, camera.intrinsics.cx_px, 0, camera.intrinsics.fy_px,
+                      camera.intrinsics.cy_px, 0, 0, 1);
+  const std::vector<double> dist{camera.intrinsics.k1, camera.intrinsics.k2, camera.intrinsics.p1, camera.intrinsics.p2,
+                                 camera.intrinsics.k3};
+  for (double offset_m : {0.03, -0.02}) {
+    WheelLook look;
+    look.marker = MarkerShape::kDot;
+    look.marker_diameter_m = 0.018;
+    look.marker_offset_m = offset_m;
+    const SceneRenderer renderer(camera, look, SceneLook{});
+    // The scale in the wheel's plane is (D / (D - d)) times the drop plane's (similar triangles).
+    const double scale = camera.tvec_m[2] / (camera.tvec_m[2] - offset_m);
+    const double marker_r_px = look.marker_diameter_m / 2 * px_per_m * scale;
+    const double cap_r_px = CapRadius(look) * px_per_m * scale;
+    for (const cv::Point2d base : {cv::Point2d(-0.05, 0.12), cv::Point2d(0.45, 0.5)}) {
+      const WheelPose pose{base.x, base.y, 0.4};
+      std::vector<cv::Point2d> ref;
+      cv::projectPoints(std::vector<cv::Point3d>{{pose.x_m, pose.y_m, offset_m}}, camera.rvec_rad, camera.tvec_m, k,
+                        dist, ref);
+      const cv::Point2d bias =
+          PredictedMomentCentroid(camera, pose, look.marker_diameter_m / 2, look.marker, offset_m) - ref[0];
+      const cv::Mat1f radiance = renderer.RenderRadiance({pose});
+      const cv::Point2d measured =
+          MomentCentroid(radiance, ref[0], cap_r_px - 1.5, marker_r_px + 1.5, cap_r_px - 1.5) - bias;
+      EXPECT_NEAR(measured.x, ref[0].x, kCentreTolerancePx) << "offset " << offset_m << " at " << base;
+      EXPECT_NEAR(measured.y, ref[0].y, kCentreTolerancePx) << "offset " << offset_m << " at " << base;
+      // OpenCV's projection and ours agree in double precision (camera_test.cpp's bound).
+      const cv::Point2d ours = renderer.ImageFromWheelPlane({pose.x_m, pose.y_m});
+      EXPECT_NEAR(ours.x, ref[0].x, 1e-7);
+      EXPECT_NEAR(ours.y, ref[0].y, 1e-7);
+      EXPECT_GT(cv::norm(ref[0] - ImageFromDropPlane(camera, {pose.x_m, pose.y_m})), 1.0);
     }
   }
 }
