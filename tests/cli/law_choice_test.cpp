@@ -10,8 +10,10 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <optional>
 #include <sstream>
 #include <string>
+#include <vector>
 
 #include "cli/exit_status.h"
 #include "cli/render_command.h"
@@ -62,36 +64,50 @@ std::string Note(const FitRecord& f, const std::string& name) {
   return "";
 }
 
-// A tyre of 4.2 kg on k = 8.0e4 N/m^n, alpha = 0.10 s/m, dropped from 0.05, 0.10 and 0.20 m
-// (the 0.10 m drop at n = 1 is the case of the issue), at half the default image size and
-// focal length (same view, 2x larger pixels) to keep the test short; then `dropfit run` with
-// the renderer's exact rig.
-void CheckHuntCrossleyTruth(double n, uint64_t seed) {
-  const test::TempDir tmp("law_choice");
-  const fs::path clips = tmp.path() / "clips", out = tmp.path() / "out";
+// Renders `law` with `params` at `heights_m` into dir/clips, at half the default image size and
+// focal length (same view, 2x larger pixels) to keep the test short, then runs `dropfit run`
+// with the renderer's exact rig into dir/out; the truth, or nothing (with a test failure).
+std::optional<RenderTruth> RenderAndRun(const fs::path& dir, const std::string& law,
+                                        const std::vector<std::string>& params, double mass_kg,
+                                        const std::vector<double>& heights_m, uint64_t seed) {
   RenderCommandOptions r;
-  r.out_dir = clips.string();
-  r.law = "hunt-crossley";
-  std::ostringstream n_text;
-  n_text << "n=" << n;
-  r.params = {"k=8.0e4", n_text.str(), "alpha_s_per_m=0.10"};
-  r.mass_kg = 4.2;
-  r.heights_m = {0.05, 0.10, 0.20};
+  r.out_dir = (dir / "clips").string();
+  r.law = law;
+  r.params = params;
+  r.mass_kg = mass_kg;
+  r.heights_m = heights_m;
   r.image_size = "400x320";
   r.focal_px = 600.0;
   r.floor_margin_px = 20.0;
   r.calibration = false;
   r.seed = seed;
-  ASSERT_EQ(RunRender(r), kExitDone);
-
+  if (RunRender(r) != kExitDone) {
+    ADD_FAILURE() << "render failed";
+    return std::nullopt;
+  }
   RunCommandOptions o;
-  o.folder = clips.string();
-  o.rig_path = (clips / "rig_exact.json").string();
-  o.out_dir = out.string();
+  o.folder = (dir / "clips").string();
+  o.rig_path = (dir / "clips" / "rig_exact.json").string();
+  o.out_dir = (dir / "out").string();
   std::ostringstream sink;
-  ASSERT_EQ(RunRun(o, sink, sink), kExitDone) << sink.str();
+  if (RunRun(o, sink, sink) != kExitDone) {
+    ADD_FAILURE() << sink.str();
+    return std::nullopt;
+  }
+  return ReadTruthFile(dir / "clips" / "truth.json");
+}
 
-  const RenderTruth truth = ReadTruthFile(clips / "truth.json");
+// A tyre of 4.2 kg on k = 8.0e4 N/m^n, alpha = 0.10 s/m, dropped from 0.05, 0.10 and 0.20 m
+// (the 0.10 m drop at n = 1 is the case of the issue).
+void CheckHuntCrossleyTruth(double n, uint64_t seed) {
+  const test::TempDir tmp("law_choice");
+  const fs::path out = tmp.path() / "out";
+  std::ostringstream n_text;
+  n_text << "n=" << n;
+  const std::optional<RenderTruth> rendered = RenderAndRun(
+      tmp.path(), "hunt-crossley", {"k=8.0e4", n_text.str(), "alpha_s_per_m=0.10"}, 4.2, {0.05, 0.10, 0.20}, seed);
+  ASSERT_TRUE(rendered);
+  const RenderTruth& truth = *rendered;
   ASSERT_EQ(truth.clips.size(), 3u);
   for (const auto& clip : truth.clips) {
     const std::string id = fs::path(clip.clip).stem().string();
@@ -136,25 +152,11 @@ void CheckHuntCrossleyTruth(double n, uint64_t seed) {
 // the rising flight starts late), bounded at 2.5 ms.
 TEST(LawChoice, ATruthOutsideTheFiveLawsIsFlaggedAndKeepsItsLawFreeFigures) {
   const test::TempDir tmp("law_choice_none");
-  const fs::path clips = tmp.path() / "clips", out = tmp.path() / "out";
-  RenderCommandOptions r;
-  r.out_dir = clips.string();
-  r.law = "bottoming";
-  r.params = {"k_n_per_m=6e4", "k3_n_per_m3=3e9", "knee_m=0.012", "a_s_per_m=0.3"};
-  r.heights_m = {0.20};
-  r.image_size = "400x320";
-  r.focal_px = 600.0;
-  r.floor_margin_px = 20.0;
-  r.calibration = false;
-  r.seed = 5;
-  ASSERT_EQ(RunRender(r), kExitDone);
-  RunCommandOptions o;
-  o.folder = clips.string();
-  o.rig_path = (clips / "rig_exact.json").string();
-  o.out_dir = out.string();
-  std::ostringstream sink;
-  ASSERT_EQ(RunRun(o, sink, sink), kExitDone) << sink.str();
-  const RenderTruth truth = ReadTruthFile(clips / "truth.json");
+  const fs::path out = tmp.path() / "out";
+  const std::optional<RenderTruth> rendered = RenderAndRun(
+      tmp.path(), "bottoming", {"k_n_per_m=6e4", "k3_n_per_m3=3e9", "knee_m=0.012", "a_s_per_m=0.3"}, 5.0, {0.20}, 5);
+  ASSERT_TRUE(rendered);
+  const RenderTruth& truth = *rendered;
   const std::string id = fs::path(truth.clips.at(0).clip).stem().string();
   const ClipResult result = ReadClipResult(out / "clips" / id / "result.json");
   ASSERT_TRUE(result.no_law_fits.has_value());
