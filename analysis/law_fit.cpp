@@ -154,6 +154,18 @@ struct WindowCost {
   WindowData data;
 };
 
+// The onset height's prior: (onset - value) weight, weight = noise / (sd x residual scale),
+// so that it weighs as one measured sample of that sd against the samples' noise.
+struct OnsetPriorCost {
+  double value_m;
+  double weight;
+  template <typename T>
+  bool operator()(const T* onset, T* residual) const {
+    residual[0] = (onset[0] - value_m) * weight;
+    return true;
+  }
+};
+
 ceres::CostFunction* MakeWindowCost(WindowData data) {
   const int n = static_cast<int>(data.window->t_s.size());
   switch (InternalDim(data.setup.law)) {
@@ -303,9 +315,13 @@ StartingValues ChooseStartingValues(LawId law, const std::vector<FitClip>& clips
   // Onset height: fixed per clip where known, else one shared unknown.
   std::vector<double> onset_guesses;
   for (const FitClip& clip : clips) {
-    if (clip.known_onset_height_m) continue;
+    if (OnsetHeldFixed(clip)) continue;
     out.onset_free = true;
-    if (std::isfinite(clip.onset_height_guess_m)) onset_guesses.push_back(clip.onset_height_guess_m);
+    if (clip.known_onset_height_m) {
+      onset_guesses.push_back(*clip.known_onset_height_m);  // the prior's value
+    } else if (std::isfinite(clip.onset_height_guess_m)) {
+      onset_guesses.push_back(clip.onset_height_guess_m);
+    }
   }
   // Starting figures: the median over bounces of each figure.
   std::vector<double> v_in, cor, t_c, defl, rest_guess;
@@ -315,7 +331,7 @@ StartingValues ChooseStartingValues(LawId law, const std::vector<FitClip>& clips
     cor.push_back(f.cor);
     t_c.push_back(f.contact_duration_s);
     defl.push_back(f.max_deflection_m);
-    if (out.onset_free && !clips[ref.clip].known_onset_height_m && std::isfinite(f.max_deflection_m)) {
+    if (out.onset_free && !OnsetHeldFixed(clips[ref.clip]) && std::isfinite(f.max_deflection_m)) {
       const auto lowest = std::min_element(ref.window->y_m.begin(), ref.window->y_m.end());
       rest_guess.push_back(*lowest + f.max_deflection_m);
     }
@@ -390,10 +406,19 @@ Solved BuildProblem(const FitInputs& in, const std::vector<double>& start_params
     d.inv_scale = 1.0 / kResidualScaleM;
     d.window = ref.window;
     d.sqrt_weights = &u.sqrt_weights[i];  // sized before the loop: the pointers stay valid
-    const bool known = in.clips[ref.clip].known_onset_height_m.has_value();
+    const bool known = OnsetHeldFixed(in.clips[ref.clip]);
     double* onset_block = known ? &u.known_onsets[ref.clip] : &u.onset;
     s.problem->AddResidualBlock(MakeWindowCost(d), nullptr, u.x.data(), onset_block, u.states[i].data());
     if (known) s.problem->SetParameterBlockConstant(onset_block);
+  }
+  // The geometry's onset heights given as priors, after every window's samples.
+  const double noise = TrackNoise(in.clips);
+  for (const FitClip& clip : in.clips) {
+    if (OnsetHeldFixed(clip) || !clip.known_onset_height_m) continue;
+    const double weight = (noise > 0.0 ? noise : kResidualScaleM) / (clip.onset_prior_sd_m * kResidualScaleM);
+    s.problem->AddResidualBlock(
+        new ceres::AutoDiffCostFunction<OnsetPriorCost, 1, 1>(new OnsetPriorCost{*clip.known_onset_height_m, weight}),
+        nullptr, &u.onset);
   }
   SetBounds(in.law, in.start.delta_ref_m, u, s.problem.get());
   return s;
@@ -529,6 +554,12 @@ void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* resul
   result->params = x_params;
   result->bounds_reached = BoundsReached(in.law, best, x_params);
   result->onset_height_fitted = in.start.onset_free;
+  for (const FitClip& clip : in.clips) {
+    if (clip.known_onset_height_m && !OnsetHeldFixed(clip)) {
+      result->onset_prior_m = clip.known_onset_height_m;
+      result->onset_prior_sd_m = clip.onset_prior_sd_m;
+    }
+  }
   result->onset_height_m =
       in.start.onset_free ? u.onset : in.clips[in.windows.front().clip].known_onset_height_m.value();
   for (const WindowRef& ref : in.windows) result->samples += static_cast<int>(ref.window->t_s.size());
@@ -674,7 +705,7 @@ struct FigureUnknowns {
 FigureUnknowns UnknownsOfWindow(const FitInputs& in, const InternalCovariance& ic, size_t i) {
   const int dim = InternalDim(in.law);
   FigureUnknowns out;
-  out.onset_unknown = in.start.onset_free && !in.clips[in.windows[i].clip].known_onset_height_m;
+  out.onset_unknown = in.start.onset_free && !OnsetHeldFixed(in.clips[in.windows[i].clip]);
   for (int j = 0; j < dim; ++j) out.idx.push_back(j);
   if (out.onset_unknown) out.idx.push_back(dim);
   out.idx.push_back(ic.state_offset + 2 * static_cast<int>(i));
@@ -795,7 +826,7 @@ BounceFitFigures FiguresOfWindow(const FitInputs& in, const Unknowns& u, const I
   const FitClip& clip = in.clips[ref.clip];
   const FitWindow& w = *ref.window;
   const ContactSetup setup = SetupOf(in.law, in.options, clip.mass_kg);
-  const double onset = clip.known_onset_height_m.value_or(u.onset);
+  const double onset = OnsetHeldFixed(clip) ? *clip.known_onset_height_m : u.onset;
   const double end_s = w.t_s.back() + 0.05;
   const WindowSimulation sim = SimulateWindow(setup, result->params, onset, w.start_time_s, u.states[i][0],
                                               u.states[i][1], end_s, in.options.model);
@@ -854,7 +885,9 @@ void AddDegenerateDataWarnings(const FitInputs& in, const std::vector<double>& m
   for (const std::string& bound : result->bounds_reached) {
     result->warnings.push_back(bound + ": the best value may lie beyond it, so its SD holds on one side only");
   }
-  if (in.start.onset_free && in.windows.size() == 1) {
+  const bool prior = std::any_of(in.clips.begin(), in.clips.end(),
+                                 [](const FitClip& c) { return c.known_onset_height_m && !OnsetHeldFixed(c); });
+  if (in.start.onset_free && in.windows.size() == 1 && !prior) {
     result->warnings.push_back(
         "a single bounce with a fitted onset height: stiffness, exponent and onset height trade off "
         "(an exponent is pinned only to a few tenths); read the SDs, or give free_radius_m with a floor");
@@ -1140,6 +1173,10 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   AddDegenerateDataWarnings(in, max_deflections, &result);
   result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
   return result;
+}
+
+bool OnsetHeldFixed(const FitClip& clip) {
+  return clip.known_onset_height_m.has_value() && !(clip.onset_prior_sd_m > 0.0);
 }
 
 int InternalParameterCount(LawId law) { return InternalDim(law); }

@@ -112,6 +112,12 @@ struct FitWindow {
 //   onset_height_guess_m  starting value when it is fitted (the track's estimate); NaN: from
 //                         the windows (lowest point + deflection).
 //   noise_sd_m            position noise from the kinematics (for warnings); NaN if unknown.
+//   onset_prior_sd_m      when > 0 with known_onset_height_m: the known value is not held
+//                         fixed but enters as a prior of this standard uncertainty (the
+//                         geometry's floor and free-radius tolerance): the onset height is a
+//                         fitted unknown and one residual (onset - known) noise / sd joins the
+//                         samples' (model - measured), so the prior weighs as a measurement of
+//                         that sd would (docs/methods.md §13). NaN or <= 0: held fixed.
 struct FitClip {
   std::string clip;
   double drop_height_m = 0.0;
@@ -120,7 +126,11 @@ struct FitClip {
   std::optional<double> known_onset_height_m;
   double onset_height_guess_m = std::numeric_limits<double>::quiet_NaN();
   double noise_sd_m = std::numeric_limits<double>::quiet_NaN();
+  double onset_prior_sd_m = std::numeric_limits<double>::quiet_NaN();
 };
+
+// True when the clip's onset height is held fixed (known, with no prior sd).
+bool OnsetHeldFixed(const FitClip& clip);
 
 // How windows are cut from a segmented track (MakeFitClip).
 //   max_flight_samples   at most this many flight samples on each side of a contact; the
@@ -207,6 +217,9 @@ struct LawFitResult {
   double onset_height_m = 0.0;
   double onset_height_sd_m = 0.0;  // 0 when fixed
   bool onset_height_fitted = false;
+  // The geometry's onset height and sd when it entered as a prior (FitClip::onset_prior_sd_m).
+  std::optional<double> onset_prior_m;
+  double onset_prior_sd_m = 0.0;
   std::vector<std::vector<int>> bounces;  // per clip: the bounce indices used
   int samples = 0;
   int free_parameters = 0;

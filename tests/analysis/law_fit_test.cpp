@@ -299,6 +299,39 @@ TEST(LawFit, FitFromTheKinematicsOfANoisyTrackRecoversTheLawAndTheOnsetHeight) {
   EXPECT_NEAR(fit.figures[0].peak_force_n / truth.impacts().front().peak_force_n, 1.0, 0.03);
 }
 
+// The geometry's onset height as a prior (law_fit.h, FitClip::onset_prior_sd_m) weighs as a
+// measurement of its sd: with the prior 1.5 mm off the truth, a tight prior holds the fit, a
+// loose one lets the data decide, and a prior as certain as the data's own estimate lands
+// near the inverse-variance weighted mean of the two (the combination of two independent
+// Gaussian measurements; e.g. Taylor, An Introduction to Error Analysis, 2nd ed. 1997, eq. 7.10,
+// FROM MEMORY), within a fifth of their distance (the fit is not linear in the onset height).
+TEST(LawFit, TheOnsetPriorEntersWithTheWeightOfItsUncertainty) {
+  constexpr double kNoiseM = 5e-5, kOffM = 1.5e-3;
+  synth::SyntheticClip clip = Clip(LawId::kKelvinVoigt, kNoiseM, 31, /*geometry_known=*/true, 1);
+  clip.clip.noise_sd_m = kNoiseM;
+  clip.clip.known_onset_height_m = kOnsetM + kOffM;
+  const auto fit_with = [&](double prior_sd_m) {
+    FitClip c = clip.clip;
+    c.onset_prior_sd_m = prior_sd_m;
+    const LawFitResult f = FitLaw(LawId::kKelvinVoigt, {c}, Options());
+    EXPECT_FALSE(f.failure);
+    EXPECT_TRUE(f.onset_prior_m.has_value());
+    return f;
+  };
+  const LawFitResult tight = fit_with(1e-7), loose = fit_with(1.0);
+  std::printf("onset: tight prior %.6f, loose prior %.6f +- %.6f (truth %.6f, prior %.6f)\n", tight.onset_height_m,
+              loose.onset_height_m, loose.onset_height_sd_m, kOnsetM, kOnsetM + kOffM);
+  EXPECT_NEAR(tight.onset_height_m, kOnsetM + kOffM, 2e-5);
+  EXPECT_NEAR(loose.onset_height_m, kOnsetM, 3.0 * loose.onset_height_sd_m + 1e-5);
+  // The data's own estimate and its sd, against a prior of the same sd: the mean of the two.
+  const double s_data = loose.onset_height_sd_m / loose.sd_inflation;  // before the inflation for correlation
+  const LawFitResult even = fit_with(s_data);
+  const double expected = 0.5 * (loose.onset_height_m + kOnsetM + kOffM);
+  std::printf("onset with a prior of the data's sd %.6f: %.6f (weighted mean %.6f)\n", s_data, even.onset_height_m,
+              expected);
+  EXPECT_NEAR(even.onset_height_m, expected, 0.2 * kOffM);
+}
+
 // ---- Degenerate data --------------------------------------------------------------------
 
 bool HasWarning(const LawFitResult& fit, const std::string& text) {
