@@ -2,6 +2,7 @@
 
 #include <ceres/loss_function.h>
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <sstream>
@@ -95,19 +96,13 @@ std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const
     if (!noise_sd_m) {
       std::vector<double> abs_r(residual.data(), residual.data() + count);
       for (double& r : abs_r) r = std::abs(r);
-      std::nth_element(abs_r.begin(), abs_r.begin() + count / 2, abs_r.end());
-      sigma = 1.4826 * abs_r[static_cast<size_t>(count / 2)];
+      sigma = RobustSd(std::move(abs_r));
     }
     const double delta = kHuberScaleSigmas * sigma;
     if (delta > 0.0) {
-      const ceres::HuberLoss huber(delta);
       for (int iteration = 0; iteration < 50; ++iteration) {
         Eigen::VectorXd next(count);
-        for (int i = 0; i < count; ++i) {
-          double rho[3];
-          huber.Evaluate(residual(i) * residual(i), rho);
-          next(i) = rho[1];
-        }
+        for (int i = 0; i < count; ++i) next(i) = HuberWeight(residual(i), delta);
         const double change = (next - w).cwiseAbs().maxCoeff();
         w = next;
         if (change < 1e-9) break;
@@ -138,6 +133,19 @@ std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const
   fit.coef = c_scaled.cwiseProduct(unscale);
   fit.covariance = fit.noise_sd_m * fit.noise_sd_m * unscale.asDiagonal() * ata_inv * unscale.asDiagonal();
   return fit;
+}
+
+double HuberWeight(double residual, double delta) {
+  double rho[3];
+  ceres::HuberLoss(delta).Evaluate(residual * residual, rho);
+  return rho[1];
+}
+
+double RobustSd(std::vector<double> abs_residuals) {
+  if (abs_residuals.empty()) return std::numeric_limits<double>::quiet_NaN();
+  const auto mid = abs_residuals.begin() + static_cast<std::ptrdiff_t>(abs_residuals.size() / 2);
+  std::nth_element(abs_residuals.begin(), mid, abs_residuals.end());
+  return 1.4826 * *mid;
 }
 
 std::optional<double> CrossingTime(const PolynomialFit& parabola, double height_m, Branch branch) {

@@ -60,6 +60,15 @@ struct PolynomialFit {
 // degree outside [0, 6].
 // robust: Huber's loss by reweighting (see above).
 constexpr double kHuberScaleSigmas = 3.0;
+
+// The weight rho'(r^2) Huber's loss (Ceres' HuberLoss, scale delta > 0) gives a residual r:
+// 1 for |r| <= delta, delta / |r| beyond. Residual and scale in one unit. The robust fits
+// here and in analysis/law_fit.h reweight by it.
+double HuberWeight(double residual, double delta);
+
+// 1.4826 x the median of |residual| (the abs values given): the SD of Gaussian residuals,
+// unmoved by a few outliers (common practice, no source); NaN when empty.
+double RobustSd(std::vector<double> abs_residuals);
 std::optional<PolynomialFit> FitPolynomial(const std::vector<double>& t_s, const std::vector<double>& values,
                                            const std::vector<bool>& valid, int first, int last, int degree,
                                            std::optional<double> noise_sd_m = std::nullopt, bool robust = false);

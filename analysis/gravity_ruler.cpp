@@ -14,14 +14,6 @@ namespace {
 
 constexpr double kNan = std::numeric_limits<double>::quiet_NaN();
 
-// Robust noise sd: 1.4826 x the median absolute residual (docs/methods.md §20).
-double RobustSd(std::vector<double> abs_residuals) {
-  if (abs_residuals.empty()) return 0.0;
-  const auto mid = abs_residuals.begin() + static_cast<long>(abs_residuals.size() / 2);
-  std::nth_element(abs_residuals.begin(), mid, abs_residuals.end());
-  return 1.4826 * *mid;
-}
-
 int NextValid(const TimeSeries& s, int i, int step, int stop) {
   while (i != stop && !s.valid[static_cast<size_t>(i)]) i += step;
   return i;
@@ -39,7 +31,8 @@ std::optional<std::pair<int, int>> TrimWindow(const TimeSeries& s, int first, in
       if (s.valid[static_cast<size_t>(i)])
         abs_res.push_back(std::abs(s.y_m[static_cast<size_t>(i)] - fit->Value(s.t_s[static_cast<size_t>(i)])));
     }
-    // A nanometre floor: an exact parabola's residuals are rounding alone.
+    // A nanometre floor: an exact parabola's residuals are rounding alone. abs_res is not empty
+    // (the fit holds min_flight_samples); RobustSd is the robust noise sd (docs/methods.md §20).
     const double limit = std::max(o.trim_sigmas * RobustSd(abs_res), 1e-9);
     const double r_first = std::abs(s.y_m[static_cast<size_t>(first)] - fit->Value(s.t_s[static_cast<size_t>(first)]));
     const double r_last = std::abs(s.y_m[static_cast<size_t>(last)] - fit->Value(s.t_s[static_cast<size_t>(last)]));

@@ -54,8 +54,7 @@ double RankCriterion(const LawFitResult& fit, double effective_samples) {
 
 bool HasUndeterminedParameter(const LawFitResult& fit) {
   for (size_t i = 0; i < fit.params.size() && i < fit.param_sd.size(); ++i) {
-    if (fit.law == LawId::kHertz && i == 1) continue;
-    if (!(fit.param_sd[i] <= 0.5 * std::abs(fit.params[i]))) return true;
+    if (ParameterUndetermined(fit, i)) return true;
   }
   return false;
 }

@@ -508,7 +508,7 @@ constexpr int kReweightRounds = 4;
 void ReweightOutliers(const FitInputs& in, Solved& best, LawFitResult* result) {
   const double noise = TrackNoise(in.clips);
   if (!in.options.robust || !(noise > 0.0)) return;
-  const ceres::HuberLoss huber(kHuberScaleSigmas * noise / kResidualScaleM);
+  const double delta = kHuberScaleSigmas * noise / kResidualScaleM;  // in units of kResidualScaleM
   Unknowns& u = *best.unknowns;
   for (int round = 0; round < kReweightRounds; ++round) {
     std::vector<double> r;
@@ -521,9 +521,7 @@ void ReweightOutliers(const FitInputs& in, Solved& best, LawFitResult* result) {
         const double plain = r[offset++] / w;  // in units of kResidualScaleM
         ++total;
         if (std::abs(plain) * kResidualScaleM > kOutlierSigmas * noise) ++far;
-        double rho[3];
-        huber.Evaluate(plain * plain, rho);
-        const double next = std::sqrt(rho[1]);
+        const double next = std::sqrt(HuberWeight(plain, delta));
         change = std::max(change, std::abs(next - w));
         w = next;
         downweighted += next < 1.0 ? 1 : 0;
@@ -789,14 +787,6 @@ struct ContactFlightSums {
   std::vector<double> abs_all, abs_contact;  // |residual|, for the robust spreads
 };
 
-// 1.4826 x the median of |r|: the SD of Gaussian residuals, unmoved by a few outliers.
-double RobustSd(std::vector<double> abs_residuals) {
-  if (abs_residuals.empty()) return kNaN;
-  const auto mid = abs_residuals.begin() + static_cast<std::ptrdiff_t>(abs_residuals.size() / 2);
-  std::nth_element(abs_residuals.begin(), mid, abs_residuals.end());
-  return 1.4826 * *mid;
-}
-
 // The residuals' lag-1 autocorrelation at the kept solution, pooled over the windows (each
 // window's residuals in sample order; law_fit.h "Correlated residuals"); NaN when the
 // residuals cannot be evaluated.
@@ -899,9 +889,7 @@ void AddDegenerateDataWarnings(const FitInputs& in, const std::vector<double>& m
                                " m): the law is not determined by these data");
   }
   for (int i = 0; i < ParameterCount(law); ++i) {
-    if (law == LawId::kHertz && i == 1) continue;
-    const double rel = result->param_sd[i] / std::abs(result->params[i]);
-    if (!(rel <= 0.5)) {
+    if (ParameterUndetermined(*result, static_cast<size_t>(i))) {
       result->warnings.push_back(result->param_names[i] + " = " + FormatG(result->params[i]) + " has an SD of " +
                                  FormatG(result->param_sd[i]) + ": not determined by the data");
     }
@@ -1173,6 +1161,11 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   AddDegenerateDataWarnings(in, max_deflections, &result);
   result.solve_time_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t_begin).count();
   return result;
+}
+
+bool ParameterUndetermined(const LawFitResult& fit, size_t i) {
+  if (fit.law == LawId::kHertz && i == 1) return false;  // the fixed exponent
+  return !(fit.param_sd[i] <= 0.5 * std::abs(fit.params[i]));
 }
 
 bool OnsetHeldFixed(const FitClip& clip) {

@@ -255,6 +255,11 @@ struct LawFitResult {
   std::optional<std::string> failure;  // no fit could be made; everything else is empty
 };
 
+// True when the fit's parameter i has a relative SD above 50 % (or an infinite or NaN one):
+// the data do not determine it. Hertz's fixed exponent never is. The warnings of FitLaw and
+// the law choice (analysis/law_choice.h) use it.
+bool ParameterUndetermined(const LawFitResult& fit, size_t i);
+
 // The law's formula with the units of every symbol, for the result files, e.g.
 // "F = k*delta + c*delta_dot; F [N], delta [m] penetration below the onset height, ...".
 std::string LawFormula(LawId law, const TreadGeometry& tread);

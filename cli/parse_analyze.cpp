@@ -20,13 +20,8 @@ void AddAnalyzeCommand(CLI::App& app, CommandAction& action) {
       "--free-radius", opts->free_radius_m,
       "Unloaded radius, hub centre to tread [m]; with a floor in the rig it fixes the contact-onset height");
   sub->add_option("--gravity", opts->gravity_mps2, "Local gravity [m/s^2] (default: standard gravity 9.80665)");
-  sub->add_option("--marker-offset", opts->marker_offset_m,
-                  "Offset [m] of the hub marker's plane from the calibrated plane (the board's), toward the camera "
-                  "positive (e.g. 0.03 for a hub face 30 mm in front of the tyre's mid-plane); wins over the "
-                  "manifest's marker_offset_m; needs a rig with lens views (the plane's pose)");
-  sub->add_flag("--no-gravity-ruler", opts->no_gravity_ruler,
-                "Do not estimate the marker's plane from the free flights (the gravity ruler; see README \"Gravity as "
-                "the ruler\")");
+  AddMarkerOffsetOption(sub, &opts->marker_offset_m);
+  AddGravityRulerFlag(sub, &opts->no_gravity_ruler);
   sub->add_option("--marker", opts->marker, "Hub marker kind: auto|quadrant|dot|template (default auto)");
   sub->add_option("--seed", opts->seed, "U,V [px]: pick the marker nearest this point in the first frames");
   sub->add_option("-o,--output", opts->out_dir, "Output folder for result.json and track.csv")->required();

@@ -13,16 +13,11 @@ void AddRunCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
   sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")
       ->check(CLI::NonNegativeNumber);
-  sub->add_option("--marker-offset", opts->marker_offset_m,
-                  "Offset [m] of the hub marker's plane from the calibrated plane (the board's), toward the camera "
-                  "positive (e.g. 0.03 for a hub face 30 mm in front of the tyre's mid-plane); wins over the "
-                  "manifest's marker_offset_m; needs a rig with lens views (the plane's pose)");
+  AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   sub->add_option("--gravity", opts->gravity_mps2,
                   "Local gravity [m/s^2] for every clip; wins over the manifest's gravity_mps2 (default: standard "
                   "gravity 9.80665)");
-  sub->add_flag("--no-gravity-ruler", opts->no_gravity_ruler,
-                "Do not estimate the marker's plane from the free flights (the gravity ruler; see README \"Gravity as "
-                "the ruler\")");
+  AddGravityRulerFlag(sub, &opts->no_gravity_ruler);
   sub->footer("Example:\n  dropfit run demo_clips --rig demo_clips/rig.json -o demo_out --jobs 2");
   sub->callback([opts, &action] { action = [opts] { return RunRun(*opts); }; });
 }

@@ -14,10 +14,7 @@ void AddTrackCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("--fps", opts->fps,
                   "True capture rate [frames/s]; wins over the rig's and the container's (a container rate of "
                   "120 or less is taken for a playback rate and warned about)");
-  sub->add_option("--marker-offset", opts->marker_offset_m,
-                  "Offset [m] of the hub marker's plane from the calibrated plane (the board's), toward the camera "
-                  "positive (e.g. 0.03 for a hub face 30 mm in front of the tyre's mid-plane); wins over the "
-                  "manifest's marker_offset_m; needs a rig with lens views (the plane's pose)");
+  AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   sub->add_option("--marker", opts->marker,
                   "Marker kind: auto (detect; quadrant discs first), quadrant (disc of black and white quarters), "
                   "dot (plain dot, bright or dark), template (any textured patch; needs --seed)")

@@ -6,6 +6,7 @@
 #include <CLI/CLI.hpp>
 
 #include <functional>
+#include <optional>
 
 namespace dropfit::cli {
 
@@ -17,5 +18,11 @@ void AddAnalyzeCommand(CLI::App& app, CommandAction& action);
 void AddRunCommand(CLI::App& app, CommandAction& action);
 void AddRenderCommand(CLI::App& app, CommandAction& action);
 void AddReportCommand(CLI::App& app, CommandAction& action);
+
+// Options several subcommands share, each with one help text (parse_shared.cpp).
+// --marker-offset M (track, analyze, run).
+void AddMarkerOffsetOption(CLI::App* sub, std::optional<double>* offset_m);
+// --no-gravity-ruler (analyze, run).
+void AddGravityRulerFlag(CLI::App* sub, bool* off);
 
 }  // namespace dropfit::cli
