@@ -37,12 +37,14 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"samples_downweighted", static_cast<double>(fit.samples_downweighted)}};
   r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
-  std::string bounds;
-  for (const std::string& b : fit.bounds_reached) bounds += (bounds.empty() ? "" : " | ") + b;
-  if (!bounds.empty()) r.notes.emplace_back("bounds_reached", bounds);
-  std::string warnings;
-  for (const std::string& w : fit.warnings) warnings += (warnings.empty() ? "" : " | ") + w;
-  if (!warnings.empty()) r.notes.emplace_back("warnings", warnings);
+  // A list of texts as one note, joined by " | " (docs/formats.md, "Fit records"), when not empty.
+  const auto add_joined = [&r](const char* name, const std::vector<std::string>& texts) {
+    std::string joined;
+    for (const std::string& t : texts) joined += (joined.empty() ? "" : " | ") + t;
+    if (!joined.empty()) r.notes.emplace_back(name, joined);
+  };
+  add_joined("bounds_reached", fit.bounds_reached);
+  add_joined("warnings", fit.warnings);
   return r;
 }
 
