@@ -609,6 +609,8 @@ std::string ToString(OnsetHeightSource source) {
       return "fit";
     case OnsetHeightSource::kTrack:
       return "track";
+    case OnsetHeightSource::kGeometryPrior:
+      return "geometry-prior";
   }
   return "track";
 }
@@ -617,7 +619,9 @@ OnsetHeightSource OnsetHeightSourceFromString(const std::string& text) {
   if (text == "geometry") return OnsetHeightSource::kGeometry;
   if (text == "fit") return OnsetHeightSource::kFit;
   if (text == "track") return OnsetHeightSource::kTrack;
-  throw std::invalid_argument("unknown onset height source \"" + text + "\"; valid: geometry, fit, track");
+  if (text == "geometry-prior") return OnsetHeightSource::kGeometryPrior;
+  throw std::invalid_argument("unknown onset height source \"" + text +
+                              "\"; valid: geometry, fit, track, geometry-prior");
 }
 
 std::optional<std::string> ValidateSegmentationOptions(const SegmentationOptions& o) {

@@ -71,8 +71,10 @@
 namespace dropfit::analysis {
 
 // Where the onset height comes from (the contract's onset_height_source).
-enum class OnsetHeightSource { kGeometry, kFit, kTrack };
-std::string ToString(OnsetHeightSource source);  // "geometry", "fit", "track"
+// kGeometryPrior: the geometry's value entered the law fits as a prior, and the onset height is
+// the best law's fitted value (analysis/law_fit.h, FitClip::onset_prior_sd_m).
+enum class OnsetHeightSource { kGeometry, kFit, kTrack, kGeometryPrior };
+std::string ToString(OnsetHeightSource source);  // "geometry", "fit", "track", "geometry-prior"
 // Throws std::invalid_argument naming the text and listing the valid ones.
 OnsetHeightSource OnsetHeightSourceFromString(const std::string& text);
 

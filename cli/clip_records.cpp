@@ -94,6 +94,7 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.mass_kg = row.mass_kg;
   r.drop_height_m = row.drop_height_m;
   r.free_radius_m = row.free_radius_m;
+  if (row.free_radius_sd_m) r.free_radius_sd_m = *row.free_radius_sd_m;
   r.tread_width_m = row.tread_width_m;
   r.section_radius_m = row.section_radius_m;
   r.fps_manifest = row.capture_fps;
@@ -264,7 +265,9 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
   if (std::isfinite(offset) && !offset_source.empty())
     options.marker_offset = {offset, pipeline::MarkerOffsetSourceFromString(offset_source)};
   const std::string source = InfoValue(result, "onset_height_source");
-  if (!source.empty() && analysis::OnsetHeightSourceFromString(source) == analysis::OnsetHeightSource::kFit) {
+  const analysis::OnsetHeightSource saved =
+      source.empty() ? analysis::OnsetHeightSource::kTrack : analysis::OnsetHeightSourceFromString(source);
+  if (saved == analysis::OnsetHeightSource::kFit || saved == analysis::OnsetHeightSource::kGeometryPrior) {
     const double h = ExtraValue(result, "onset_height_m"), sd = ExtraValue(result, "onset_height_sd_m");
     if (std::isfinite(h) && std::isfinite(sd)) options.onset_from_fit = std::make_pair(h, sd);
   }

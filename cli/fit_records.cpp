@@ -12,8 +12,9 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
     r.param_sd.emplace_back(fit.param_names[i], i < fit.param_sd.size() ? fit.param_sd[i] : std::nan(""));
   }
   r.onset_height_m = fit.onset_height_m;
-  r.onset_height_source = analysis::ToString(fit.onset_height_fitted ? analysis::OnsetHeightSource::kFit
-                                                                     : analysis::OnsetHeightSource::kGeometry);
+  r.onset_height_source = analysis::ToString(fit.onset_prior_m         ? analysis::OnsetHeightSource::kGeometryPrior
+                                             : fit.onset_height_fitted ? analysis::OnsetHeightSource::kFit
+                                                                       : analysis::OnsetHeightSource::kGeometry);
   if (clip_index >= 0 && static_cast<size_t>(clip_index) < fit.bounces.size()) {
     r.bounces = fit.bounces[static_cast<size_t>(clip_index)];
   }
@@ -21,6 +22,7 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
   r.bic = fit.failure ? std::nan("") : fit.bic;
   r.converged = fit.converged && !fit.failure;
   r.extra = {{"onset_height_sd_m", fit.onset_height_sd_m},
+
              {"samples", static_cast<double>(fit.samples)},
              {"free_parameters", static_cast<double>(fit.free_parameters)},
              {"iterations", static_cast<double>(fit.iterations)},
@@ -35,6 +37,10 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"robust_sd_m", fit.robust_sd_m},
              {"robust_sd_contact_m", fit.robust_sd_contact_m},
              {"samples_downweighted", static_cast<double>(fit.samples_downweighted)}};
+  if (fit.onset_prior_m) {
+    r.extra.emplace_back("onset_height_geometry_m", *fit.onset_prior_m);
+    r.extra.emplace_back("onset_height_geometry_sd_m", fit.onset_prior_sd_m);
+  }
   r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
   // A list of texts as one note, joined by " | " (docs/formats.md, "Fit records"), when not empty.

@@ -41,6 +41,7 @@ struct ManifestRow {
   std::optional<double> capture_fps;       // true capture rate [frames/s]
   std::string specimen;                    // free text; rows are grouped by it
   std::optional<double> free_radius_m;     // unloaded radius, hub centre to tread
+  std::optional<double> free_radius_sd_m;  // its standard uncertainty [m]; default 0.5 mm
   std::optional<double> tread_width_m;     // for the volumetric law's cylinder
   std::optional<double> section_radius_m;  // for the volumetric law's torus (wins)
   // Offset of the hub marker's plane from the calibrated plane, toward the camera positive [m];

@@ -6,6 +6,7 @@
 #include <stdexcept>
 
 #include "calib/rig.h"
+#include "calib/rig_uncertainty.h"
 
 namespace dropfit::pipeline {
 
@@ -17,14 +18,20 @@ double Seconds(std::chrono::steady_clock::time_point since) {
 
 std::string SizeText(cv::Size s) { return std::to_string(s.width) + "x" + std::to_string(s.height); }
 
+std::string Mm(double metres) {
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.1f mm", metres * 1000);
+  return buf;
+}
+
 // The figures read again at a fitted onset height (the best law's, or the one a saved result
 // reports): the track is not segmented again (analysis::ReadAtOnsetHeight).
 void ReadAtFittedOnset(const analysis::KinematicsOptions& kinematics_options, double height_m, double sd_m,
-                       ClipMeasurement& m) {
+                       ClipMeasurement& m, analysis::OnsetHeightSource source = analysis::OnsetHeightSource::kFit) {
   analysis::KinematicsOptions refit = kinematics_options;
   refit.onset_height_m = height_m;
   refit.onset_height_sd_m = sd_m;
-  refit.onset_height_source = analysis::OnsetHeightSource::kFit;
+  refit.onset_height_source = source;
   analysis::KinematicsResult again = analysis::ReadAtOnsetHeight(m.series, m.kinematics, refit);
   if (!again.failure) {
     m.kinematics = std::move(again);
@@ -46,15 +53,24 @@ void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurem
     if (choice.best && !choice.no_law_fits && !kinematics_options.onset_height_m) {
       const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*choice.best)];
       ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m);
+    } else if (choice.best && !choice.no_law_fits && m.geometry_onset) {
+      // The geometry entered as a prior: the best law's onset height, and a word where the two
+      // disagree (docs/methods.md §13).
+      const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*choice.best)];
+      const auto [g, g_sd] = *m.geometry_onset;
+      ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m,
+                        analysis::OnsetHeightSource::kGeometryPrior);
+      // (after the figures are read again, which replaces the kinematics' warnings)
+      const double sd = std::hypot(g_sd, best.onset_height_sd_m);
+      if (std::abs(best.onset_height_m - g) > 3.0 * sd) {
+        m.kinematics.warnings.push_back(
+            "the bounces put the onset height at " + Mm(best.onset_height_m) + ", " + Mm(best.onset_height_m - g) +
+            " from the geometry's " + Mm(g) + " (floor + free radius, sd " + Mm(g_sd) +
+            "): more than 3 standard uncertainties; check free_radius_m and the rig's floor (--corner-height)");
+      }
     }
   }
   m.fit_seconds = Seconds(fit_start);
-}
-
-std::string Mm(double metres) {
-  char buf[48];
-  std::snprintf(buf, sizeof buf, "%.1f mm", metres * 1000);
-  return buf;
 }
 
 std::vector<analysis::FlightWindow> FlightWindowsOf(const analysis::Segmentation& segmentation) {
@@ -247,10 +263,27 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   if (m.kinematics.failure) return m;
   m.fit_clip = analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, m.series,
                                      m.kinematics.segmentation, m.kinematics.impacts);
+  if (m.fit_clip->known_onset_height_m && options.fit_laws) {
+    // The geometry's onset height as a prior: the rig's height sd there (floor included) and
+    // the free radius's tolerance.
+    const double g = *m.fit_clip->known_onset_height_m;
+    double floor_sd = 0.0005;  // no rig uncertainty: a corner height read by eye (from memory)
+    try {
+      floor_sd = calib::HeightSdAt(rig, cv::Point2d(0.0, g));
+    } catch (const std::exception&) {
+    }
+    const double sd = std::hypot(floor_sd, request.free_radius_sd_m);
+    if (sd > 0.0) {
+      m.fit_clip->onset_prior_sd_m = sd;
+      m.geometry_onset = std::make_pair(g, sd);
+    }
+  }
   if (options.fit_laws) {
     FitLaws(kinematics_options, m);
-  } else if (options.onset_from_fit && !kinematics_options.onset_height_m) {
-    ReadAtFittedOnset(kinematics_options, options.onset_from_fit->first, options.onset_from_fit->second, m);
+  } else if (options.onset_from_fit) {
+    ReadAtFittedOnset(kinematics_options, options.onset_from_fit->first, options.onset_from_fit->second, m,
+                      kinematics_options.onset_height_m ? analysis::OnsetHeightSource::kGeometryPrior
+                                                        : analysis::OnsetHeightSource::kFit);
   }
   m.track_force = TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
   return m;

@@ -44,11 +44,14 @@ namespace dropfit::pipeline {
 
 // What is known about one clip before it is read.
 struct ClipRequest {
-  std::filesystem::path clip_path;         // video file or folder of numbered images
-  std::string clip_id;                     // for messages and result.json's "clip"
-  double mass_kg = 0.0;                    // dropped mass [kg], > 0
-  std::optional<double> drop_height_m;     // nominal drop height [m]
-  std::optional<double> free_radius_m;     // unloaded radius, hub to tread [m]
+  std::filesystem::path clip_path;      // video file or folder of numbered images
+  std::string clip_id;                  // for messages and result.json's "clip"
+  double mass_kg = 0.0;                 // dropped mass [kg], > 0
+  std::optional<double> drop_height_m;  // nominal drop height [m]
+  std::optional<double> free_radius_m;  // unloaded radius, hub to tread [m]
+  // Its standard uncertainty [m] (manifest free_radius_sd_m; default 0.5 mm, a tape or rule
+  // read by eye, from memory): with the rig's floor uncertainty, the onset height's prior.
+  double free_radius_sd_m = 0.0005;
   std::optional<double> tread_width_m;     // volumetric law: cylinder width [m]
   std::optional<double> section_radius_m;  // volumetric law: torus section radius [m] (wins)
   std::optional<double> fps_option;        // --fps (wins over everything)
@@ -124,7 +127,9 @@ struct ClipMeasurement {
   analysis::LawFitOptions fit_options;
   std::optional<analysis::LawComparison> laws;  // per-clip fits, when fitted
   std::vector<FitTrace> law_traces;             // one per laws->fits (empty for failed fits)
-  bool onset_refitted = false;                  // figures read again at the best law's onset
+  bool onset_refitted = false;
+  // The geometry's onset height and its sd when it entered the law fits as a prior.
+  std::optional<std::pair<double, double>> geometry_onset;  // figures read again at the best law's onset
   // The plane `series` is in: the offset given, the gravity ruler's when it was applied, or 0.
   MarkerOffset marker_offset;
   // The gravity ruler's estimate (at the final plane's flight windows), when it ran.

@@ -87,7 +87,10 @@ TEST_F(AnalyzeCommandTest, AReferenceClipGivesTheTrueFiguresWithinTheReferenceTo
   const ImpactRecord& r = result.impacts[0];
   const analysis::ImpactTruth& t = clip.impacts[0];
   ASSERT_TRUE(r.complete);
-  EXPECT_EQ(r.onset_height_source, "geometry");
+  // The geometry (floor + free radius) entered the law fits as a prior; the onset height is
+  // the best law's fitted one, near the truth's free radius (docs/formats.md, "geometry-prior").
+  EXPECT_EQ(r.onset_height_source, "geometry-prior");
+  EXPECT_NEAR(r.onset_height_m, 0.20, 0.5e-3);
   // The best law (lowest BIC) supplies the law-dependent figures (contract "Impact figures").
   ASSERT_TRUE(result.best_law.has_value());
   EXPECT_EQ(r.source, *result.best_law);

@@ -7,6 +7,8 @@
 
 #include <gtest/gtest.h>
 
+#include <cstdio>
+
 #include <cmath>
 
 #include "analysis/forward_model.h"
@@ -81,6 +83,36 @@ TEST(PipelineClip, WithoutAFloorTheBestLawsOnsetHeightIsUsedAndTheTrackIsSegment
   EXPECT_FALSE(m.fit_clip->known_onset_height_m);
   EXPECT_EQ(m.law_traces.size(), m.laws->fits.size());
   EXPECT_TRUE(m.track_force);
+}
+
+// With a floor and the law fits, the geometry's onset height is a prior of the floor's and the
+// free radius's uncertainty (docs/methods.md §13): a free radius entered 2 or 3 mm too large is
+// moved back by the bounces and the figures are read at the fitted height; beyond 3 standard
+// uncertainties (here 3 x 0.71 mm) a warning names the free radius and the floor; the right
+// radius gives none.
+TEST(PipelineClip, TheGeometrysOnsetHeightIsAPriorThatTheBouncesCanOverrule) {
+  const Drop drop = MakeDrop(0.25, 6);
+  MeasureOptions options;
+  options.fit_laws = true;
+  for (double error_m : {0.0, 2e-3, 3e-3}) {
+    ClipRequest request = Request(0.55);
+    request.free_radius_m = kOnsetM + error_m;
+    const ClipMeasurement m = MeasureClip(request, RigWithFloor(true), drop.series, kFps, options);
+    ASSERT_FALSE(m.kinematics.failure);
+    ASSERT_TRUE(m.geometry_onset);
+    EXPECT_NEAR(m.geometry_onset->second, std::hypot(0.0005, 0.0005), 1e-9);  // rig without uncertainty
+    ASSERT_TRUE(m.laws && m.laws->choice.best);
+    const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->choice.best)];
+    std::printf("free radius %+.1f mm off: fitted onset %.5f m (truth %.5f), source %s\n", 1e3 * error_m,
+                best.onset_height_m, kOnsetM,
+                analysis::ToString(m.kinematics.segmentation.onset_height_source).c_str());
+    EXPECT_NEAR(best.onset_height_m, kOnsetM, 0.2e-3);
+    EXPECT_EQ(m.kinematics.segmentation.onset_height_source, analysis::OnsetHeightSource::kGeometryPrior);
+    EXPECT_NEAR(m.kinematics.impacts.front().cor.value, drop.truth.impacts().front().cor, kCorTol);
+    bool warned = false;
+    for (const std::string& w : m.kinematics.warnings) warned = warned || w.find("free_radius_m") != std::string::npos;
+    EXPECT_EQ(warned, error_m > 2.5e-3);
+  }
 }
 
 TEST(PipelineClip, WithAFloorTheGeometryGivesTheOnsetHeightAndTheJointFitStartsFromIt) {
