@@ -59,7 +59,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
   if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(err, *message);
   tracker::TrackOptions track_options;
   calib::Rig rig;
-  if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
+  if (auto message =
+          StartSingleClip(options.marker, options.marker_at, options.rig_path, options.clip, track_options, rig))
     return BadUsage(err, *message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
@@ -109,7 +110,7 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
          << analysis::ToString(geometry_onset ? analysis::OnsetHeightSource::kGeometry
                                               : analysis::OnsetHeightSource::kFit);
     text << " marker=" << options.marker;
-    if (!options.seed.empty()) text << " seed=" << options.seed;
+    if (!options.marker_at.empty()) text << " marker_at=" << options.marker_at;
     text << " rig=" << options.rig_path;
     result.info.push_back({"clip_path", options.clip});
     result.info.push_back({"analyze_options", text.str()});

@@ -42,7 +42,7 @@ struct AnalyzeCommandOptions {
   std::optional<double> marker_offset_m;
   bool no_gravity_ruler = false;  // --no-gravity-ruler: no marker-plane estimate from the flights
   std::string marker = "auto";    // auto|quadrant|dot|template (tracker/marker_kind.h)
-  std::string seed;               // "U,V" [px] to pick one marker among several
+  std::string marker_at;          // --marker-at "U,V" [px]: the marker's centre in the first frames
   std::string out_dir;            // folder for result.json and track.csv
 };
 // A message naming the first bad option and its valid range, or nothing.

@@ -235,7 +235,7 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
   if (outcome.stopped == pipeline::ClipOutcome::Stop::kMarkerNeverFound) {
     result.errors.push_back(name +
                             ": the hub marker was not found on any frame; check the marker kind or its contrast "
-                            "(try `dropfit track --marker ... --seed U,V` on this clip)");
+                            "(try `dropfit track --marker ... --marker-at U,V` on this clip)");
     return out;
   }
   AddMeasurementToResult(request, *outcome.measurement, name, track, result);

@@ -170,6 +170,34 @@ std::string ParsePositive(const std::string& text, const NumberSpec& spec, doubl
   return {};
 }
 
+// A plausible range of a quantity given in SI units; a value outside it is most often a value
+// typed in millimetres or grams (the ranges: README "The clip folder", docs/formats.md).
+struct PlausibleRange {
+  double min = 0, max = 0;
+  const char* unit_short;  // "m", "kg"
+  const char* hint;        // what the typical slip is
+};
+
+// Parses like ParsePositive, then fails a value outside `range` with the hint.
+std::string ParseInRange(const std::string& text, const NumberSpec& spec, const PlausibleRange& range, double& value) {
+  std::string err = ParsePositive(text, spec, value);
+  if (!err.empty()) return err;
+  if (value < range.min || value > range.max) {
+    char buf[160];
+    std::snprintf(buf, sizeof buf, "'%s' is outside the plausible %g-%g %s; %s Give the ", text.c_str(), range.min,
+                  range.max, range.unit_short, range.hint);
+    return std::string(buf) + spec.what + " in " + spec.unit;
+  }
+  return {};
+}
+
+constexpr PlausibleRange kDropHeightRange{analysis::kMinDropHeightM, analysis::kMaxDropHeightM, "m",
+                                          analysis::kMillimetresHint};
+constexpr PlausibleRange kMassRange{analysis::kMinMassKg, analysis::kMaxMassKg, "kg",
+                                    "did you give millimetres? (or grams?)"};
+constexpr PlausibleRange kRadiusRange{analysis::kMinWheelLengthM, analysis::kMaxWheelLengthM, "m",
+                                      analysis::kMillimetresHint};
+
 // Parses a finite number of either sign whose magnitude is at most `max_abs`; returns an error
 // text (empty when fine).
 std::string ParseSigned(const std::string& text, const NumberSpec& spec, double max_abs, double& value) {
@@ -322,26 +350,36 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
                        const std::string& where) {
   auto get = [&](Column c) -> const std::string& { return f[header.index.at(c)]; };
   double value = 0;
-  std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
+  std::string err = ParseInRange(get(Column::kDropHeight), {"nominal drop height", "metres"}, kDropHeightRange, value);
   if (err.empty())
     row.drop_height_m = value;
   else
     Fail(row, where, "drop_height_m", err);
-  err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
+  err = ParseInRange(get(Column::kMass), {"dropped mass", "kilograms"}, kMassRange, value);
   if (err.empty())
     row.mass_kg = value;
   else
     Fail(row, where, "mass_kg", err);
-  const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
-      {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
-      {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
-      {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
-      {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
-      {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}},
-  };
-  for (const auto& [column, name, target, spec] : optional_numbers) {
+  // The lengths of the wheel share one plausible range (a hint for values given in millimetres).
+  const std::tuple<Column, const char*, std::optional<double>*, NumberSpec, const PlausibleRange*> optional_numbers[] =
+      {
+          {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}, nullptr},
+          {Column::kFreeRadius,
+           "free_radius_m",
+           &row.free_radius_m,
+           {"unloaded radius (hub to tread)", "metres"},
+           &kRadiusRange},
+          {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}, &kRadiusRange},
+          {Column::kSectionRadius,
+           "section_radius_m",
+           &row.section_radius_m,
+           {"tyre section radius", "metres"},
+           &kRadiusRange},
+          {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}, nullptr},
+      };
+  for (const auto& [column, name, target, spec, range] : optional_numbers) {
     if (!header.index.count(column) || get(column).empty()) continue;
-    err = ParsePositive(get(column), spec, value);
+    err = range ? ParseInRange(get(column), spec, *range, value) : ParsePositive(get(column), spec, value);
     if (err.empty())
       *target = value;
     else

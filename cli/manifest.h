@@ -21,6 +21,8 @@
 #include <string_view>
 #include <vector>
 
+#include "analysis/plausible_ranges.h"
+
 namespace dropfit::cli {
 
 class ManifestStructureError : public std::runtime_error {
@@ -32,6 +34,8 @@ class ManifestStructureError : public std::runtime_error {
 // tyre's mid-plane; a metre is a typing error).
 inline constexpr double kMaxMarkerOffsetM = 1.0;
 
+// Plausible ranges of the row's numbers: analysis/plausible_ranges.h; a value
+// outside fails the row with the hint "did you give millimetres?".
 struct ManifestRow {
   int line = 0;                            // 1-based line of the row in the file
   std::string clip;                        // as written: a video file or a folder of numbered images

@@ -23,7 +23,7 @@ void AddAnalyzeCommand(CLI::App& app, CommandAction& action) {
   AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   AddGravityRulerFlag(sub, &opts->no_gravity_ruler);
   sub->add_option("--marker", opts->marker, "Hub marker kind: auto|quadrant|dot|template (default auto)");
-  sub->add_option("--seed", opts->seed, "U,V [px]: pick the marker nearest this point in the first frames");
+  AddMarkerAtOption(sub, &opts->marker_at);
   sub->add_option("-o,--output", opts->out_dir, "Output folder for result.json and track.csv")->required();
   sub->footer(
       "Exit status: 0 done (warnings allowed), 1 the clip could not be analysed (reason in result.json and on\n"

@@ -25,7 +25,7 @@ void AddPhysicsOptions(CLI::App* sub, RenderCommandOptions* o) {
   sub->add_option("--mass", o->mass_kg, "Dropped mass [kg], (0, 1e4]")->capture_default_str()->group(physics);
   sub->add_option("--heights", o->heights_m,
                   "Drop heights [m]: tyre's lowest point above the floor at release; one clip set per "
-                  "height, comma-separated or repeated, each (0, 5]")
+                  "height, comma-separated or repeated, each 0.005..5")
       ->delimiter(',')
       ->capture_default_str()
       ->group(physics);
@@ -168,7 +168,7 @@ void AddOutputOptions(CLI::App* sub, RenderCommandOptions* o) {
       ->group(output);
   sub->add_flag("!--no-calibration", o->calibration, "Do not write the checkerboard images in calib/")->group(output);
   sub->add_option("--board", o->board, "Checkerboard inner corners COLUMNSxROWS")->capture_default_str()->group(output);
-  sub->add_option("--square", o->square_m, "Checkerboard square [m]")->capture_default_str()->group(output);
+  sub->add_option("--square", o->square_m, "Checkerboard square [m], 0.002..0.3")->capture_default_str()->group(output);
   sub->add_option("--lens-views", o->lens_views, "Tilted checkerboard views for the lens model, 1..12")
       ->capture_default_str()
       ->group(output);

@@ -17,9 +17,9 @@ void AddTrackCommand(CLI::App& app, CommandAction& action) {
   AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   sub->add_option("--marker", opts->marker,
                   "Marker kind: auto (detect; quadrant discs first), quadrant (disc of black and white quarters), "
-                  "dot (plain dot, bright or dark), template (any textured patch; needs --seed)")
+                  "dot (plain dot, bright or dark), template (any textured patch; needs --marker-at)")
       ->default_val("auto");
-  sub->add_option("--seed", opts->seed, "Marker centre U,V [px] in the first frame, to pick one among several");
+  AddMarkerAtOption(sub, &opts->marker_at);
   sub->add_option("--overlay", opts->overlay_path,
                   "Also write a video (.avi, .mp4, .mov, .mkv) showing the found centre, search window and trail");
   sub->add_option("-o,--output", opts->out_dir, "Output folder for track.csv and result.json")->required();
