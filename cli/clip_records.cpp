@@ -99,6 +99,9 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.fps_manifest = row.capture_fps;
   r.marker_offset_manifest_m = row.marker_offset_m;
   r.gravity_mps2 = row.gravity_mps2;
+  // The manifest reader checked the kind against kManifestMarkerKinds.
+  r.marker = tracker::MarkerKindFromString(row.marker.empty() ? "auto" : row.marker);
+  if (row.marker_u_px && row.marker_v_px) r.seed_px = cv::Point2d(*row.marker_u_px, *row.marker_v_px);
   return r;
 }
 

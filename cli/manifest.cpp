@@ -133,7 +133,10 @@ enum class Column {
   kTreadWidth,
   kSectionRadius,
   kMarkerOffset,
-  kGravity
+  kGravity,
+  kMarker,
+  kMarkerU,
+  kMarkerV
 };
 
 const std::vector<std::pair<std::string, Column>>& KnownColumns() {
@@ -148,6 +151,9 @@ const std::vector<std::pair<std::string, Column>>& KnownColumns() {
       {"section_radius_m", Column::kSectionRadius},
       {"marker_offset_m", Column::kMarkerOffset},
       {"gravity_mps2", Column::kGravity},
+      {"marker", Column::kMarker},
+      {"marker_u_px", Column::kMarkerU},
+      {"marker_v_px", Column::kMarkerV},
   };
   return columns;
 }
@@ -398,6 +404,54 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
   }
 }
 
+// The marker columns: its kind (one of kManifestMarkerKinds) and its start point (both or none).
+void ReadMarkerColumns(ManifestRow& row, const std::vector<std::string>& f, const Header& header,
+                       const std::string& where) {
+  const auto field = [&](Column c) -> std::string {
+    const auto it = header.index.find(c);
+    return it == header.index.end() ? std::string() : f[it->second];
+  };
+  const std::string kind = field(Column::kMarker);
+  if (!kind.empty()) {
+    std::string valid;
+    bool known = false;
+    for (const char* k : kManifestMarkerKinds) {
+      valid += (valid.empty() ? "" : ", ") + std::string(k);
+      known |= kind == k;
+    }
+    if (known) {
+      row.marker = kind;
+    } else {
+      Fail(row, where, "marker", "'" + kind + "' is not a marker kind; valid: " + valid + " (or leave it empty)");
+    }
+  }
+  const std::pair<Column, const char*> coords[] = {{Column::kMarkerU, "marker_u_px"},
+                                                   {Column::kMarkerV, "marker_v_px"}};
+  std::optional<double>* targets[] = {&row.marker_u_px, &row.marker_v_px};
+  for (int i = 0; i < 2; ++i) {
+    const std::string text = field(coords[i].first);
+    if (text.empty()) continue;
+    double value = 0;
+    const char* end = text.data() + text.size();
+    auto [ptr, ec] = std::from_chars(text.data(), end, value);
+    if (ec != std::errc() || ptr != end || !std::isfinite(value) || value < 0) {
+      Fail(row, where, coords[i].second,
+           "'" + text +
+               "' is not a pixel coordinate (a number >= 0); give the marker's centre in the first frames "
+               "in pixels (or leave it empty)");
+    } else {
+      *targets[i] = value;
+    }
+  }
+  if (row.marker_u_px.has_value() != row.marker_v_px.has_value()) {
+    Fail(row, where, row.marker_u_px ? "marker_v_px" : "marker_u_px",
+         "is empty but its partner is given; give both marker_u_px and marker_v_px, or neither");
+  } else if (row.marker == "template" && !row.marker_u_px) {
+    Fail(row, where, "marker",
+         "'template' needs the patch to follow: give marker_u_px and marker_v_px (its centre in the first frames)");
+  }
+}
+
 // A row with as many fields as the header.
 ManifestRow ReadFullRow(const CsvRecord& record, const Header& header, const std::filesystem::path& folder,
                         const std::string& display_name, bool check_files) {
@@ -406,6 +460,7 @@ ManifestRow ReadFullRow(const CsvRecord& record, const Header& header, const std
   const std::string where = Where(display_name, row.line);
   ReadClipColumn(row, record.fields[header.index.at(Column::kClip)], folder, check_files, where);
   ReadNumberColumns(row, record.fields, header, where);
+  ReadMarkerColumns(row, record.fields, header, where);
   const auto specimen = header.index.find(Column::kSpecimen);
   if (specimen != header.index.end()) row.specimen = record.fields[specimen->second];
   return row;

@@ -15,10 +15,16 @@ void AddMarkerAtOption(CLI::App* sub, std::string* marker_at) {
                   "U,V [px]: the hub marker's centre in the first frames, to pick it among several (and the patch "
                   "a template marker follows)");
   // The old name of --marker-at; `dropfit render` keeps --seed for its random seed.
-  sub->add_option("--seed")->group("")->check([](const std::string&) {
-    return std::string(
-        "the marker's start point is now --marker-at U,V (--seed is the random seed of `dropfit render` only)");
-  });
+  static std::string old_seed;  // never read: giving --seed fails the parse with the new name
+  // (A hidden option is named "" in CLI11's messages, so it stays listed, in a group of its own.)
+  sub->add_option("--seed", old_seed, "Renamed: the marker's start point is --marker-at U,V")
+      ->group("Renamed")
+      ->check(CLI::Validator(
+          [](std::string&) {
+            return std::string(
+                "the marker's start point is now --marker-at U,V (--seed is the random seed of `dropfit render` only)");
+          },
+          "", "renamed"));
 }
 
 void AddGravityRulerFlag(CLI::App* sub, bool* off) {

@@ -26,8 +26,8 @@ void AddTrackCommand(CLI::App& app, CommandAction& action) {
   sub->footer(
       "Exit status: 0 tracked; 1 tracked in part or not at all (reasons in result.json and on stderr);\n"
       "2 bad usage or unusable input (nothing written).\n"
-      "Example:\n  dropfit track clips/drop_0400_a.avi --rig rig.json --fps 2000 -o out/drop_0400_a "
-      "--overlay out/drop_0400_a/overlay.avi\n");
+      "Example (on the demo clips in the source tree):\n  dropfit track demo_clips/drop_h150mm_r1.mp4 --rig "
+      "demo_clips/rig_exact.json -o out/h150_r1 --overlay out/h150_r1/overlay.avi\n");
   sub->callback([opts, &action] { action = [opts] { return RunTrack(*opts); }; });
 }
 
