@@ -25,7 +25,8 @@ std::string Trim(std::string_view s) {
   return std::string(s.substr(b, e - b));
 }
 
-// Splits CSV text into records (RFC 4180 quoting; CR before LF dropped).
+// Splits CSV text into records (quoting of "Common Format and MIME Type for Comma-Separated Values
+// (CSV) Files", RFC 4180; CR before LF dropped).
 std::vector<CsvRecord> SplitRecords(std::string_view text, const std::string& display_name) {
   std::vector<CsvRecord> records;
   size_t i = 0;
