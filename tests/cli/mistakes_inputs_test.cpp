@@ -308,6 +308,7 @@ AnalyzeCommandOptions AnalyzeOptions(const fs::path& out) {
   o.mass_kg = 5.0;  // the renderer's default mass
   o.drop_height_m = c.truth.clips.at(0).drop_height_m;
   o.free_radius_m = 0.20;  // the renderer's default free radius
+  o.fps = 1000.0;          // PNG frames hold no rate
   o.out_dir = out.string();
   return o;
 }
@@ -396,6 +397,7 @@ TEST(MistakesInputs, TwelveBitDataInSixteenBitTiffIsScaledByItsBitsAndTracked) {
     TrackCommandOptions o;
     o.clip = clip.string();
     o.rig_path = c.rig.string();
+    o.fps = 1000.0;  // image folders hold no rate
     o.out_dir = out_dir.string();
     std::ostringstream out, err;
     EXPECT_EQ(RunTrack(o, out, err), kExitDone) << err.str();
@@ -416,7 +418,7 @@ TEST(MistakesInputs, TwelveBitDataInSixteenBitTiffIsScaledByItsBitsAndTracked) {
 // 3.4 px per frame: the far match is left empty with its reason; without the limit it is taken
 // (the check can fail).
 TEST(MistakesInputs, ATemplateMatchFartherThanFreeFallAllowsIsLeftEmptyWithItsReason) {
-  constexpr int kFrames = 40, kSwap = 20;
+  constexpr int kFrames = 60, kSwap = 20;
   constexpr double kFps = 1000, kMetresPerPx = 1e-3, kDropHeightM = 0.1;
   std::mt19937 rng(18);
   cv::Mat patch(25, 25, CV_8U);
@@ -441,13 +443,18 @@ TEST(MistakesInputs, ATemplateMatchFartherThanFreeFallAllowsIsLeftEmptyWithItsRe
   // sqrt(2 g (h + 0.5 m)) / fps / scale (free fall from rest; any mechanics text).
   EXPECT_NEAR(step_px, std::sqrt(2 * 9.80665 * 0.6) / kFps / kMetresPerPx, 1e-12);
   const tracker::Track ungated = run(std::nullopt);
-  ASSERT_TRUE(ungated.samples.at(kSwap + 2).found) << "the look-alike is not matched: the case tests nothing";
+  int relocked = -1;  // the first frame the look-alike is taken without the limit
+  for (int k = kSwap; k < kFrames && relocked < 0; ++k) {
+    if (ungated.samples.at(k).found) relocked = k;
+  }
+  ASSERT_GE(relocked, kSwap) << "the look-alike is not matched: the case tests nothing";
+  EXPECT_GT(ungated.samples.at(relocked).centre_px.x, 250.0);
   const tracker::Track gated = run(step_px);
   EXPECT_TRUE(gated.samples.at(kSwap - 1).found);
   for (int k = kSwap; k < kFrames; ++k) EXPECT_FALSE(gated.samples.at(k).found) << "frame " << k;
   ASSERT_FALSE(gated.left_empty.empty());
-  EXPECT_EQ(gated.left_empty.front().frame, kSwap);
-  EXPECT_TRUE(Has(gated.left_empty.front().reason, "px a free fall from the drop height + 0.5 m allows in 1 frame"))
+  EXPECT_EQ(gated.left_empty.front().frame, relocked);
+  EXPECT_TRUE(Has(gated.left_empty.front().reason, "px a free fall from the drop height + 0.5 m allows in "))
       << gated.left_empty.front().reason;
   EXPECT_TRUE(AnyHas(gated.warnings, "template matches not taken on"));
 }
