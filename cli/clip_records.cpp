@@ -236,9 +236,11 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
     return out;
   }
   if (outcome.stopped == pipeline::ClipOutcome::Stop::kMarkerNeverFound) {
-    result.errors.push_back(name +
-                            ": the hub marker was not found on any frame; check the marker kind or its contrast "
-                            "(try `dropfit track --marker ... --marker-at U,V` on this clip)");
+    result.errors.push_back(
+        name +
+        ": the hub marker was not found on any frame; check the marker kind or its contrast "
+        "(try `dropfit track --marker ... --marker-at U,V` on this clip; in a folder run, the manifest's "
+        "marker, marker_u_px and marker_v_px columns)");
     return out;
   }
   AddMeasurementToResult(request, *outcome.measurement, name, track, result);
