@@ -158,9 +158,11 @@ TreadGeometry MakeTreadGeometry(double free_radius_m, double tread_width_m, doub
     geometry.shape = TreadShape::kCylinder;
     geometry.tread_width_m = 1.0;
     note += "no tread width or section radius given; assumed a cylinder of unit width (1 m)";
+    geometry.unknown = "no tread width or section radius given";
   }
   if (assumed_radius) {
     note += "; free radius unknown, assumed 1 m (kv then depends on this assumption)";
+    geometry.unknown += std::string(geometry.unknown.empty() ? "" : ", ") + "no free radius given";
   } else {
     std::ostringstream text;
     text << "; free radius " << geometry.free_radius_m << " m";

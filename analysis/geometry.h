@@ -67,6 +67,9 @@ struct TreadGeometry {
   double section_radius_m = 0.0;
   std::string note;
   std::shared_ptr<const TorusVolumeTable> torus_table;
+  // Why the geometry is not the specimen's (MakeTreadGeometry assumed the width or the radius);
+  // empty when known. The volumetric law is then not fitted nor ranked (analysis/law_fit.h).
+  std::string unknown;
 };
 
 // Fills geometry.torus_table for a torus tread (no-op for a cylinder). Call again after

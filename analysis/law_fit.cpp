@@ -1123,6 +1123,14 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
     return result;
   }
 
+  // The volumetric law's stiffness is per volume of the tread pressed in: with the tread
+  // assumed, its parameters and rank would describe the assumption, not the specimen.
+  if (law == LawId::kVolumetric && !options.tread.unknown.empty()) {
+    result.failure = "not fitted nor ranked: the tread geometry is unknown (" + options.tread.unknown +
+                     "); give tread_width_m or section_radius_m and free_radius_m (manifest), or --tread-width or "
+                     "--section-radius and --free-radius (analyze)";
+    return result;
+  }
   const std::vector<WindowRef> windows = CollectWindows(clips, &result.bounces);
   if (windows.empty()) {
     result.failure = "no complete bounce with samples to fit";

@@ -61,7 +61,9 @@
 // than it is.
 //
 // Failure is data: a fit that does not converge has converged = false; a fit that cannot
-// start (no complete bounce, no impact speed) has `failure` set. A parameter on one of its
+// start (no complete bounce, no impact speed) has `failure` set, and so has the volumetric law
+// when the tread geometry is unknown (TreadGeometry::unknown): it is then listed with that
+// reason and never ranked (a failed fit ranks last and is never the best law). A parameter on one of its
 // bounds is named in `bounds_reached` (its SD then holds on the bound's other side only).
 // Degenerate data (a single bounce with the onset height fitted, few samples in contact,
 // noise comparable with the deflection, a parameter with a relative SD above 50 %) add

@@ -79,8 +79,100 @@ bool FindCorners(const cv::Mat& grey, const BoardSpec& b, std::vector<cv::Point2
   return cv::findChessboardCornersSB(grey, cv::Size(b.columns, b.rows), corners, cv::CALIB_CB_NORMALIZE_IMAGE);
 }
 
-// Looks for a board of a nearby size (the user may have counted squares, or swapped nothing but
-// miscounted) in the first few images, so the "no board" message can name the right --board.
+// How strongly `p` looks like a checkerboard X-corner whose neighbouring corners lie `a` and `b`
+// away (the grid steps along a row and along a column) in `smooth` (float, blurred): the four
+// squares around an X-corner alternate dark and light, so the samples at p + (+-a +-b)/2 pair up
+// along the diagonals. The contrast between the diagonals, less the spread within each
+// diagonal; about the square contrast at a corner, below 0 at the board's outer edge (two of the
+// four samples fall on the white border). Common practice, no source. NaN when a sample is
+// outside the image.
+double XCornerResponse(const cv::Mat& smooth, cv::Point2d p, cv::Point2d a, cv::Point2d b, bool less_spread = true) {
+  const auto at = [&smooth](cv::Point2d q) {
+    if (!(q.x >= 1 && q.y >= 1 && q.x < smooth.cols - 2 && q.y < smooth.rows - 2)) return std::nan("");
+    const int x0 = static_cast<int>(q.x), y0 = static_cast<int>(q.y);
+    const double fx = q.x - x0, fy = q.y - y0;
+    const auto v = [&smooth](int y, int x) { return static_cast<double>(smooth.at<float>(y, x)); };
+    return (1 - fy) * ((1 - fx) * v(y0, x0) + fx * v(y0, x0 + 1)) +
+           fy * ((1 - fx) * v(y0 + 1, x0) + fx * v(y0 + 1, x0 + 1));
+  };
+  const double i1 = at(p + 0.5 * (a + b)), i3 = at(p - 0.5 * (a + b));
+  const double i2 = at(p + 0.5 * (a - b)), i4 = at(p - 0.5 * (a - b));
+  const double between = std::abs(i1 + i3 - i2 - i4) / 2;
+  return less_spread ? between - std::abs(i1 - i3) - std::abs(i2 - i4) : between;
+}
+
+// At real X-corners the diagonals' spread is small beside their contrast: the median response
+// must keep at least this share of the median contrast (on rendered and demo boards it keeps
+// ~0.9; a sheared grid goes below 0). Common practice, no source.
+constexpr double kRealCornerFraction = 0.5;
+
+// True when the corners found for `b` cover the whole board in view: one grid step beyond each
+// of the four outer corner rows and columns there is no X-corner (a detection of part of a
+// larger board has more corners there). Half of a side's extrapolated points answering like
+// the found corners (at least half their median response) count as more board; points outside
+// the image count for nothing.
+bool DetectionCoversBoard(const cv::Mat& grey, const BoardSpec& b, const std::vector<cv::Point2f>& corners) {
+  cv::Mat smooth;
+  grey.convertTo(smooth, CV_32F);
+  const auto c = [&](int row, int col) { return cv::Point2d(corners[static_cast<size_t>(row * b.columns + col)]); };
+  const double step_px = cv::norm(c(0, 1) - c(0, 0));
+  const double sigma = std::max(0.5, 0.1 * step_px);
+  cv::GaussianBlur(smooth, smooth, cv::Size(), sigma);
+  std::vector<double> found, contrast;
+  for (int row = 0; row < b.rows; ++row) {
+    for (int col = 0; col < b.columns; ++col) {
+      const cv::Point2d a = col + 1 < b.columns ? c(row, col + 1) - c(row, col) : c(row, col) - c(row, col - 1);
+      const cv::Point2d d = row + 1 < b.rows ? c(row + 1, col) - c(row, col) : c(row, col) - c(row - 1, col);
+      const double r = XCornerResponse(smooth, c(row, col), a, d);
+      if (!std::isfinite(r)) continue;
+      found.push_back(r);
+      contrast.push_back(XCornerResponse(smooth, c(row, col), a, d, false));
+    }
+  }
+  if (found.empty()) return false;
+  // The found corners must be X-corners themselves: the detector also returns sheared grids
+  // through a board of another size (seen on the demo board: a "3x8" on a 6x9 board).
+  const double found_median = Median(found);
+  if (!(found_median > kRealCornerFraction * Median(contrast))) return false;
+  const double threshold = 0.5 * found_median;
+  // Each side: the outer corner line, the line next to it (giving the step outwards), and the
+  // step along the line.
+  struct Line {
+    cv::Point2d edge, inner, along;
+  };
+  const auto side_extends = [&](const std::vector<Line>& side) {
+    int inside = 0, corners_beyond = 0;
+    for (const Line& l : side) {
+      const cv::Point2d out = l.edge - l.inner;
+      const double r = XCornerResponse(smooth, l.edge + out, l.along, out);
+      if (!std::isfinite(r)) continue;
+      ++inside;
+      if (r > threshold) ++corners_beyond;
+    }
+    return inside > 0 && 2 * corners_beyond >= inside;
+  };
+  std::vector<Line> left, right, top, bottom;
+  for (int row = 0; row < b.rows; ++row) {
+    const cv::Point2d along = row + 1 < b.rows ? c(row + 1, 0) - c(row, 0) : c(row, 0) - c(row - 1, 0);
+    const cv::Point2d along_r = row + 1 < b.rows ? c(row + 1, b.columns - 1) - c(row, b.columns - 1)
+                                                 : c(row, b.columns - 1) - c(row - 1, b.columns - 1);
+    left.push_back({c(row, 0), c(row, 1), along});
+    right.push_back({c(row, b.columns - 1), c(row, b.columns - 2), along_r});
+  }
+  for (int col = 0; col < b.columns; ++col) {
+    const cv::Point2d along = col + 1 < b.columns ? c(0, col + 1) - c(0, col) : c(0, col) - c(0, col - 1);
+    const cv::Point2d along_b =
+        col + 1 < b.columns ? c(b.rows - 1, col + 1) - c(b.rows - 1, col) : c(b.rows - 1, col) - c(b.rows - 1, col - 1);
+    top.push_back({c(0, col), c(1, col), along});
+    bottom.push_back({c(b.rows - 1, col), c(b.rows - 2, col), along_b});
+  }
+  return !side_extends(left) && !side_extends(right) && !side_extends(top) && !side_extends(bottom);
+}
+
+// Looks for a board of a nearby size (the user may have counted squares, or miscounted) in the
+// first few images, so the "no board" message can name the right --board. Only a size whose
+// detection covers the whole board in view is named (DetectionCoversBoard): the detector also
+// finds parts of a larger board, and naming such a part would make a wrong rig.
 std::optional<std::pair<BoardSpec, std::string>> FindOtherBoardSize(const std::vector<const CalibrationImage*>& images,
                                                                     const BoardSpec& given) {
   std::vector<BoardSpec> sizes;
@@ -99,7 +191,7 @@ std::optional<std::pair<BoardSpec, std::string>> FindOtherBoardSize(const std::v
   for (size_t i = 0; i < std::min(kImagesTried, images.size()); ++i) {
     for (const BoardSpec& b : sizes) {
       std::vector<cv::Point2f> corners;
-      if (FindCorners(images[i]->grey, b, corners)) {
+      if (FindCorners(images[i]->grey, b, corners) && DetectionCoversBoard(images[i]->grey, b, corners)) {
         return std::make_pair(b, images[i]->name);
       }
     }
@@ -152,9 +244,12 @@ std::optional<std::string> ValidateCalibrateOptions(const CalibrateOptions& o) {
   if (o.board.columns < 3 || o.board.rows < 3) {
     return "board " + BoardSizeToString(o.board) + " is out of range (at least 3x3 inner corners)";
   }
-  if (!(std::isfinite(o.board.square_m) && o.board.square_m > 0)) return bad("square_m", o.board.square_m, "> 0 m");
-  if (o.corner_height_m && !(std::isfinite(*o.corner_height_m) && *o.corner_height_m >= 0)) {
-    return bad("corner_height_m", *o.corner_height_m, ">= 0 m");
+  if (!(std::isfinite(o.board.square_m) && o.board.square_m >= kMinSquareM && o.board.square_m <= kMaxSquareM)) {
+    return bad("square_m", o.board.square_m, Num(kMinSquareM) + ".." + Num(kMaxSquareM) + " m; " + kRigMillimetresHint);
+  }
+  if (o.corner_height_m &&
+      !(std::isfinite(*o.corner_height_m) && *o.corner_height_m >= 0 && *o.corner_height_m <= kMaxCornerHeightM)) {
+    return bad("corner_height_m", *o.corner_height_m, "0.." + Num(kMaxCornerHeightM) + " m; " + kRigMillimetresHint);
   }
   if (!(std::isfinite(o.corner_height_sd_m) && o.corner_height_sd_m >= 0 && o.corner_height_sd_m <= 1)) {
     return bad("corner_height_sd_m", o.corner_height_sd_m, "0..1 m");
@@ -783,6 +878,21 @@ StepReport JudgeDetections(const ViewDetections& found, const std::vector<Calibr
     report.refusal =
         "no checkerboard with " + board_text + " inner corners was found in the plane view " + plane.name +
         ": the plane view must show the whole board, with its white border, lying in the drop plane; retake it";
+    return report;
+  }
+  // A --board smaller than the board in view is found as a part of it (or as a sheared grid
+  // through it) and would make a rig that looks fine but is wrong: refused, naming a size that
+  // covers the board when one nearby does.
+  if (!DetectionCoversBoard(plane.grey, options.board, found.plane.corners_px)) {
+    const std::string msg = "the " + board_text + " inner corners found in the plane view " + plane.name +
+                            " are not the whole checkerboard in view (more corners continue beyond them)";
+    if (const auto other = FindOtherBoardSize({&plane}, options.board)) {
+      report.refusal = msg + ": pass --board " + BoardSizeToString(other->first) + " (inner corners, not squares)";
+    } else {
+      report.refusal = msg +
+                       "; count all inner corners of the board (a board of 10 x 7 squares has 9x6) and pass "
+                       "that as --board";
+    }
     return report;
   }
   if (found.plane.blur_px > options.max_blur_px) {

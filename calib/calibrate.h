@@ -34,8 +34,12 @@
 //    Pose (plane_rvec_rad, plane_tvec_m): cv::solvePnP of the plane view with the lens, in the
 //    frame where plane point (x_m, y_m) is (x_m, -y_m, 0) (X right, Y down, Z away from camera).
 //    With only the plane view there is no lens model: the homography maps pixels as measured.
-// 4. Gates: refused (returned as data with the reason and what to do) when no board is found,
-//    the plane view shows none, too few views remain, or the overall RMS reprojection error is
+// 4. Gates: refused (returned as data with the reason and what to do) when no board is found
+//    (naming a nearby --board only when its detection covers the whole board in view: one grid
+//    step beyond every outer corner row and column there is no X-corner, and the corners found
+//    are X-corners themselves; the detector also finds parts of a larger board and sheared grids
+//    through it), when the plane view's corners are only part of the board in view (a --board
+//    too small), when the plane view shows none, too few views remain, or the overall RMS reprojection error is
 //    above `max_rms_px`; the last two pass with `force` (and a warning). Warnings: RMS above
 //    `warn_rms_px`, a small board, lens views covering little of the frame, little tilt variety
 //    (parallel views leave focal length and distortion confounded: Zhang 2000, section 3.3).

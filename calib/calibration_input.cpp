@@ -12,8 +12,12 @@ namespace fs = std::filesystem;
 
 namespace {
 
-CalibrationImage ReadImage(const fs::path& path, const std::string& role) {
-  return {path.string(), media::ReadGreyImage(path, role)};
+// Reads one still; a note on 16-bit data's scaling goes to `notes`.
+CalibrationImage ReadImage(const fs::path& path, const std::string& role, std::vector<std::string>& notes) {
+  std::string note;
+  CalibrationImage image{path.string(), media::ReadGreyImage(path, role, &note)};
+  if (!note.empty()) notes.push_back(note);
+  return image;
 }
 
 }  // namespace
@@ -70,7 +74,7 @@ CalibrationInputs LoadCalibrationInputs(const std::vector<std::string>& inputs, 
                                " does not exist; --plane must name an image file of the board lying in the drop plane");
     }
   }
-  out.plane = ReadImage(plane_path, "the plane view");
+  out.plane = ReadImage(plane_path, "the plane view", out.notes);
   out.hashes.emplace_back(plane_path, media::Fnv1a64HexOfFile(plane_path));
   std::error_code ec;
   const fs::path plane_canonical = fs::weakly_canonical(plane_path, ec);
@@ -80,7 +84,7 @@ CalibrationInputs LoadCalibrationInputs(const std::vector<std::string>& inputs, 
   };
   const auto add_image = [&](const fs::path& p) {
     if (is_plane(p)) return;
-    out.views.push_back(ReadImage(p, "image"));
+    out.views.push_back(ReadImage(p, "image", out.notes));
     out.hashes.emplace_back(p.string(), media::Fnv1a64HexOfFile(p));
   };
   for (const std::string& input : inputs) {

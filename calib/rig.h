@@ -66,6 +66,14 @@ struct BoardSpec {
   int rows = 6;             // inner corners per column, >= 3
   double square_m = 0.025;  // side of one square [m], > 0
 };
+// Plausible lengths a user types in metres for a rig (README "dropfit calibrate"); a value outside
+// was most often typed in millimetres, and `dropfit calibrate` and `dropfit render` refuse it with
+// kRigMillimetresHint. Common practice, no source: printed boards have squares of a few mm to a
+// few dm, and a camera aimed at a drop sees the board within a few metres of the floor.
+inline constexpr double kMinSquareM = 0.002, kMaxSquareM = 0.3;  // checkerboard square side
+inline constexpr double kMaxCornerHeightM = 3.0;                 // lowest corner row above the floor
+inline constexpr const char* kRigMillimetresHint = "did you give millimetres?";
+
 // "9x6" <-> BoardSpec{9, 6}. Throws std::invalid_argument naming the text and the expected form.
 BoardSpec BoardSizeFromString(const std::string& text, double square_m);
 std::string BoardSizeToString(const BoardSpec& board);

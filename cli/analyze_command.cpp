@@ -6,7 +6,9 @@
 #include <iostream>
 #include <sstream>
 #include <stdexcept>
+#include <tuple>
 
+#include "analysis/plausible_ranges.h"
 #include "calib/rig.h"
 #include "cli/clip_records.h"
 #include "cli/exit_status.h"
@@ -37,14 +39,31 @@ std::string PositiveRangeMessage(const std::string& option, double value, double
 
 }  // namespace
 
+// "--drop-height 150 is outside the plausible 0.005-5 m; did you give millimetres? ..."
+std::string PlausibleRangeMessage(const std::string& option, double value, double min, double max,
+                                  const std::string& unit, const std::string& what) {
+  return option + " " + Num(value) + " is outside the plausible " + Num(min) + "-" + Num(max) + " " + unit + "; " +
+         analysis::kMillimetresHint + " Give the " + what + " in " + (unit == "kg" ? "kilograms" : "metres");
+}
+
 std::optional<std::string> ValidateAnalyzeOptions(const AnalyzeCommandOptions& o) {
   auto in_range = [](double v, double max) { return std::isfinite(v) && v > 0.0 && v <= max; };
-  if (!in_range(o.mass_kg, 1e4)) return PositiveRangeMessage("--mass", o.mass_kg, 1e4, "kg: give the dropped mass");
+  auto plausible = [](double v, double min, double max) { return std::isfinite(v) && v >= min && v <= max; };
+  using namespace analysis;
+  if (!plausible(o.mass_kg, kMinMassKg, kMaxMassKg))
+    return PlausibleRangeMessage("--mass", o.mass_kg, kMinMassKg, kMaxMassKg, "kg", "dropped mass");
   if (o.fps && !in_range(*o.fps, 1e7)) return PositiveRangeMessage("--fps", *o.fps, 1e7, "frames/s");
-  if (o.drop_height_m && !in_range(*o.drop_height_m, 100.0))
-    return PositiveRangeMessage("--drop-height", *o.drop_height_m, 100.0, "m");
-  if (o.free_radius_m && !in_range(*o.free_radius_m, 10.0))
-    return PositiveRangeMessage("--free-radius", *o.free_radius_m, 10.0, "m");
+  if (o.drop_height_m && !plausible(*o.drop_height_m, kMinDropHeightM, kMaxDropHeightM))
+    return PlausibleRangeMessage("--drop-height", *o.drop_height_m, kMinDropHeightM, kMaxDropHeightM, "m",
+                                 "nominal drop height");
+  const std::tuple<const char*, const std::optional<double>&, const char*> lengths[] = {
+      {"--free-radius", o.free_radius_m, "unloaded radius"},
+      {"--tread-width", o.tread_width_m, "tread width"},
+      {"--section-radius", o.section_radius_m, "tyre section radius"}};
+  for (const auto& [option, value, what] : lengths) {
+    if (value && !plausible(*value, kMinWheelLengthM, kMaxWheelLengthM))
+      return PlausibleRangeMessage(option, *value, kMinWheelLengthM, kMaxWheelLengthM, "m", what);
+  }
   if (o.gravity_mps2 && !in_range(*o.gravity_mps2, 100.0))
     return PositiveRangeMessage("--gravity", *o.gravity_mps2, 100.0, "m/s^2 (standard gravity is 9.80665)");
   if (o.marker_offset_m && !(std::isfinite(*o.marker_offset_m) && std::abs(*o.marker_offset_m) <= kMaxMarkerOffsetM))
@@ -59,7 +78,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
   if (auto message = ValidateAnalyzeOptions(options)) return BadUsage(err, *message);
   tracker::TrackOptions track_options;
   calib::Rig rig;
-  if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
+  if (auto message =
+          StartSingleClip(options.marker, options.marker_at, options.rig_path, options.clip, track_options, rig))
     return BadUsage(err, *message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
@@ -71,6 +91,8 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
   request.mass_kg = options.mass_kg;
   request.drop_height_m = options.drop_height_m;
   request.free_radius_m = options.free_radius_m;
+  request.tread_width_m = options.tread_width_m;
+  request.section_radius_m = options.section_radius_m;
   request.fps_option = options.fps;
   request.gravity_mps2 = options.gravity_mps2;
   request.marker_offset_option_m = options.marker_offset_m;
@@ -103,13 +125,15 @@ int RunAnalyze(const AnalyzeCommandOptions& options, std::ostream& out, std::ost
     text << " gravity_mps2=" << Num(gravity) << (options.gravity_mps2 ? " (option)" : " (standard)");
     if (options.drop_height_m) text << " drop_height_m=" << Num(*options.drop_height_m);
     if (options.free_radius_m) text << " free_radius_m=" << Num(*options.free_radius_m);
+    if (options.tread_width_m) text << " tread_width_m=" << Num(*options.tread_width_m);
+    if (options.section_radius_m) text << " section_radius_m=" << Num(*options.section_radius_m);
     if (options.marker_offset_m) text << " marker_offset_m=" << Num(*options.marker_offset_m);
     if (options.no_gravity_ruler) text << " gravity_ruler=off";
     text << " onset_height="
          << analysis::ToString(geometry_onset ? analysis::OnsetHeightSource::kGeometry
                                               : analysis::OnsetHeightSource::kFit);
     text << " marker=" << options.marker;
-    if (!options.seed.empty()) text << " seed=" << options.seed;
+    if (!options.marker_at.empty()) text << " marker_at=" << options.marker_at;
     text << " rig=" << options.rig_path;
     result.info.push_back({"clip_path", options.clip});
     result.info.push_back({"analyze_options", text.str()});

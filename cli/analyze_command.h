@@ -31,18 +31,22 @@ namespace dropfit::cli {
 struct AnalyzeCommandOptions {
   std::string clip;                     // video file or folder of numbered images
   std::string rig_path;                 // rig.json from `dropfit calibrate`
-  double mass_kg = 0.0;                 // dropped mass [kg]; (0, 1e4]
+  double mass_kg = 0.0;                 // dropped mass [kg]; 0.01..2000 (analysis/plausible_ranges.h)
   std::optional<double> fps;            // true capture rate [frames/s]; > 0; overrides rig and container
-  std::optional<double> drop_height_m;  // nominal drop height [m]; (0, 100]; for the drop-height check
-  std::optional<double> free_radius_m;  // unloaded radius, hub to tread [m]; (0, 10]
-  std::optional<double> gravity_mps2;   // local gravity [m/s^2]; (0, 100]; default standard
-                                        // gravity 9.80665 (3rd CGPM, 1901)
+  std::optional<double> drop_height_m;  // nominal drop height [m]; 0.005..5; for the drop-height check
+  std::optional<double> free_radius_m;  // unloaded radius, hub to tread [m]; 0.005..1.5
+  // The tread for the volumetric law (analysis/geometry.h): a cylinder of this width, or a torus
+  // of this section radius (wins) [m]; 0.005..1.5. Without either the volumetric law is not ranked.
+  std::optional<double> tread_width_m;
+  std::optional<double> section_radius_m;
+  std::optional<double> gravity_mps2;  // local gravity [m/s^2]; (0, 100]; default standard
+                                       // gravity 9.80665 (3rd CGPM, 1901)
   // Offset of the marker's plane from the calibrated plane, toward the camera positive [m];
   // |value| <= kMaxMarkerOffsetM (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).
   std::optional<double> marker_offset_m;
   bool no_gravity_ruler = false;  // --no-gravity-ruler: no marker-plane estimate from the flights
   std::string marker = "auto";    // auto|quadrant|dot|template (tracker/marker_kind.h)
-  std::string seed;               // "U,V" [px] to pick one marker among several
+  std::string marker_at;          // --marker-at "U,V" [px]: the marker's centre in the first frames
   std::string out_dir;            // folder for result.json and track.csv
 };
 // A message naming the first bad option and its valid range, or nothing.

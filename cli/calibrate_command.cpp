@@ -67,6 +67,13 @@ void PrintSummary(const calib::Rig& rig, const std::string& path, std::ostream& 
   }
 }
 
+// A number as the user would type it ("35", "0.035").
+std::string Num(double v) {
+  std::ostringstream s;
+  s << v;
+  return s.str();
+}
+
 }  // namespace
 
 int RunCalibrate(const CalibrateCommandOptions& options, std::ostream& out, std::ostream& err) {
@@ -74,9 +81,28 @@ int RunCalibrate(const CalibrateCommandOptions& options, std::ostream& out, std:
     err << "dropfit calibrate: " << msg << "; nothing was written\n";
     return kExitBadUsage;
   };
+  // Required, no silent default: a wrong board size or square size makes a rig that looks fine.
+  if (options.board.empty()) {
+    return fail(
+        "--board is required: give the board's inner corners, columns x rows (a board of 10 x 7 squares has 9x6 "
+        "inner corners)");
+  }
+  if (!options.square_m) {
+    return fail("--square is required: give the side of one square in metres (e.g. --square 0.025 for 25 mm)");
+  }
+  if (!(*options.square_m >= calib::kMinSquareM && *options.square_m <= calib::kMaxSquareM)) {
+    return fail("--square " + Num(*options.square_m) + " is outside the plausible " + Num(calib::kMinSquareM) + "-" +
+                Num(calib::kMaxSquareM) + " m; " + calib::kRigMillimetresHint + " Give it in metres (e.g. --square " +
+                Num(*options.square_m / 1000) + ")");
+  }
+  if (options.corner_height_m && *options.corner_height_m > calib::kMaxCornerHeightM) {
+    return fail("--corner-height " + Num(*options.corner_height_m) + " is above the plausible " +
+                Num(calib::kMaxCornerHeightM) + " m; " + calib::kRigMillimetresHint +
+                " Give it in metres (e.g. --corner-height " + Num(*options.corner_height_m / 1000) + ")");
+  }
   calib::CalibrateOptions opts;
   try {
-    opts.board = calib::BoardSizeFromString(options.board, options.square_m);
+    opts.board = calib::BoardSizeFromString(options.board, *options.square_m);
     opts.up = calib::UpSideFromString(options.up);
   } catch (const std::invalid_argument& e) {
     return fail(e.what());

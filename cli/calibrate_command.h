@@ -20,8 +20,8 @@ namespace dropfit::cli {
 
 struct CalibrateCommandOptions {
   std::vector<std::string> inputs;        // image files, folders of images, or a video of the board
-  std::string board = "9x6";              // inner corners, columns x rows
-  double square_m = 0.025;                // checkerboard square size [m]
+  std::string board;                      // inner corners, columns x rows; required (no default)
+  std::optional<double> square_m;         // checkerboard square size [m], 0.002..0.3; required (no default)
   std::string plane_image;                // the view whose board lies in the drop plane
   std::optional<double> corner_height_m;  // height of the plane view's lowest inner-corner row above the floor [m]
   double corner_height_sd_m = 0.0005;     // its standard uncertainty [m], 0..1 (calib::CalibrateOptions)

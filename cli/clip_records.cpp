@@ -100,6 +100,9 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.fps_manifest = row.capture_fps;
   r.marker_offset_manifest_m = row.marker_offset_m;
   r.gravity_mps2 = row.gravity_mps2;
+  // The manifest reader checked the kind against kManifestMarkerKinds.
+  r.marker = tracker::MarkerKindFromString(row.marker.empty() ? "auto" : row.marker);
+  if (row.marker_u_px && row.marker_v_px) r.seed_px = cv::Point2d(*row.marker_u_px, *row.marker_v_px);
   return r;
 }
 
@@ -234,9 +237,11 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
     return out;
   }
   if (outcome.stopped == pipeline::ClipOutcome::Stop::kMarkerNeverFound) {
-    result.errors.push_back(name +
-                            ": the hub marker was not found on any frame; check the marker kind or its contrast "
-                            "(try `dropfit track --marker ... --seed U,V` on this clip)");
+    result.errors.push_back(
+        name +
+        ": the hub marker was not found on any frame; check the marker kind or its contrast "
+        "(try `dropfit track --marker ... --marker-at U,V` on this clip; in a folder run, the manifest's "
+        "marker, marker_u_px and marker_v_px columns)");
     return out;
   }
   AddMeasurementToResult(request, *outcome.measurement, name, track, result);

@@ -25,7 +25,8 @@ std::string Trim(std::string_view s) {
   return std::string(s.substr(b, e - b));
 }
 
-// Splits CSV text into records (RFC 4180 quoting; CR before LF dropped).
+// Splits CSV text into records (quoting of "Common Format and MIME Type for Comma-Separated Values
+// (CSV) Files", RFC 4180; CR before LF dropped).
 std::vector<CsvRecord> SplitRecords(std::string_view text, const std::string& display_name) {
   std::vector<CsvRecord> records;
   size_t i = 0;
@@ -134,7 +135,10 @@ enum class Column {
   kTreadWidth,
   kSectionRadius,
   kMarkerOffset,
-  kGravity
+  kGravity,
+  kMarker,
+  kMarkerU,
+  kMarkerV
 };
 
 const std::vector<std::pair<std::string, Column>>& KnownColumns() {
@@ -150,6 +154,9 @@ const std::vector<std::pair<std::string, Column>>& KnownColumns() {
       {"section_radius_m", Column::kSectionRadius},
       {"marker_offset_m", Column::kMarkerOffset},
       {"gravity_mps2", Column::kGravity},
+      {"marker", Column::kMarker},
+      {"marker_u_px", Column::kMarkerU},
+      {"marker_v_px", Column::kMarkerV},
   };
   return columns;
 }
@@ -171,6 +178,34 @@ std::string ParsePositive(const std::string& text, const NumberSpec& spec, doubl
   if (value <= 0) return "'" + text + "' is not positive; give the " + spec.what + " in " + spec.unit;
   return {};
 }
+
+// A plausible range of a quantity given in SI units; a value outside it is most often a value
+// typed in millimetres or grams (the ranges: README "The clip folder", docs/formats.md).
+struct PlausibleRange {
+  double min = 0, max = 0;
+  const char* unit_short;  // "m", "kg"
+  const char* hint;        // what the typical slip is
+};
+
+// Parses like ParsePositive, then fails a value outside `range` with the hint.
+std::string ParseInRange(const std::string& text, const NumberSpec& spec, const PlausibleRange& range, double& value) {
+  std::string err = ParsePositive(text, spec, value);
+  if (!err.empty()) return err;
+  if (value < range.min || value > range.max) {
+    char buf[160];
+    std::snprintf(buf, sizeof buf, "'%s' is outside the plausible %g-%g %s; %s Give the ", text.c_str(), range.min,
+                  range.max, range.unit_short, range.hint);
+    return std::string(buf) + spec.what + " in " + spec.unit;
+  }
+  return {};
+}
+
+constexpr PlausibleRange kDropHeightRange{analysis::kMinDropHeightM, analysis::kMaxDropHeightM, "m",
+                                          analysis::kMillimetresHint};
+constexpr PlausibleRange kMassRange{analysis::kMinMassKg, analysis::kMaxMassKg, "kg",
+                                    "did you give millimetres? (or grams?)"};
+constexpr PlausibleRange kRadiusRange{analysis::kMinWheelLengthM, analysis::kMaxWheelLengthM, "m",
+                                      analysis::kMillimetresHint};
 
 // Parses a finite number of either sign whose magnitude is at most `max_abs`; returns an error
 // text (empty when fine).
@@ -324,30 +359,41 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
                        const std::string& where) {
   auto get = [&](Column c) -> const std::string& { return f[header.index.at(c)]; };
   double value = 0;
-  std::string err = ParsePositive(get(Column::kDropHeight), {"nominal drop height", "metres"}, value);
+  std::string err = ParseInRange(get(Column::kDropHeight), {"nominal drop height", "metres"}, kDropHeightRange, value);
   if (err.empty())
     row.drop_height_m = value;
   else
     Fail(row, where, "drop_height_m", err);
-  err = ParsePositive(get(Column::kMass), {"dropped mass", "kilograms"}, value);
+  err = ParseInRange(get(Column::kMass), {"dropped mass", "kilograms"}, kMassRange, value);
   if (err.empty())
     row.mass_kg = value;
   else
     Fail(row, where, "mass_kg", err);
-  const std::tuple<Column, const char*, std::optional<double>*, NumberSpec> optional_numbers[] = {
-      {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}},
-      {Column::kFreeRadius, "free_radius_m", &row.free_radius_m, {"unloaded radius (hub to tread)", "metres"}},
-      {Column::kFreeRadiusSd,
-       "free_radius_sd_m",
-       &row.free_radius_sd_m,
-       {"standard uncertainty of the unloaded radius", "metres"}},
-      {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}},
-      {Column::kSectionRadius, "section_radius_m", &row.section_radius_m, {"tyre section radius", "metres"}},
-      {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}},
-  };
-  for (const auto& [column, name, target, spec] : optional_numbers) {
+  // The lengths of the wheel share one plausible range (a hint for values given in millimetres).
+  const std::tuple<Column, const char*, std::optional<double>*, NumberSpec, const PlausibleRange*> optional_numbers[] =
+      {
+          {Column::kFps, "capture_fps", &row.capture_fps, {"true capture rate", "frames per second"}, nullptr},
+          {Column::kFreeRadius,
+           "free_radius_m",
+           &row.free_radius_m,
+           {"unloaded radius (hub to tread)", "metres"},
+           &kRadiusRange},
+          {Column::kFreeRadiusSd,
+           "free_radius_sd_m",
+           &row.free_radius_sd_m,
+           {"standard uncertainty of the unloaded radius", "metres"},
+           nullptr},
+          {Column::kTreadWidth, "tread_width_m", &row.tread_width_m, {"tread width", "metres"}, &kRadiusRange},
+          {Column::kSectionRadius,
+           "section_radius_m",
+           &row.section_radius_m,
+           {"tyre section radius", "metres"},
+           &kRadiusRange},
+          {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}, nullptr},
+      };
+  for (const auto& [column, name, target, spec, range] : optional_numbers) {
     if (!header.index.count(column) || get(column).empty()) continue;
-    err = ParsePositive(get(column), spec, value);
+    err = range ? ParseInRange(get(column), spec, *range, value) : ParsePositive(get(column), spec, value);
     if (err.empty())
       *target = value;
     else
@@ -366,6 +412,54 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
   }
 }
 
+// The marker columns: its kind (one of kManifestMarkerKinds) and its start point (both or none).
+void ReadMarkerColumns(ManifestRow& row, const std::vector<std::string>& f, const Header& header,
+                       const std::string& where) {
+  const auto field = [&](Column c) -> std::string {
+    const auto it = header.index.find(c);
+    return it == header.index.end() ? std::string() : f[it->second];
+  };
+  const std::string kind = field(Column::kMarker);
+  if (!kind.empty()) {
+    std::string valid;
+    bool known = false;
+    for (const char* k : kManifestMarkerKinds) {
+      valid += (valid.empty() ? "" : ", ") + std::string(k);
+      known |= kind == k;
+    }
+    if (known) {
+      row.marker = kind;
+    } else {
+      Fail(row, where, "marker", "'" + kind + "' is not a marker kind; valid: " + valid + " (or leave it empty)");
+    }
+  }
+  const std::pair<Column, const char*> coords[] = {{Column::kMarkerU, "marker_u_px"},
+                                                   {Column::kMarkerV, "marker_v_px"}};
+  std::optional<double>* targets[] = {&row.marker_u_px, &row.marker_v_px};
+  for (int i = 0; i < 2; ++i) {
+    const std::string text = field(coords[i].first);
+    if (text.empty()) continue;
+    double value = 0;
+    const char* end = text.data() + text.size();
+    auto [ptr, ec] = std::from_chars(text.data(), end, value);
+    if (ec != std::errc() || ptr != end || !std::isfinite(value) || value < 0) {
+      Fail(row, where, coords[i].second,
+           "'" + text +
+               "' is not a pixel coordinate (a number >= 0); give the marker's centre in the first frames "
+               "in pixels (or leave it empty)");
+    } else {
+      *targets[i] = value;
+    }
+  }
+  if (row.marker_u_px.has_value() != row.marker_v_px.has_value()) {
+    Fail(row, where, row.marker_u_px ? "marker_v_px" : "marker_u_px",
+         "is empty but its partner is given; give both marker_u_px and marker_v_px, or neither");
+  } else if (row.marker == "template" && !row.marker_u_px) {
+    Fail(row, where, "marker",
+         "'template' needs the patch to follow: give marker_u_px and marker_v_px (its centre in the first frames)");
+  }
+}
+
 // A row with as many fields as the header.
 ManifestRow ReadFullRow(const CsvRecord& record, const Header& header, const std::filesystem::path& folder,
                         const std::string& display_name, bool check_files) {
@@ -374,6 +468,7 @@ ManifestRow ReadFullRow(const CsvRecord& record, const Header& header, const std
   const std::string where = Where(display_name, row.line);
   ReadClipColumn(row, record.fields[header.index.at(Column::kClip)], folder, check_files, where);
   ReadNumberColumns(row, record.fields, header, where);
+  ReadMarkerColumns(row, record.fields, header, where);
   const auto specimen = header.index.find(Column::kSpecimen);
   if (specimen != header.index.end()) row.specimen = record.fields[specimen->second];
   return row;

@@ -21,6 +21,8 @@
 #include <string_view>
 #include <vector>
 
+#include "analysis/plausible_ranges.h"
+
 namespace dropfit::cli {
 
 class ManifestStructureError : public std::runtime_error {
@@ -31,6 +33,11 @@ class ManifestStructureError : public std::runtime_error {
 // Largest |marker_offset_m| a manifest row may give [m] (a hub face is centimetres off the
 // tyre's mid-plane; a metre is a typing error).
 inline constexpr double kMaxMarkerOffsetM = 1.0;
+
+// Plausible ranges of the row's numbers: analysis/plausible_ranges.h; a value
+// outside fails the row with the hint "did you give millimetres?".
+// The values of the `marker` column (tracker::MarkerKindFromString's; "" is auto).
+inline constexpr const char* kManifestMarkerKinds[] = {"auto", "quadrant", "dot", "template"};
 
 struct ManifestRow {
   int line = 0;                            // 1-based line of the row in the file
@@ -49,6 +56,11 @@ struct ManifestRow {
   std::optional<double> marker_offset_m;
   // Local gravity [m/s^2]; positive; `--gravity` wins; default standard gravity 9.80665.
   std::optional<double> gravity_mps2;
+  // The hub marker (tracker/marker_kind.h, tracker/track.h): its kind, "" = auto; one of
+  // kManifestMarkerKinds. Its centre in the first frames [px] (--marker-at of `analyze`): both
+  // or neither, finite, >= 0; a template marker needs them.
+  std::string marker;
+  std::optional<double> marker_u_px, marker_v_px;
   std::string error;  // empty when the row is usable; else why this clip fails
   bool ok() const { return error.empty(); }
 };

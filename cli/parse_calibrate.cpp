@@ -10,12 +10,12 @@ void AddCalibrateCommand(CLI::App& app, CommandAction& action) {
   CLI::App* sub = app.add_subcommand("calibrate", "Checkerboard images -> rig file (once per camera set-up)");
   sub->add_option("inputs", opts->inputs, "Checkerboard images, folders of images, or a video of the board being moved")
       ->required();
-  sub->add_option("--board", opts->board,
-                  "Inner corners, columns x rows (e.g. 9x6 for a board of 10 x 7 squares); default 9x6");
-  sub->add_option("--square", opts->square_m, "Side of one square [m]; default 0.025");
+  sub->add_option("--board", opts->board, "Inner corners, columns x rows (e.g. 9x6 for a board of 10 x 7 squares)")
+      ->required();
+  sub->add_option("--square", opts->square_m, "Side of one square [m], 0.002..0.3 (e.g. 0.025 for 25 mm)")->required();
   sub->add_option("--plane", opts->plane_image, "Image whose board lies in the drop plane")->required();
   sub->add_option("--corner-height", opts->corner_height_m,
-                  "Height of the plane view's lowest inner-corner row above the floor [m]");
+                  "Height of the plane view's lowest inner-corner row above the floor [m], 0..3");
   sub->add_option("--corner-height-sd", opts->corner_height_sd_m,
                   "Standard uncertainty of --corner-height [m], 0..1; part of the floor's uncertainty in the rig; "
                   "default 0.0005 (a steel rule read by eye)");

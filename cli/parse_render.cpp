@@ -16,7 +16,7 @@ void AddPhysicsOptions(CLI::App* sub, RenderCommandOptions* o) {
       ->capture_default_str()
       ->group(physics);
   sub->add_option("--param", o->params,
-                  "Law parameter NAME=VALUE in the contract's names and units, repeatable, e.g. "
+                  "Law parameter NAME=VALUE in the names and units of result.json, repeatable, e.g. "
                   "--param k_n_per_m=4e4 --param c_ns_per_m=100 (kelvin-voigt); k, n, alpha_s_per_m "
                   "(hunt-crossley, hertz); k1_n_per_m, k2_n_per_m, knee_m, c_ns_per_m (bilinear); "
                   "kv_n_per_m3, a_s_per_m (volumetric); k_n_per_m, k3_n_per_m3, knee_m, a_s_per_m (bottoming). Unset "
@@ -25,7 +25,7 @@ void AddPhysicsOptions(CLI::App* sub, RenderCommandOptions* o) {
   sub->add_option("--mass", o->mass_kg, "Dropped mass [kg], (0, 1e4]")->capture_default_str()->group(physics);
   sub->add_option("--heights", o->heights_m,
                   "Drop heights [m]: tyre's lowest point above the floor at release; one clip set per "
-                  "height, comma-separated or repeated, each (0, 5]")
+                  "height, comma-separated or repeated, each 0.005..5")
       ->delimiter(',')
       ->capture_default_str()
       ->group(physics);
@@ -168,7 +168,7 @@ void AddOutputOptions(CLI::App* sub, RenderCommandOptions* o) {
       ->group(output);
   sub->add_flag("!--no-calibration", o->calibration, "Do not write the checkerboard images in calib/")->group(output);
   sub->add_option("--board", o->board, "Checkerboard inner corners COLUMNSxROWS")->capture_default_str()->group(output);
-  sub->add_option("--square", o->square_m, "Checkerboard square [m]")->capture_default_str()->group(output);
+  sub->add_option("--square", o->square_m, "Checkerboard square [m], 0.002..0.3")->capture_default_str()->group(output);
   sub->add_option("--lens-views", o->lens_views, "Tilted checkerboard views for the lens model, 1..12")
       ->capture_default_str()
       ->group(output);
@@ -240,7 +240,7 @@ void AddRenderCommand(CLI::App& app, CommandAction& action) {
 
   sub->footer(
       "Writes: the clips, manifest.csv, truth.json (per frame the drawn marker centre in pixels at\n"
-      "mid-exposure and the hub in metres; per impact the contract's figures), rig_exact.json (the\n"
+      "mid-exposure and the hub in metres; per impact its figures), rig_exact.json (the\n"
       "perfect calibration), calib/lens_NN.png and calib/plane.png, render_options.txt.\n\n"
       "Example (reference conditions: 800x640 grey, ~1 px/mm, 2,000 frames/s, 0.2 ms exposure, 4\n"
       "sub-frames, read noise 2 + shot noise, 30 mm quadrant marker, JPEG q90 in MJPG .avi):\n"

@@ -18,7 +18,9 @@ void AddRunCommand(CLI::App& app, CommandAction& action) {
                   "Local gravity [m/s^2] for every clip; wins over the manifest's gravity_mps2 (default: standard "
                   "gravity 9.80665)");
   AddGravityRulerFlag(sub, &opts->no_gravity_ruler);
-  sub->footer("Example:\n  dropfit run demo_clips --rig demo_clips/rig.json -o demo_out --jobs 2");
+  sub->footer(
+      "Example (on the demo clips in the source tree):\n  dropfit run demo_clips --rig demo_clips/rig_exact.json -o "
+      "demo_out --jobs 2");
   sub->callback([opts, &action] { action = [opts] { return RunRun(*opts); }; });
 }
 

@@ -17,17 +17,17 @@ void AddTrackCommand(CLI::App& app, CommandAction& action) {
   AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   sub->add_option("--marker", opts->marker,
                   "Marker kind: auto (detect; quadrant discs first), quadrant (disc of black and white quarters), "
-                  "dot (plain dot, bright or dark), template (any textured patch; needs --seed)")
+                  "dot (plain dot, bright or dark), template (any textured patch; needs --marker-at)")
       ->default_val("auto");
-  sub->add_option("--seed", opts->seed, "Marker centre U,V [px] in the first frame, to pick one among several");
+  AddMarkerAtOption(sub, &opts->marker_at);
   sub->add_option("--overlay", opts->overlay_path,
                   "Also write a video (.avi, .mp4, .mov, .mkv) showing the found centre, search window and trail");
   sub->add_option("-o,--output", opts->out_dir, "Output folder for track.csv and result.json")->required();
   sub->footer(
       "Exit status: 0 tracked; 1 tracked in part or not at all (reasons in result.json and on stderr);\n"
       "2 bad usage or unusable input (nothing written).\n"
-      "Example:\n  dropfit track clips/drop_0400_a.avi --rig rig.json --fps 2000 -o out/drop_0400_a "
-      "--overlay out/drop_0400_a/overlay.avi\n");
+      "Example (on the demo clips in the source tree):\n  dropfit track demo_clips/drop_h150mm_r1.mp4 --rig "
+      "demo_clips/rig_exact.json -o out/h150_r1 --overlay out/h150_r1/overlay.avi\n");
   sub->callback([opts, &action] { action = [opts] { return RunTrack(*opts); }; });
 }
 

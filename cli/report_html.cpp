@@ -40,7 +40,7 @@ const Curve* FindCurve(const std::vector<Curve>& curves, CurveKind kind, const s
 }
 
 constexpr const char* kStyle = R"CSS(
-body{font-family:"DejaVu Sans",Verdana,sans-serif;margin:0;background:#efece4;color:#1d1d1d;font-size:14px}
+body{font-family:"DejaVu Sans","Liberation Sans",sans-serif;margin:0;background:#efece4;color:#1d1d1d;font-size:14px}
 main{max-width:1320px;margin:0 auto;padding:18px 26px 40px}
 h1{font-size:24px;margin:6px 0 2px;letter-spacing:.3px}
 h2{font-size:18px;margin:28px 0 8px;border-bottom:2px solid #1b7f79;padding-bottom:3px}
@@ -84,7 +84,7 @@ void SummaryTable(std::ostringstream& html, const std::vector<SummaryGroup>& gro
     return;
   }
   html << "<table><tr><th class=\"t\">specimen</th><th>drop height [m]</th><th>clips</th>"
-          "<th>impact speed [m/s]</th><th>COR</th><th>contact [ms]</th><th>max deflection [mm]</th>"
+          "<th>impact speed [m/s]</th><th>COR</th><th>contact duration [ms]</th><th>max deflection [mm]</th>"
           "<th>peak force [N]</th></tr>";
   auto pm = [](double mean, const std::optional<double>& sd, double scale, int decimals) {
     std::string s = Scaled(mean, scale, decimals);
@@ -248,8 +248,8 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
        << (r.gravity_check.flight_accel_mps2 ? Num(*r.gravity_check.flight_accel_mps2, 5) : std::string("&ndash;"))
        << " m/s&sup2; (expected " << Num(r.gravity_check.expected_mps2, 6) << ")" << MarkerPlaneNote(r) << "</p>";
   if (!r.impacts.empty()) {
-    html << "<table><tr><th>#</th><th>contact [s]</th><th>impact speed [m/s]</th><th>rebound speed [m/s]</th>"
-            "<th>COR</th><th>contact [ms]</th><th>max deflection [mm]</th><th>peak force [N]</th>"
+    html << "<table><tr><th>#</th><th>contact at [s]</th><th>impact speed [m/s]</th><th>rebound speed [m/s]</th>"
+            "<th>COR</th><th>contact duration [ms]</th><th>max deflection [mm]</th><th>peak force [N]</th>"
             "<th class=\"t\">from</th><th class=\"t\">complete</th></tr>";
     for (size_t i = 0; i < r.impacts.size(); ++i) {
       const ImpactRecord& im = r.impacts[i];

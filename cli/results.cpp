@@ -39,7 +39,8 @@ constexpr const char* kSummaryHeader =
     "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
     "peak_force_n_mean,peak_force_n_sd";
 
-// Quotes a free-text CSV field when it needs it (RFC 4180).
+// Quotes a free-text CSV field when it needs it ("Common Format and MIME Type for Comma-Separated
+// Values (CSV) Files", RFC 4180).
 std::string CsvText(const std::string& s) {
   if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
   std::string out = "\"";

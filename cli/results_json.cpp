@@ -3,6 +3,7 @@
 #include <nlohmann/json.hpp>
 
 #include <cmath>
+#include <cstdint>
 #include <fstream>
 #include <stdexcept>
 
@@ -17,7 +18,13 @@ using nlohmann::ordered_json;
 // Read with insertion order kept, so parameter lists come back in the law's order.
 using json = nlohmann::ordered_json;
 
-ordered_json Number(double v) { return std::isfinite(v) ? ordered_json(v) : ordered_json(nullptr); }
+// A finite number, a whole one as an integer ("1000", not "1000.0"; exact below 2^53); null
+// otherwise.
+ordered_json Number(double v) {
+  if (!std::isfinite(v)) return ordered_json(nullptr);
+  if (v == std::trunc(v) && std::abs(v) < 9007199254740992.0) return ordered_json(static_cast<std::int64_t>(v));
+  return ordered_json(v);
+}
 ordered_json Number(const std::optional<double>& v) { return v ? Number(*v) : ordered_json(nullptr); }
 
 ordered_json Values(const NamedValues& values) {

@@ -43,7 +43,8 @@ std::string SettingsText(const ManifestRow& row, const RunCommandOptions& option
     << "; marker_offset_m=" << OptionalText(row.marker_offset_m)
     << "; --marker-offset=" << OptionalText(options.marker_offset_m)
     << "; gravity_mps2=" << OptionalText(row.gravity_mps2) << "; --gravity=" << OptionalText(options.gravity_mps2)
-    << "; gravity_ruler=" << (options.no_gravity_ruler ? "off" : "on");
+    << "; gravity_ruler=" << (options.no_gravity_ruler ? "off" : "on") << "; marker=" << row.marker
+    << "; marker_at=" << OptionalText(row.marker_u_px) << "," << OptionalText(row.marker_v_px);
   return s.str();
 }
 

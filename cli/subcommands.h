@@ -22,6 +22,8 @@ void AddReportCommand(CLI::App& app, CommandAction& action);
 // Options several subcommands share, each with one help text (parse_shared.cpp).
 // --marker-offset M (track, analyze, run).
 void AddMarkerOffsetOption(CLI::App* sub, std::optional<double>* offset_m);
+// --marker-at U,V (track, analyze), and the old name --seed refused with the new one.
+void AddMarkerAtOption(CLI::App* sub, std::string* marker_at);
 // --no-gravity-ruler (analyze, run).
 void AddGravityRulerFlag(CLI::App* sub, bool* off);
 

@@ -82,7 +82,11 @@ int CountDataPoints(const Plot& plot) {
 }
 
 std::string RenderSvg(const Plot& plot) {
-  const double w = plot.width_px, h = plot.height_px;
+  // The legend stands in a column of its own right of the frame, never over the data.
+  bool labelled = false;
+  for (const PlotSeries& s : plot.series) labelled |= !s.label.empty();
+  const double legend_w = labelled ? kLegendWidthPx : 0.0;
+  const double w = plot.width_px + legend_w, h = plot.height_px;
   const double left = 70, right = 14, top = 30, bottom = 46;
   double x_lo = std::numeric_limits<double>::infinity(), x_hi = -x_lo, y_lo = x_lo, y_hi = -x_lo;
   for (const PlotSeries& s : plot.series) {
@@ -114,7 +118,7 @@ std::string RenderSvg(const Plot& plot) {
   const double y_pad = 0.05 * (y_hi - y_lo);
   y_lo -= y_pad;
   y_hi += y_pad;
-  const double pw = w - left - right, ph = h - top - bottom;
+  const double pw = w - legend_w - left - right, ph = h - top - bottom;
   auto px = [&](double x) { return left + (x - x_lo) / (x_hi - x_lo) * pw; };
   auto py = [&](double y) { return top + (1.0 - (y - y_lo) / (y_hi - y_lo)) * ph; };
 
@@ -173,11 +177,11 @@ std::string RenderSvg(const Plot& plot) {
         << (s.style == SeriesStyle::kDashed ? " stroke-dasharray=\"5,3\"" : "") << "/>";
   }
   svg << "</g>";
-  // Legend, top right inside the frame.
+  // Legend, right of the frame.
   double ly = top + 14;
   for (const PlotSeries& s : plot.series) {
     if (s.label.empty()) continue;
-    const double lx = left + pw - 150;
+    const double lx = left + pw + right;
     if (s.style == SeriesStyle::kPoints) {
       svg << "<circle cx=\"" << lx + 9 << "\" cy=\"" << ly - 4 << "\" r=\"3\" fill=\"" << s.colour << "\"/>";
     } else {

@@ -32,7 +32,11 @@ struct Plot {
   int height_px = 340;
 };
 
-// Renders `plot` as an <svg> element. A plot with no finite point renders a frame that says so.
+// Width of the legend column right of the frame [px], added to width_px when a series has a label.
+inline constexpr double kLegendWidthPx = 170.0;
+
+// Renders `plot` as an <svg> element (the legend outside the plotted data, right of the frame). A plot with no finite
+// point renders a frame that says so.
 std::string RenderSvg(const Plot& plot);
 
 // Counts the data marks (points and line vertices) RenderSvg draws, for tests.

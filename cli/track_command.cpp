@@ -64,7 +64,7 @@ class TerminalProgress {
 
 }  // namespace
 
-cv::Point2d ParseSeed(const std::string& text) {
+cv::Point2d ParseMarkerAt(const std::string& text) {
   const auto comma = text.find(',');
   auto parse = [&](const std::string& part, double& out) {
     const char* b = part.data();
@@ -75,17 +75,18 @@ cv::Point2d ParseSeed(const std::string& text) {
   };
   double u = 0, v = 0;
   if (comma == std::string::npos || !parse(text.substr(0, comma), u) || !parse(text.substr(comma + 1), v)) {
-    throw std::invalid_argument("--seed '" + text + "' is not U,V in pixels (two numbers, e.g. --seed 412.5,230)");
+    throw std::invalid_argument("--marker-at '" + text +
+                                "' is not U,V in pixels (two numbers, e.g. --marker-at 412.5,230)");
   }
   return {u, v};
 }
 
-std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
+std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& marker_at,
                                            const std::string& rig_path, const std::string& clip,
                                            tracker::TrackOptions& track_options, calib::Rig& rig) {
   try {
     track_options.marker = tracker::MarkerKindFromString(marker);
-    if (!seed.empty()) track_options.seed_px = ParseSeed(seed);
+    if (!marker_at.empty()) track_options.seed_px = ParseMarkerAt(marker_at);
   } catch (const std::invalid_argument& e) {
     return e.what();
   }
@@ -113,7 +114,8 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
   if (options.out_dir.empty()) return BadUsage(err, "-o DIR is required: the folder for track.csv and result.json");
   tracker::TrackOptions track_options;
   calib::Rig rig;
-  if (auto message = StartSingleClip(options.marker, options.seed, options.rig_path, options.clip, track_options, rig))
+  if (auto message =
+          StartSingleClip(options.marker, options.marker_at, options.rig_path, options.clip, track_options, rig))
     return BadUsage(err, *message);
   const fs::path clip_path(options.clip);
   std::error_code ec;
@@ -123,7 +125,8 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
   result.y_origin = calib::ToString(rig.y_origin);
   result.info.push_back({"clip_path", options.clip});
   result.info.push_back(
-      {"track_options", "marker=" + options.marker + (options.seed.empty() ? "" : " seed=" + options.seed) +
+      {"track_options", "marker=" + options.marker +
+                            (options.marker_at.empty() ? "" : " marker_at=" + options.marker_at) +
                             (options.fps ? " fps=" + Num(*options.fps) : "") +
                             (options.marker_offset_m ? " marker_offset_m=" + Num(*options.marker_offset_m) : "") +
                             (options.overlay_path.empty() ? "" : " overlay=" + options.overlay_path)});

@@ -2,7 +2,7 @@
 // `dropfit track`: one clip -> sub-pixel hub-marker track (track.csv, result.json).
 //
 //   dropfit track CLIP --rig rig.json [--fps N] [--marker-offset M] [--marker auto|quadrant|dot|template]
-//                 [--seed U,V] [--overlay FILE] -o DIR
+//                 [--marker-at U,V] [--overlay FILE] -o DIR
 //
 // Writes DIR/track.csv (docs/formats.md, "track.csv": frame,t_s,u_px,v_px,x_m,y_m,quality; coordinates
 // empty where the marker was not found) and DIR/result.json with the tracking fields (clip,
@@ -37,7 +37,7 @@ struct TrackCommandOptions {
   // |value| <= kMaxMarkerOffsetM (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).
   std::optional<double> marker_offset_m;
   std::string marker = "auto";  // auto|quadrant|dot|template
-  std::string seed;             // "U,V" [px] to pick one marker among several
+  std::string marker_at;        // --marker-at "U,V" [px]: the marker's centre in the first frames
   std::string overlay_path;     // optional overlay video (.avi, .mp4, .mov, .mkv)
   std::string out_dir;          // folder for track.csv and result.json
 };
@@ -48,12 +48,12 @@ int RunTrack(const TrackCommandOptions& options, std::ostream& out, std::ostream
 int RunTrack(const TrackCommandOptions& options);
 
 // Parses "U,V" (pixels, two finite numbers). Throws std::invalid_argument naming the text.
-cv::Point2d ParseSeed(const std::string& text);
+cv::Point2d ParseMarkerAt(const std::string& text);
 
-// The start `track` and `analyze` share: the marker kind and seed into `track_options` (then
+// The start `track` and `analyze` share: the marker kind and start point (--marker-at) into `track_options` (then
 // validated), the rig file into `rig`, and the clip's existence. Returns the message when the
 // command cannot start (exit status 2, nothing written), else nothing.
-std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& seed,
+std::optional<std::string> StartSingleClip(const std::string& marker, const std::string& marker_at,
                                            const std::string& rig_path, const std::string& clip,
                                            tracker::TrackOptions& track_options, calib::Rig& rig);
 

@@ -1,11 +1,14 @@
 #include "media/files.h"
 
+#include "media/frame_source.h"
+
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 #include <opencv2/videoio.hpp>
 
 #include <algorithm>
 #include <cctype>
+#include <cmath>
 #include <cstdio>
 #include <fstream>
 #include <stdexcept>
@@ -57,7 +60,7 @@ std::string ImageExtensionsText() {
   return text;
 }
 
-cv::Mat ReadGreyImage(const fs::path& path, const std::string& role) {
+cv::Mat ReadGreyImage(const fs::path& path, const std::string& role, std::string* note) {
   std::error_code ec;
   if (!fs::is_regular_file(path, ec)) {
     throw std::runtime_error(role + " " + path.string() + " does not exist or is not a file");
@@ -67,6 +70,15 @@ cv::Mat ReadGreyImage(const fs::path& path, const std::string& role) {
     throw std::runtime_error(
         role + " " + path.string() +
         " cannot be decoded as an image; give PNG, JPEG, TIFF or BMP files, a folder of them, or a video");
+  }
+  // 16-bit data: scaled by its significant bits (media/frame_source.h), not by 16 bits.
+  cv::Mat deep = cv::imread(path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_GRAYSCALE);
+  if (deep.depth() == CV_16U) {
+    double lo = 0, hi = 0;
+    cv::minMaxLoc(deep, &lo, &hi);
+    const int bits = SignificantBits16(static_cast<int>(hi));
+    deep.convertTo(grey, CV_8U, 255.0 / (std::ldexp(1.0, bits) - 1.0));
+    if (note) *note = path.string() + ": " + Scaling16Note(bits, static_cast<int>(hi), 1);
   }
   return grey;
 }

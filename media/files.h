@@ -22,10 +22,11 @@ bool IsVideoFile(const std::filesystem::path& path);
 // The image extensions as a list for messages: ".png, .jpg, .jpeg, .bmp, .tif, .tiff, .pgm, .ppm".
 std::string ImageExtensionsText();
 
-// Reads a still image as 8-bit grey (OpenCV's IMREAD_GRAYSCALE conversion). Throws
-// std::runtime_error beginning with `role` and the path when the file is missing or does not
-// decode, saying which files are accepted.
-cv::Mat ReadGreyImage(const std::filesystem::path& path, const std::string& role);
+// Reads a still image as 8-bit grey (OpenCV's IMREAD_GRAYSCALE conversion; 16-bit data scaled by
+// its significant bits, as media/frame_source.h says, and then `note`, when given, says so).
+// Throws std::runtime_error beginning with `role` and the path when the file is missing or does
+// not decode, saying which files are accepted.
+cv::Mat ReadGreyImage(const std::filesystem::path& path, const std::string& role, std::string* note = nullptr);
 
 // Frames of a video at chosen indices (ascending, from 0), decoded to 8-bit grey; frames in
 // between are skipped without decoding. `frames_total` is the container's count, or the count

@@ -31,11 +31,12 @@ std::optional<long long> LastNumber(const std::string& stem) {
 
 std::string SizeText(cv::Size s) { return std::to_string(s.width) + "x" + std::to_string(s.height); }
 
-// Converts any decoded image to 8-bit grey. Sets `scaled16` when 16-bit data was scaled.
-void ToGrey8(const cv::Mat& in, cv::Mat& grey, bool& scaled16) {
+// Converts any decoded image to 8-bit grey. 16-bit data is scaled by 255 / (2^bits16 - 1)
+// (values above that range saturate); sets `scaled16` when 16-bit data was scaled.
+void ToGrey8(const cv::Mat& in, cv::Mat& grey, bool& scaled16, int bits16 = 16) {
   cv::Mat work = in;
   if (in.depth() == CV_16U) {
-    in.convertTo(work, CV_8U, 1.0 / 257.0);
+    in.convertTo(work, CV_8U, 255.0 / (std::ldexp(1.0, bits16) - 1.0));
     scaled16 = true;
   } else if (in.depth() != CV_8U) {
     in.convertTo(work, CV_8U);
@@ -156,6 +157,22 @@ class ImageFolderSource final : public FrameSource {
       throw std::runtime_error(folder.string() + ": none of its " + std::to_string(files_.size()) +
                                " image files could be decoded; check the files open in an image viewer");
     }
+    // 16-bit files: the significant bits from the largest value over the first frames
+    // (SignificantBits16), so that 12-bit camera data (0-4095) is not read as nearly black.
+    double largest = 0;
+    int sixteen_bit = 0;
+    for (size_t i = 0; i < files_.size() && sixteen_bit < kBitDepthFrames; ++i) {
+      cv::Mat img = cv::imread(files_[i].path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
+      if (img.empty() || img.depth() != CV_16U) continue;
+      double lo = 0, hi = 0;
+      cv::minMaxLoc(img.reshape(1), &lo, &hi);
+      largest = std::max(largest, hi);
+      ++sixteen_bit;
+    }
+    if (sixteen_bit > 0) {
+      bits16_ = SignificantBits16(static_cast<int>(largest));
+      scaling_note_ = Scaling16Note(bits16_, static_cast<int>(largest), sixteen_bit);
+    }
   }
 
   FrameRead Read(cv::Mat& grey) override {
@@ -190,10 +207,10 @@ class ImageFolderSource final : public FrameSource {
       return r;
     }
     bool scaled = false;
-    ToGrey8(img, grey, scaled);
+    ToGrey8(img, grey, scaled, bits16_);
     if (scaled && !warned16_) {
       warned16_ = true;
-      info_.warnings.push_back(info_.path + ": 16-bit images were scaled to 8 bits for tracking");
+      info_.warnings.push_back(info_.path + ": " + scaling_note_);
     }
     r.status = ReadStatus::kFrame;
     return r;
@@ -205,9 +222,26 @@ class ImageFolderSource final : public FrameSource {
   size_t next_file_ = 0;
   int next_frame_ = 0;
   bool warned16_ = false;
+  int bits16_ = 16;           // significant bits of the 16-bit frames
+  std::string scaling_note_;  // what the scaling of 16-bit frames did
 };
 
 }  // namespace
+
+int SignificantBits16(int largest_value) {
+  int bits = 8;
+  while (bits < 16 && largest_value > (1 << bits) - 1) ++bits;
+  return bits;
+}
+
+std::string Scaling16Note(int bits, int largest_value, int frames) {
+  std::string note = "16-bit images were scaled to 8 bits for tracking as " + std::to_string(bits) +
+                     "-bit data (largest value " + std::to_string(largest_value) + " over the first " +
+                     std::to_string(frames) + (frames == 1 ? " frame" : " frames") + ": values / " +
+                     std::to_string((1 << bits) - 1) + " x 255";
+  if (bits < 16) note += ", brighter later values are clipped";
+  return note + ")";
+}
 
 std::vector<NumberedFile> ListNumberedImages(const std::filesystem::path& folder) {
   std::error_code ec;

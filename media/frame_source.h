@@ -10,8 +10,12 @@
 // smallest number in the folder (the numbering may start anywhere); when names hold several
 // numbers, the LAST one counts ("cam2_take3_000123.png" is number 123). A number missing from the
 // sequence is a frame that cannot be read: Read() reports it as an error and the clip goes on.
-// Colour images are converted to grey; 16-bit images are scaled to 8 bits (value / 257) and
-// the source says so in its warnings.
+// Colour images are converted to grey. 16-bit images are scaled to 8 bits by their significant
+// bits: the largest value over the first kBitDepthFrames 16-bit frames gives the bit count b
+// (SignificantBits16: 12 for 12-bit camera data stored as 0-4095 in 16-bit TIFF or PNG), and a
+// frame is scaled by 255 / (2^b - 1), later values above 2^b - 1 clipped; the source says so
+// in its warnings (Scaling16Note). Without this, 12-bit data scaled as 16-bit reads as 0-15
+// grey levels and no marker is found.
 //
 // Faults, per DEVELOPERS.md ("Conventions": three ways to fail):
 // - a clip that cannot be opened at all (missing path, an empty file, not a video, a folder
@@ -72,6 +76,14 @@ class FrameSource {
  protected:
   FrameSourceInfo info_;
 };
+
+// 16-bit frames looked at for their significant bits.
+inline constexpr int kBitDepthFrames = 8;
+// Bits needed for `largest_value` of 16-bit data, at least 8 and at most 16.
+int SignificantBits16(int largest_value);
+// What the scaling of 16-bit data did, for warnings: "16-bit images were scaled to 8 bits for
+// tracking as 12-bit data (largest value 4095 over the first 8 frames: values / 4095 x 255, ...)".
+std::string Scaling16Note(int bits, int largest_value, int frames);
 
 // The image files of a numbered sequence, sorted by their number, with the numbers.
 struct NumberedFile {

@@ -234,6 +234,12 @@ analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const cali
   return series;
 }
 
+double MaxMarkerStepPx(double drop_height_m, double gravity_mps2, double fps, double metres_per_px) {
+  // Speed after a free fall from rest through h: v = sqrt(2 g h) (Galilei; any mechanics text).
+  const double fall_m = std::max(0.0, drop_height_m) + kFallMarginM;
+  return std::sqrt(2.0 * gravity_mps2 * fall_m) / fps / metres_per_px;
+}
+
 TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, OpenedClip& opened,
                             const ClipProgress& progress) {
   if (!opened.ok() || !opened.source || !opened.rate)
@@ -241,6 +247,11 @@ TrackedClip TrackOpenedClip(const ClipRequest& request, const calib::Rig& rig, O
   tracker::TrackOptions track_options;
   track_options.marker = request.marker;
   track_options.seed_px = request.seed_px;
+  if (request.drop_height_m && rig.quality.metres_per_px_centre > 0) {
+    track_options.max_step_px =
+        MaxMarkerStepPx(*request.drop_height_m, request.gravity_mps2.value_or(analysis::kStandardGravityMps2),
+                        opened.rate->fps, rig.quality.metres_per_px_centre);
+  }
   TrackedClip out;
   out.track = tracker::TrackClip(*opened.source, track_options, progress);
   opened.source.reset();  // read to the end; free the decoder

@@ -104,6 +104,13 @@ OpenedClip OpenClip(const ClipRequest& request, const calib::Rig& rig);
 analysis::TimeSeries TimeSeriesFromTrack(const tracker::Track& track, const calib::Rig& rig, double fps,
                                          double marker_offset_m = 0.0);
 
+// The largest plausible move of the hub marker from one frame to the next [px]: the speed of a
+// free fall from rest through the drop height + kFallMarginM, v = sqrt(2 g (h + 0.5 m)), over one
+// frame interval, at the rig's scale at the image centre. TrackOpenedClip gives it to the
+// tracker (tracker::TrackOptions::max_step_px) when the drop height is known.
+inline constexpr double kFallMarginM = 0.5;  // a release above the nominal height, a throw
+double MaxMarkerStepPx(double drop_height_m, double gravity_mps2, double fps, double metres_per_px);
+
 // frames done, frames total (0 when unknown)
 using ClipProgress = std::function<void(int, int)>;
 

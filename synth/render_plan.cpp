@@ -10,6 +10,9 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "analysis/plausible_ranges.h"
+#include "calib/rig.h"
+
 namespace dropfit::synth {
 
 namespace {
@@ -357,7 +360,9 @@ std::optional<std::string> ValidateRenderOptions(const RenderOptions& o) {
   if (!(o.mass_kg > 0 && o.mass_kg <= 1e4)) return OutOfRange("mass", o.mass_kg, "(0, 1e4]", "kg");
   if (o.heights_m.empty()) return "--heights: give at least one drop height";
   for (double h : o.heights_m) {
-    if (!(h > 0 && h <= 5)) return OutOfRange("heights", h, "(0, 5]", "m");
+    if (!(h >= analysis::kMinDropHeightM && h <= analysis::kMaxDropHeightM)) {
+      return OutOfRange("heights", h, "[0.005, 5]", "m") + "; " + analysis::kMillimetresHint;
+    }
   }
   if (o.repeats < 1 || o.repeats > 100) return OutOfRange("repeats", o.repeats, "1..100", "");
   if (!(o.height_jitter_m >= 0 && o.height_jitter_m <= 0.05)) {
@@ -386,6 +391,12 @@ std::optional<std::string> ValidateRenderOptions(const RenderOptions& o) {
   if (!size) return "--image-size '" + o.image_size + "' is not WIDTHxHEIGHT (e.g. 800x640)";
   const auto board = ParsePair(o.board);
   if (!board) return "--board '" + o.board + "' is not COLUMNSxROWS of inner corners (e.g. 9x6)";
+  if (board->first < 3 || board->second < 3) {
+    return "--board '" + o.board + "' is out of range (at least 3x3 inner corners)";
+  }
+  if (!(o.square_m >= calib::kMinSquareM && o.square_m <= calib::kMaxSquareM)) {
+    return OutOfRange("square", o.square_m, "[0.002, 0.3]", "m") + "; " + calib::kRigMillimetresHint;
+  }
   if (!(o.focal_px > 10 && o.focal_px < 1e5)) return OutOfRange("focal", o.focal_px, "(10, 1e5)", "px");
   if (!(o.fps > 0 && o.fps <= 1e6)) return OutOfRange("fps", o.fps, "(0, 1e6]", "frames/s");
   if (o.jpeg_quality < 1 || o.jpeg_quality > 100) return OutOfRange("jpeg-quality", o.jpeg_quality, "1..100", "");

@@ -78,8 +78,12 @@ std::optional<std::string> ValidateTrackOptions(const TrackOptions& o) {
   if (o.judge_min_frames < 3 || o.judge_min_frames > 1000000)
     return "judge_min_frames = " + std::to_string(o.judge_min_frames) + " is outside [3, 1000000]";
   if (o.seed_px && !(std::isfinite(o.seed_px->x) && std::isfinite(o.seed_px->y))) return "seed_px is not finite";
+  if (o.max_step_px && !(std::isfinite(*o.max_step_px) && *o.max_step_px > 0))
+    return "max_step_px = " + Num(*o.max_step_px) + " px is not > 0";
+  if (!in(o.jump_slack_px, 0, 1000)) return "jump_slack_px = " + Num(o.jump_slack_px) + " px is outside [0, 1000]";
   if (o.marker == MarkerKind::kTemplate && !o.seed_px)
-    return "a template marker needs a seed: give --seed U,V at the centre of the patch to follow in the first frame";
+    return "a template marker needs a start point: give --marker-at U,V at the centre of the patch to follow in the "
+           "first frame";
   return std::nullopt;
 }
 
@@ -191,6 +195,9 @@ struct MarkerTracker::Impl {
   int last_reacquire_frame = -1;
   bool reported_leaving = false;
   cv::Point2d last_prediction{0, 0};
+  int last_found_frame = -1;  // the last frame with the marker found, and where
+  cv::Point2d last_found_px{0, 0};
+  std::vector<EmptyFrame> jumps;  // template matches not taken (max_step_px)
 
   explicit Impl(const TrackOptions& options) : o(options) {}
 
@@ -256,7 +263,7 @@ struct MarkerTracker::Impl {
              " px centred at " + Point(cv::Point2d(rect.x + r, rect.y + r)) + ", grey-level s.d. " + Num(sd[0], "%.1f");
     if (sd[0] < 5.0) {
       warnings.push_back("the template patch at " + Point(seed) + " is nearly flat (grey-level s.d. " +
-                         Num(sd[0], "%.1f") + "); tracking will be poor: put --seed on a textured spot");
+                         Num(sd[0], "%.1f") + "); tracking will be poor: put --marker-at on a textured spot");
     }
     return true;
   }
@@ -266,10 +273,10 @@ struct MarkerTracker::Impl {
     const cv::Rect frame_rect(0, 0, grey.cols, grey.rows);
     if (o.seed_px && !frame_rect.contains(cv::Point(static_cast<int>(o.seed_px->x), static_cast<int>(o.seed_px->y)))) {
       throw std::invalid_argument("seed " + Point(*o.seed_px) + " lies outside the " + std::to_string(grey.cols) + "x" +
-                                  std::to_string(grey.rows) + " frame; give --seed U,V in pixels of the frame");
+                                  std::to_string(grey.rows) + " frame; give --marker-at U,V in pixels of the frame");
     }
     if (o.marker == MarkerKind::kTemplate) {
-      return ChooseTemplate(grey, *o.seed_px, "template as asked (--marker template, --seed): ");
+      return ChooseTemplate(grey, *o.seed_px, "template as asked (--marker template, --marker-at): ");
     }
     std::vector<MarkerCandidate> cands = FindMarkerCandidates(grey, frame_rect, o.marker, o.detect);
     if (o.seed_px) {
@@ -317,7 +324,7 @@ struct MarkerTracker::Impl {
       }
       if (n_others > 0) {
         warnings.push_back("several marker candidates in frame " + std::to_string(samples.size()) + "; following the " +
-                           cands[0].Describe() + "; others: " + others + ". Give --seed U,V to pick another");
+                           cands[0].Describe() + "; others: " + others + ". Give --marker-at U,V to pick another");
       }
     }
     ChooseFrom(cands[0], why);
@@ -425,6 +432,8 @@ struct MarkerTracker::Impl {
           if (l.ok) {
             rep.sample = {frame, true, l.centre, l.quality};
             Record(frame, l);
+            last_found_frame = frame;
+            last_found_px = l.centre;
           }
           if (!l.ok) lost_since = frame;
         }
@@ -468,9 +477,25 @@ struct MarkerTracker::Impl {
                                           : LocateSymmetric(grey, prediction, rep.search_window, false);
       }
     }
+    if (l.ok && kind == MarkerKind::kTemplate && o.max_step_px && last_found_frame >= 0) {
+      const int steps = frame - last_found_frame;
+      const double jump_px = cv::norm(l.centre - last_found_px);
+      const double allowed_px = steps * *o.max_step_px + o.jump_slack_px;
+      if (jump_px > allowed_px) {
+        jumps.push_back({frame, "template match at " + Point(l.centre) + " is " + Num(jump_px, "%.0f") +
+                                    " px from the marker's last position (frame " + std::to_string(last_found_frame) +
+                                    "), more than the " + Num(allowed_px, "%.0f") +
+                                    " px a free fall from the drop height + 0.5 m allows in " + std::to_string(steps) +
+                                    (steps == 1 ? " frame" : " frames") + " (+" + Num(o.jump_slack_px, "%g") +
+                                    " px); a look-alike patch, not the marker"});
+        l.ok = false;
+      }
+    }
     if (l.ok) {
       rep.sample = {frame, true, l.centre, l.quality};
       Record(frame, l);
+      last_found_frame = frame;
+      last_found_px = l.centre;
       if (lost_since >= 0 && lost_since < frame) {
         warnings.push_back("marker found again at frame " + std::to_string(frame) + " at " + Point(l.centre));
       }
@@ -546,6 +571,23 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
                          " (partly hidden, cut or washed out compared with the clip's other frames); left empty, "
                          "each with its reason");
   }
+  if (!im.jumps.empty()) {
+    std::vector<FrameRange> ranges;
+    for (const EmptyFrame& e : im.jumps) {
+      if (!ranges.empty() && ranges.back().last == e.frame - 1) {
+        ranges.back().last = e.frame;
+      } else {
+        ranges.push_back({e.frame, e.frame});
+      }
+    }
+    t.warnings.push_back(prefix + "template matches not taken on " + std::to_string(im.jumps.size()) +
+                         " frames: " + FormatFrameRanges(ranges) +
+                         " (farther from the marker's last position than a free fall allows); left empty, each with "
+                         "its reason; on a turning wheel use a quadrant disc or a dot");
+    t.left_empty.insert(t.left_empty.end(), im.jumps.begin(), im.jumps.end());
+    std::stable_sort(t.left_empty.begin(), t.left_empty.end(),
+                     [](const EmptyFrame& a, const EmptyFrame& b) { return a.frame < b.frame; });
+  }
   for (const TrackSample& s : t.samples) {
     if (s.found) {
       ++t.tracked_frames;
@@ -558,14 +600,14 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
   if (!im.chosen) {
     const TrackOptions& o = im.o;
     std::string kinds = o.marker == MarkerKind::kAuto ? "quadrant disc or dot" : ToString(o.marker);
-    t.errors.push_back(prefix + "no " + kinds + " marker found (searched frames 0-" +
-                       std::to_string(std::min(o.detect_frames, t.frames) - 1) + " and every " +
-                       std::to_string(o.detect_every_frames) +
-                       "th frame after; a marker needs a contrast of at least " + Num(o.detect.min_contrast) +
-                       " grey levels and a radius of " + Num(o.detect.min_radius_px) + "-" +
-                       Num(o.detect.max_radius_px) +
-                       " px). Try: --seed U,V at the marker's centre in the first frame; --marker quadrant or --marker "
-                       "dot; or --marker template --seed U,V to follow any textured patch");
+    t.errors.push_back(
+        prefix + "no " + kinds + " marker found (searched frames 0-" +
+        std::to_string(std::min(o.detect_frames, t.frames) - 1) + " and every " +
+        std::to_string(o.detect_every_frames) + "th frame after; a marker needs a contrast of at least " +
+        Num(o.detect.min_contrast) + " grey levels and a radius of " + Num(o.detect.min_radius_px) + "-" +
+        Num(o.detect.max_radius_px) +
+        " px). Try: --marker-at U,V at the marker's centre in the first frame; --marker quadrant or --marker "
+        "dot; or --marker template --marker-at U,V to follow any textured patch");
   } else if (!t.lost.empty()) {
     t.warnings.push_back(prefix + "marker not found in " + std::to_string(t.frames - t.tracked_frames) + " of " +
                          std::to_string(t.frames) + " frames: " + FormatFrameRanges(t.lost) +

@@ -27,6 +27,9 @@
 //    the frames between (a marker hidden for a few frames is found again on the first frame it
 //    shows). Positions are never invented: a frame without the
 //    marker has found = false, and the lost frames are reported as ranges.
+//    A template re-locks on any patch that looks alike, also on one far away: a match that
+//    jumps farther than the marker can move in the frames since its last position
+//    (`max_step_px`) is not taken.
 // 4. Judging each frame against the clip's own (quadrant discs and dots, when judge_against_clip
 //    and at least judge_min_frames frames were found; docs/methods.md §15). A marker partly
 //    hidden (a guide rail, a hand, a cable, a card), cut or washed out still gives a fit, with a
@@ -87,6 +90,13 @@ struct TrackOptions {
   double shift_mads = 25.0;            // ... and the median + this x the scaled MAD; [1, 1000]
   double washed_out_ratio = 0.5;       // contrast below this x the clip's median: washed out; [0, 1)
   int judge_min_frames = 10;           // fewer frames found: none is judged; [3, 1e6]
+  // Templates: the largest plausible move of the marker from one frame to the next [px] (the
+  // pipeline sets it from free fall from the drop height + 0.5 m, pipeline::MaxMarkerStepPx);
+  // unset: no limit; > 0. A template match farther than k x max_step_px + jump_slack_px from
+  // the last position found k frames before is rejected: the frame is left empty with the
+  // reason (Track::left_empty), and the marker counts as lost on it (see 3. above).
+  std::optional<double> max_step_px;
+  double jump_slack_px = 3.0;  // [px] [0, 1000]: the location's own uncertainty
 };
 // A message naming the first field out of range, or nothing.
 std::optional<std::string> ValidateTrackOptions(const TrackOptions& options);

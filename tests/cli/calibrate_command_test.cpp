@@ -91,6 +91,8 @@ CalibrateCommandOptions BaseOptions(const std::string& rig_name) {
   const Fixture& f = TheFixture();
   CalibrateCommandOptions o;
   o.inputs = {(f.dir / "views").string()};
+  o.board = "9x6";
+  o.square_m = 0.025;
   o.plane_image = (f.dir / "plane.png").string();
   o.out_path = (f.dir / rig_name).string();
   return o;
@@ -215,6 +217,7 @@ TEST(CalibrateCommand, TheRenderersCalibrationImagesGiveBackItsCameraAndDropPlan
     if (im.drop_plane) o.plane_image = p.string();
   }
   o.inputs = {(dir / "views").string()};
+  o.board = "9x6";
   o.square_m = board.square_m;
   o.corner_height_m = synth::PlaneBoardCornerHeight(board);
   o.out_path = (dir / "rig.json").string();

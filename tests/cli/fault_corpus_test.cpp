@@ -556,6 +556,8 @@ TEST(FaultCorpus, CalibrationImagesWithoutABoardAreRefusedAndAnEarlierRigIsKept)
   for (int f : {0, 100, 200}) fs::copy_file(c.clips / "gap" / FrameName(f), views / FrameName(f));
   CalibrateCommandOptions o;
   o.inputs = {views.string()};
+  o.board = "9x6";
+  o.square_m = 0.025;
   o.plane_image = (views / FrameName(0)).string();
   o.out_path = (c.dir / "kept_rig.json").string();
   fs::copy_file(c.rig, o.out_path);

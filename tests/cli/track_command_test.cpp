@@ -207,7 +207,7 @@ TEST(TrackCommand, MarkerNeverFoundFailsTheClipAndSaysWhatToTry) {
   const ClipResult res = ReadClipResult(tmp.path() / "out" / "result.json");
   EXPECT_EQ(res.tracked_frames, 0);
   EXPECT_TRUE(Contains(res.errors, "no quadrant disc or dot marker found"));
-  EXPECT_TRUE(Contains(res.errors, "Try: --seed U,V"));
+  EXPECT_TRUE(Contains(res.errors, "Try: --marker-at U,V"));
   EXPECT_EQ(ReadTrackCsv(tmp.path() / "out" / "track.csv").size(), 5u);
 }
 
@@ -239,7 +239,7 @@ TEST(TrackCommand, BadUsageWritesNothingAndExitsTwo) {
   o.marker = "circle";
   expect_bad(o);
   o = Options(tmp.path() / "c.avi", rig, tmp.path() / "out");
-  o.seed = "12;4";
+  o.marker_at = "12;4";
   expect_bad(o);
   o = Options(tmp.path() / "c.avi", rig, tmp.path() / "out");
   o.marker = "template";  // needs a seed
@@ -249,14 +249,14 @@ TEST(TrackCommand, BadUsageWritesNothingAndExitsTwo) {
   expect_bad(Options(tmp.path() / "c.avi", WriteRig(tmp.path(), {640, 480}), tmp.path() / "out"));
 }
 
-TEST(TrackCommand, SeedTextIsParsedOrRejectedWithAnExample) {
-  EXPECT_EQ(ParseSeed("412.5,230"), cv::Point2d(412.5, 230));
-  EXPECT_EQ(ParseSeed("1, 2"), cv::Point2d(1, 2));
+TEST(TrackCommand, MarkerAtTextIsParsedOrRejectedWithAnExample) {
+  EXPECT_EQ(ParseMarkerAt("412.5,230"), cv::Point2d(412.5, 230));
+  EXPECT_EQ(ParseMarkerAt("1, 2"), cv::Point2d(1, 2));
   try {
-    ParseSeed("412");
+    ParseMarkerAt("412");
     FAIL() << "no exception";
   } catch (const std::invalid_argument& e) {
-    EXPECT_STREQ(e.what(), "--seed '412' is not U,V in pixels (two numbers, e.g. --seed 412.5,230)");
+    EXPECT_STREQ(e.what(), "--marker-at '412' is not U,V in pixels (two numbers, e.g. --marker-at 412.5,230)");
   }
 }
 

@@ -159,7 +159,7 @@ TEST(Track, SeedPicksOneOfTwoMarkers) {
   const Track tr2 = t2.Finish(1, "two");
   ASSERT_FALSE(tr2.warnings.empty());
   EXPECT_NE(tr2.warnings[0].find("several marker candidates"), std::string::npos) << tr2.warnings[0];
-  EXPECT_NE(tr2.warnings[0].find("--seed U,V"), std::string::npos);
+  EXPECT_NE(tr2.warnings[0].find("--marker-at U,V"), std::string::npos);
 }
 
 TEST(Track, MarkerLeavingTheViewLeavesEmptyFramesReportedAsRanges) {
@@ -208,7 +208,7 @@ TEST(Track, MarkerNeverFoundIsAnErrorThatSaysWhatToTry) {
   EXPECT_EQ(tr.tracked_frames, 0);
   ASSERT_EQ(tr.errors.size(), 1u);
   EXPECT_NE(tr.errors[0].find("empty.avi: no quadrant disc or dot marker found"), std::string::npos) << tr.errors[0];
-  EXPECT_NE(tr.errors[0].find("Try: --seed U,V"), std::string::npos);
+  EXPECT_NE(tr.errors[0].find("Try: --marker-at U,V"), std::string::npos);
   EXPECT_NE(tr.errors[0].find("--marker template"), std::string::npos);
 }
 
