@@ -245,9 +245,14 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   if (m.kinematics.failure) return m;
   if (options.track && request.gravity_ruler) ApplyGravityRuler(rig, fps, *options.track, kinematics_options, m);
   if (m.kinematics.failure) return m;
+  // The plausibility gate: the rate as ResolveCaptureRate found it (the clip's own as the last).
+  const std::optional<CaptureRate> rate =
+      ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, fps);
+  if (rate) m.plausibility_problem = GravityGateProblem(m.kinematics.checks.gravity, *rate);
+  if (m.plausibility_problem) m.flags.push_back(kFlagRateOrScale);
   m.fit_clip = analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, m.series,
                                      m.kinematics.segmentation, m.kinematics.impacts);
-  if (options.fit_laws) {
+  if (options.fit_laws && !m.plausibility_problem) {
     FitLaws(kinematics_options, m);
   } else if (options.onset_from_fit && !kinematics_options.onset_height_m) {
     ReadAtFittedOnset(kinematics_options, options.onset_from_fit->first, options.onset_from_fit->second, m);
