@@ -67,8 +67,28 @@ std::vector<analysis::FlightWindow> FlightWindowsOf(const analysis::Segmentation
 // The gravity ruler on a measured clip (docs/formats.md, "Gravity ruler"): estimate the marker
 // plane's offset; with none given, apply it when the policy allows (mapping the track again and
 // measuring it again, twice at most); with one given, warn where they disagree beyond 3 sd.
+void ApplyGravityRulerSteps(const calib::Rig& rig, double fps, const tracker::Track& track,
+                            const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m);
+
+// The ruler's Newton steps may ask for a plane the rig cannot map (behind the camera) when the
+// flights are far from g (e.g. a rate 2x too low): that is no marker offset but a wrong rate,
+// unit or rig, left to the plausibility gate (pipeline/plausibility.h) with the kinematics as
+// they were.
 void ApplyGravityRuler(const calib::Rig& rig, double fps, const tracker::Track& track,
                        const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
+  const ClipMeasurement before = m;
+  try {
+    ApplyGravityRulerSteps(rig, fps, track, kinematics_options, m);
+  } catch (const std::invalid_argument&) {
+    m = before;
+    m.gravity_warnings.push_back(
+        "the gravity ruler found no marker plane between the camera and beyond the calibrated plane that makes the "
+        "flights fall at g: this is no marker offset but a wrong capture rate, unit or rig; not applied");
+  }
+}
+
+void ApplyGravityRulerSteps(const calib::Rig& rig, double fps, const tracker::Track& track,
+                            const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
   if (!m.camera_distance_m) {
     m.gravity_warnings.push_back(
         "the gravity ruler was skipped: the rig knows no pose of its calibrated plane (plane view only, no lens "

@@ -71,8 +71,8 @@ std::optional<std::string> GravityGateProblem(const analysis::GravityCheckResult
     m += "the capture rate looks " + Fixed(shown, 2) + "x too " + (rate_factor >= 1.0 ? "low" : "high") + ": " +
          RateText(rate.fps) + " frames/s was used (" + SourceText(rate.source) + "), " + fit +
          " frames/s would fit; give the camera's true rate: --fps " + fit + ", or capture_fps " + fit +
-         " in the manifest. If the rate is right, lengths are " + Fixed(a / g, 3) +
-         " x too large: check the rig's square size (dropfit calibrate --square, in metres) and the marker's plane "
+         " in the manifest. If the rate is right, lengths are read at " + Fixed(a / g, 3) +
+         " x their true size: check the rig's square size (dropfit calibrate --square, in metres) and the marker's plane "
          "(--marker-offset)";
   }
   m += ". The contact laws were not fitted; the clip is left out of the means and the joint fits";
