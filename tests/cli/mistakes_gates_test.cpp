@@ -11,9 +11,11 @@
 // The flight acceleration scales as (capture rate)^2 (analysis/self_checks.h; kinematics, common
 // practice, no source): a rate 2x too high reads g as 4 g, one 2x too low as g / 4.
 #include <gtest/gtest.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <chrono>
+#include <cstdio>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -33,6 +35,7 @@
 #include "cli/run_command.h"
 #include "cli/summary_build.h"
 #include "media/frame_source.h"
+#include "media/library_log.h"
 #include "media/video_out.h"
 #include "synth/fit_synthetic.h"
 #include "tests/support/temp_dir.h"
@@ -41,6 +44,13 @@ namespace dropfit::cli {
 namespace {
 
 namespace fs = std::filesystem;
+
+// As `dropfit` does without --verbose (cli/main.cpp), before any clip is opened in this process:
+// OpenCV reads the FFmpeg log level once, at its backend's first use (media/library_log.h).
+const bool kQuietLibraries = [] {
+  media::SetLibraryLogQuiet(true);
+  return true;
+}();
 
 // The cut: frames [kFirstFrame, kFirstFrame + kFrames) of drop_h150mm_r1.mp4 (truth.json: first
 // contact at 185 ms, separation at 208 ms, the next apex near 340 ms at 1000 frames/s).
@@ -153,6 +163,34 @@ void ExpectGroupWithoutNumbers(const fs::path& out) {
   EXPECT_EQ(f[2], "0");
   for (size_t i = 3; i < 17; ++i) EXPECT_EQ(f[i], "") << "column " << i << " of " << lines[1];
   EXPECT_EQ(f[17], "rate_or_scale;failed");
+}
+
+TEST(MistakesGates, ATruncatedVideoLeavesNoLineOfTheVideoLibrariesOnStderr) {
+  // Issue 18: FFmpeg's own lines ("[mov,mp4,... @ 0x...] moov atom not found") leaked to stderr;
+  // dropfit's own message says what is wrong (media/frame_source.h). The process's stderr is sent
+  // to a file while the clip is opened.
+  ASSERT_TRUE(kQuietLibraries);
+  test::TempDir dir("mistake_ffmpeg_log");
+  const std::string bytes = Read(Demo() / "drop_h150mm_r1.mp4");
+  Write(dir.path() / "truncated.mp4", bytes.substr(0, bytes.size() / 4));
+  const fs::path captured = dir.path() / "stderr.txt";
+  std::fflush(stderr);
+  const int saved = ::dup(2);
+  FILE* file = std::fopen(captured.c_str(), "w");
+  ASSERT_NE(file, nullptr);
+  ::dup2(::fileno(file), 2);
+  std::string message;
+  try {
+    media::FrameSource::Open(dir.path() / "truncated.mp4");
+  } catch (const std::exception& e) {
+    message = e.what();
+  }
+  std::fflush(stderr);
+  ::dup2(saved, 2);
+  ::close(saved);
+  std::fclose(file);
+  EXPECT_TRUE(Contains(message, "truncated.mp4")) << message;
+  EXPECT_EQ(Read(captured), "");
 }
 
 TEST(MistakesGates, AManifestRateTwiceTooHighFailsTheClipNamingTheRateThatFitsWithoutFittingIt) {
