@@ -255,8 +255,8 @@ struct LawFitResult {
   // (max_iterations reached), "time_guard" (max_solve_seconds reached), "solver_failure" (no
   // usable step), or "not_fitted" (failure set).
   std::string stop_reason = "not_fitted";
-  std::string formula;      // LawFormula(law, tread)
-  std::string start_note;   // how the starting values were obtained
+  std::string formula;     // LawFormula(law, tread)
+  std::string start_note;  // how the starting values were obtained
   std::vector<std::string> warnings;
   std::vector<BounceFitFigures> figures;
   std::vector<ForceDeflectionCurve> curves;

@@ -85,7 +85,8 @@ void FlagImplausibleImpacts(double mass_kg, const std::string& clip, ClipResult&
                                 "floor (--corner-height) or square size" +
                                 left_out);
     }
-    const double bound = kPeakForceBound * mass_kg * (im.impact_speed_mps + im.rebound_speed_mps) / im.contact_duration_s;
+    const double bound =
+        kPeakForceBound * mass_kg * (im.impact_speed_mps + im.rebound_speed_mps) / im.contact_duration_s;
     if (std::isfinite(im.peak_force_n) && std::isfinite(bound) && bound > 0.0 && im.peak_force_n > bound) {
       AddFlag(im.flags, kFlagPeakForceImplausible);
       result.warnings.push_back(where + "the peak force " + G4(im.peak_force_n) + " N is above 5 m (v_impact + " +

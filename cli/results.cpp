@@ -174,8 +174,8 @@ void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<Summar
       std::string flags;
       for (const std::string& f : g.flags) flags += (flags.empty() ? "" : ";") + f;
       out << CsvText(g.specimen) << ',' << FormatNumber(g.drop_height_m) << ',' << g.clips << ','
-          << MeanAndSd(g.impact_speed_mps_mean, g.impact_speed_mps_sd) << ',' << MeanAndSd(g.cor_mean, g.cor_sd)
-          << ',' << MeanAndSd(g.contact_duration_s_mean, g.contact_duration_s_sd) << ','
+          << MeanAndSd(g.impact_speed_mps_mean, g.impact_speed_mps_sd) << ',' << MeanAndSd(g.cor_mean, g.cor_sd) << ','
+          << MeanAndSd(g.contact_duration_s_mean, g.contact_duration_s_sd) << ','
           << MeanAndSd(g.max_deflection_m_mean, g.max_deflection_m_sd) << ','
           << MeanAndSd(g.peak_force_n_mean, g.peak_force_n_sd) << ','
           << MeanAndSd(g.rebound_speed_mps_mean, g.rebound_speed_mps_sd) << ','

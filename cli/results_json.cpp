@@ -50,9 +50,19 @@ NamedValues GetValues(const json& j) {
   return out;
 }
 
-const char* const kImpactKeys[] = {
-    "t_contact_s",      "t_separation_s", "impact_speed_mps", "rebound_speed_mps",   "cor",    "contact_duration_s",
-    "max_deflection_m", "peak_force_n",   "onset_height_m",   "onset_height_source", "source", "complete", "flags"};
+const char* const kImpactKeys[] = {"t_contact_s",
+                                   "t_separation_s",
+                                   "impact_speed_mps",
+                                   "rebound_speed_mps",
+                                   "cor",
+                                   "contact_duration_s",
+                                   "max_deflection_m",
+                                   "peak_force_n",
+                                   "onset_height_m",
+                                   "onset_height_source",
+                                   "source",
+                                   "complete",
+                                   "flags"};
 const char* const kFitKeys[] = {"law",     "params",         "param_sd", "onset_height_m", "onset_height_source",
                                 "bounces", "rms_residual_m", "bic",      "converged"};
 

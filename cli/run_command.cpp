@@ -270,8 +270,8 @@ void PrintWarnings(const std::vector<ClipMessage>& warnings, ProgressDisplay& pr
     else
       ++it->second;
   }
-  std::string line = "dropfit run: " + std::to_string(warnings.size()) + " warning" +
-                     (warnings.size() == 1 ? "" : "s") + " (";
+  std::string line =
+      "dropfit run: " + std::to_string(warnings.size()) + " warning" + (warnings.size() == 1 ? "" : "s") + " (";
   for (size_t i = 0; i < kinds.size(); ++i) {
     line += (i ? ", " : "") + kinds[i].first + ": ";
     line += std::to_string(kinds[i].second);

@@ -41,8 +41,7 @@ std::string SourceText(CaptureRateSource source) {
 }  // namespace
 
 std::optional<std::string> ValidatePlausibilityOptions(const PlausibilityOptions& o) {
-  if (!(o.tolerance > 0.0 && o.tolerance < 1.0))
-    return "tolerance = " + Fixed(o.tolerance, 6) + " is outside (0, 1)";
+  if (!(o.tolerance > 0.0 && o.tolerance < 1.0)) return "tolerance = " + Fixed(o.tolerance, 6) + " is outside (0, 1)";
   if (!(o.sigmas >= 0.0 && o.sigmas <= 100.0)) return "sigmas = " + Fixed(o.sigmas, 3) + " is outside [0, 100]";
   return std::nullopt;
 }
@@ -72,7 +71,8 @@ std::optional<std::string> GravityGateProblem(const analysis::GravityCheckResult
          RateText(rate.fps) + " frames/s was used (" + SourceText(rate.source) + "), " + fit +
          " frames/s would fit; give the camera's true rate: --fps " + fit + ", or capture_fps " + fit +
          " in the manifest. If the rate is right, lengths are read at " + Fixed(a / g, 3) +
-         " x their true size: check the rig's square size (dropfit calibrate --square, in metres) and the marker's plane "
+         " x their true size: check the rig's square size (dropfit calibrate --square, in metres) and the marker's "
+         "plane "
          "(--marker-offset)";
   }
   m += ". The contact laws were not fitted; the clip is left out of the means and the joint fits";

@@ -15,8 +15,8 @@
 
 #include <algorithm>
 #include <chrono>
-#include <cstdio>
 #include <cmath>
+#include <cstdio>
 #include <filesystem>
 #include <fstream>
 #include <map>
@@ -324,8 +324,9 @@ TEST(MistakesGates, AJobsCountOutsideItsRangeIsRefusedWithTheRangeInPlainNumbers
   o.jobs = -1;
   std::ostringstream sink, err;
   EXPECT_EQ(RunRun(o, sink, err), kExitBadUsage);
-  EXPECT_EQ(err.str(), "dropfit run: --jobs -1 is outside [0, 256]; give 0 (all cores) or a count of clips to "
-                       "analyse at once\n");
+  EXPECT_EQ(err.str(),
+            "dropfit run: --jobs -1 is outside [0, 256]; give 0 (all cores) or a count of clips to "
+            "analyse at once\n");
   EXPECT_FALSE(fs::exists(dir.path() / "out")) << "nothing written";
 }
 
@@ -409,8 +410,8 @@ TEST(MistakesGates, AFitStoppedByItsIterationBudgetSaysSoAndIsNotConverged) {
   // A law fit with a budget of 1 iteration per start on a known-answer clip (synth/fit_synthetic.h)
   // stops unconverged with the reason "iteration_budget"; the default budget converges.
   const analysis::LawId law = analysis::LawId::kKelvinVoigt;
-  const analysis::DropScenario scenario = synth::MakeDropScenario(
-      law, synth::TyreLikeLawParams(law), synth::TyreLikeTread(), 10.0, 0.3, 0.2, 0.6);
+  const analysis::DropScenario scenario =
+      synth::MakeDropScenario(law, synth::TyreLikeLawParams(law), synth::TyreLikeTread(), 10.0, 0.3, 0.2, 0.6);
   synth::SyntheticClipOptions so;
   so.noise_sd_m = 1e-5;
   so.seed = 18;
