@@ -206,9 +206,9 @@ void WriteLawsCsv(const std::filesystem::path& path, const std::vector<SpecimenS
         for (size_t i = 0; i < jf.fit.params.size(); ++i) {
           const auto& [name, value] = jf.fit.params[i];
           const double sd = i < jf.fit.param_sd.size() ? jf.fit.param_sd[i].second : std::nan("");
-          out << CsvText(sp.specimen) << ',' << jf.fit.law << ',' << name << ',' << FormatNumber(value) << ','
-              << FormatNumber(sd) << ',' << FormatNumber(jf.fit.bic) << ',' << FormatNumber(jf.fit.bic - best_bic)
-              << ',' << (best ? 1 : 0) << ',' << FormatNumber(cor_max) << ',' << FormatNumber(duration_max) << '\n';
+          out << CsvText(sp.specimen) << ',' << jf.fit.law << ',' << name << ',' << Rounded(value, sd) << ','
+              << Rounded(sd, sd) << ',' << FormatNumber(jf.fit.bic) << ',' << FormatNumber(jf.fit.bic - best_bic) << ','
+              << (best ? 1 : 0) << ',' << FormatNumber(cor_max) << ',' << FormatNumber(duration_max) << '\n';
         }
       }
     }

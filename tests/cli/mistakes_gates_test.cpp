@@ -406,6 +406,31 @@ TEST(MistakesGates, SummaryNumbersAreWrittenToTheSecondSignificantDigitOfTheirSd
   EXPECT_EQ(f[17], "incomplete;failed");
 }
 
+TEST(MistakesGates, LawsCsvHasOneRowPerSpecimenLawAndParameterWithTheBicDifferenceToTheBestLaw) {
+  // docs/formats.md, "laws.csv"; the rounding as summary.csv's (GUM, JCGM 100:2008, §7.2.6).
+  test::TempDir dir("mistake_laws_csv");
+  SpecimenSummary sp;
+  sp.specimen = "wheel";
+  sp.best_law = "hertz";
+  JointFitRecord hertz, kv;
+  hertz.fit.law = "hertz";
+  hertz.fit.params = {{"k", 499494.508}, {"n", 1.5}};
+  hertz.fit.param_sd = {{"k", 596.29}, {"n", 0.0}};
+  hertz.fit.bic = -1000.5;
+  hertz.holdout = {{0.15, -0.0002, 0.00003, 0.0}, {0.35, 0.0001, -0.00008, 0.0}};
+  kv.fit.law = "kelvin-voigt";
+  kv.fit.params = {{"k_n_per_m", 31333.18}};
+  kv.fit.param_sd = {{"k_n_per_m", HUGE_VAL}};  // not determined by the data
+  kv.fit.bic = -990.25;
+  sp.joint_fits = {hertz, kv};
+  WriteLawsCsv(dir.path() / "laws.csv", {sp});
+  EXPECT_EQ(Read(dir.path() / "laws.csv"),
+            "specimen,law,parameter,value,sd,bic,delta_bic,best,holdout_cor_error_max,holdout_duration_error_max_s\n"
+            "wheel,hertz,k,499490,600,-1000.5,0,1,2e-04,8e-05\n"
+            "wheel,hertz,n,1.5,0,-1000.5,0,1,2e-04,8e-05\n"
+            "wheel,kelvin-voigt,k_n_per_m,31333.18,,-990.25,10.25,0,,\n");
+}
+
 TEST(MistakesGates, AFitStoppedByItsIterationBudgetSaysSoAndIsNotConverged) {
   // A law fit with a budget of 1 iteration per start on a known-answer clip (synth/fit_synthetic.h)
   // stops unconverged with the reason "iteration_budget"; the default budget converges.
