@@ -82,8 +82,8 @@ void ApplyGravityRuler(const calib::Rig& rig, double fps, const tracker::Track& 
   } catch (const std::invalid_argument&) {
     m = before;
     m.gravity_warnings.push_back(
-        "the gravity ruler found no marker plane between the camera and beyond the calibrated plane that makes the "
-        "flights fall at g: this is no marker offset but a wrong capture rate, unit or rig; not applied");
+        "the gravity ruler found no marker plane in front of the camera that makes the flights fall at g: this is no "
+        "marker offset but a wrong capture rate, unit or rig; not applied");
   }
 }
 
