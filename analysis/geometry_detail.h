@@ -125,8 +125,12 @@ T InterpenetrationVolume(const TreadGeometry& geometry, const T& delta_m) {
     if (table != nullptr && table->section_radius_m == geometry.section_radius_m &&
         table->centre_radius_m == geometry.free_radius_m - geometry.section_radius_m) {
       const int intervals = static_cast<int>(table->knots.size() / 3) - 1;
-      const int i = static_cast<int>(d / table->knot_step_m);
-      if (i < intervals) {
+      // The knot index is taken only once the depth is known to lie inside the table: a depth
+      // far beyond it (a fit gone astray, e.g. at a wrong capture rate) would overflow the int
+      // conversion and index outside the knots (issue 18: a segmentation fault in `run`).
+      const double position = d / table->knot_step_m;
+      if (position < static_cast<double>(intervals)) {
+        const int i = static_cast<int>(position);
         const double* k0 = &table->knots[3 * i];
         const double* k1 = k0 + 3;
         // Quintic Hermite through (V, hV', h^2V'') at both knots (s in [0, 1]).

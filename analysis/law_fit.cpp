@@ -428,6 +428,7 @@ ceres::Solver::Options SolverOptions(const LawFitOptions& options) {
   ceres::Solver::Options solver;
   solver.linear_solver_type = ceres::DENSE_QR;
   solver.max_num_iterations = options.max_iterations;
+  solver.max_solver_time_in_seconds = options.max_solve_seconds;
   solver.function_tolerance = options.function_tolerance;
   solver.parameter_tolerance = options.parameter_tolerance;
   solver.gradient_tolerance = 1e-16;
@@ -544,6 +545,14 @@ void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* resul
   const ceres::Solver::Summary& summary = best.summary;
   result->converged = summary.termination_type == ceres::CONVERGENCE;
   result->termination = summary.message;
+  if (result->converged) {
+    result->stop_reason = "converged";
+  } else if (summary.termination_type == ceres::NO_CONVERGENCE) {
+    // Ceres ends an unconverged solve at its iteration or its time limit; the message says which.
+    result->stop_reason = summary.message.find("time") != std::string::npos ? "time_guard" : "iteration_budget";
+  } else {
+    result->stop_reason = "solver_failure";
+  }
   if (!result->converged) result->warnings.push_back("the fit did not converge: " + summary.message);
 
   std::vector<double> x_params(kMaxLawParameters);
@@ -977,6 +986,8 @@ std::optional<std::string> ValidateLawFitOptions(const LawFitOptions& o) {
     m << "gravity_mps2 = " << o.gravity_mps2 << " is outside [0, 100]";
   else if (o.max_iterations < 1 || o.max_iterations > 1000)
     m << "max_iterations = " << o.max_iterations << " is outside [1, 1000]";
+  else if (!(o.max_solve_seconds > 0.1 && o.max_solve_seconds <= 86400.0))
+    m << "max_solve_seconds = " << o.max_solve_seconds << " is outside (0.1, 86400] s";
   else if (!(o.function_tolerance > 0.0 && o.function_tolerance <= 1e-2))
     m << "function_tolerance = " << o.function_tolerance << " is outside (0, 1e-2]";
   else if (!(o.parameter_tolerance > 0.0 && o.parameter_tolerance <= 1e-2))

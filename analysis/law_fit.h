@@ -155,7 +155,10 @@ FitClip MakeFitClip(const std::string& clip, double drop_height_m, double mass_k
 //   tread                 the volumetric law's geometry (MakeTreadGeometry).
 //   multi_start           try every start of GuessLawParameters and keep the lowest cost;
 //                         false: the first start only.
-//   max_iterations        Levenberg-Marquardt iterations per start [1, 1000].
+//   max_iterations        Levenberg-Marquardt iterations per start [1, 1000]: the budget that
+//                         decides when a solve stops unconverged (stop_reason "iteration_budget").
+//   max_solve_seconds     wall-time guard per solve against a hang (0.1, 86400] s; not a
+//                         budget: a solve that reaches it says so (stop_reason "time_guard").
 //   function_tolerance    relative cost change that ends a solve (Ceres) (0, 1e-2].
 //   parameter_tolerance   relative step size that ends a solve (Ceres) (0, 1e-2].
 //   model                 integrator tolerances of the forward model.
@@ -169,6 +172,7 @@ struct LawFitOptions {
   TreadGeometry tread;
   bool multi_start = true;
   int max_iterations = 60;
+  double max_solve_seconds = 300.0;
   double function_tolerance = 1e-12;
   double parameter_tolerance = 1e-12;
   ForwardModelOptions model;  // the defaults: ForFitting() saves ~25 % but its jitter stalls bilinear fits
@@ -249,8 +253,12 @@ struct LawFitResult {
   int starts = 0;      // multi-start count
   double solve_time_s = 0.0;
   std::string termination;  // Ceres' message of the kept start
-  std::string formula;      // LawFormula(law, tread)
-  std::string start_note;   // how the starting values were obtained
+  // Why the solve stopped (docs/formats.md, "Fit records"): "converged", "iteration_budget"
+  // (max_iterations reached), "time_guard" (max_solve_seconds reached), "solver_failure" (no
+  // usable step), or "not_fitted" (failure set).
+  std::string stop_reason = "not_fitted";
+  std::string formula;     // LawFormula(law, tread)
+  std::string start_note;  // how the starting values were obtained
   std::vector<std::string> warnings;
   std::vector<BounceFitFigures> figures;
   std::vector<ForceDeflectionCurve> curves;

@@ -1,6 +1,7 @@
 #include "cli/clip_records.h"
 
 #include <cmath>
+#include <cstdio>
 #include <stdexcept>
 
 #include "cli/fit_records.h"
@@ -57,6 +58,48 @@ ImpactRecord ImpactRecordOf(const analysis::ImpactFigures& f, const analysis::Se
   return r;
 }
 
+std::string G4(double v) {
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.4g", v);
+  return buf;
+}
+
+}  // namespace
+
+void FlagImplausibleImpacts(double mass_kg, const std::string& clip, ClipResult& result) {
+  for (size_t i = 0; i < result.impacts.size(); ++i) {
+    ImpactRecord& im = result.impacts[i];
+    const std::string where = clip + ": bounce " + std::to_string(i) + ": ";
+    const std::string left_out = "; kept in result.json, flagged, and left out of the means";
+    if (std::isfinite(im.cor) && im.cor > 1.0) {
+      AddFlag(im.flags, kFlagCorAbove1);
+      result.warnings.push_back(where + "COR " + G4(im.cor) +
+                                " is above 1 (the hub left faster than it came): a wrong height calibration "
+                                "(--corner-height, in metres), capture rate or marker plane" +
+                                left_out);
+    }
+    if (std::isfinite(im.max_deflection_m) && im.max_deflection_m < 0.0) {
+      AddFlag(im.flags, kFlagNegativeDeflection);
+      result.warnings.push_back(where + "the maximum deflection " + G4(im.max_deflection_m) +
+                                " m is negative (the hub never went below the onset height): a wrong free radius, "
+                                "floor (--corner-height) or square size" +
+                                left_out);
+    }
+    const double bound =
+        kPeakForceBound * mass_kg * (im.impact_speed_mps + im.rebound_speed_mps) / im.contact_duration_s;
+    if (std::isfinite(im.peak_force_n) && std::isfinite(bound) && bound > 0.0 && im.peak_force_n > bound) {
+      AddFlag(im.flags, kFlagPeakForceImplausible);
+      result.warnings.push_back(where + "the peak force " + G4(im.peak_force_n) + " N is above 5 m (v_impact + " +
+                                "v_rebound) / t_contact = " + G4(bound) +
+                                " N, more than any contact pulse of that impulse and duration: a wrong capture rate, "
+                                "mass or contact law" +
+                                left_out);
+    }
+  }
+}
+
+namespace {
+
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
 void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline::ClipMeasurement& m,
                             const std::string& name, const tracker::Track& track, ClipResult& result) {
@@ -71,14 +114,18 @@ void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline
     }
     return;
   }
-  if (request.fit_laws) {
+  if (m.plausibility_problem) {
+    result.errors.push_back(name + ": " + *m.plausibility_problem);
+  } else if (request.fit_laws) {
     if (!m.laws) {
       result.warnings.push_back(name + ": no complete bounce: the contact laws were not fitted");
     } else {
       AddLawFitsToResult(*m.laws, m.law_traces, result);
     }
-    result.extra.push_back({"time_fits_s", m.fit_seconds});
   }
+  if (request.fit_laws) result.extra.push_back({"time_fits_s", m.fit_seconds});
+  for (const std::string& flag : m.flags) AddFlag(result, flag);
+  FlagImplausibleImpacts(m.conditions.mass_kg, name, result);
   if (m.track_force) {
     result.curves.push_back(
         {"track", CurveKind::kForceDeflectionTrack, m.track_force->deflection_m, m.track_force->force_n});

@@ -65,6 +65,19 @@ void AddGravityRulerToResult(const pipeline::ClipMeasurement& m, const std::stri
 // frames_left_empty, and info entries marker_kind, marker_choice, marker_radius_px, lost_frames.
 void AddTrackToResult(const tracker::Track& track, ClipResult& result);
 
+// Flags of docs/formats.md ("Flags") for impact figures kept but implausible (issue 18): a COR
+// above 1, a negative maximum deflection, a peak force above
+// kPeakForceBound m (v_impact + v_rebound) / t_contact. By the impulse-momentum theorem the mean
+// contact force is m (v_impact + v_rebound) / t_contact (plus m g); a half-sine pulse peaks at
+// pi/2 of its mean (common practice, no source), so 5 x is beyond any plausible pulse (the bound
+// of issue 18). Each flag goes on the impact with a warning naming the bounce, the value and the
+// likely cause; the summary leaves flagged impacts out of its means.
+inline constexpr double kPeakForceBound = 5.0;
+inline constexpr const char* kFlagCorAbove1 = "cor_above_1";
+inline constexpr const char* kFlagNegativeDeflection = "negative_deflection";
+inline constexpr const char* kFlagPeakForceImplausible = "peak_force_implausible";
+void FlagImplausibleImpacts(double mass_kg, const std::string& clip, ClipResult& result);
+
 // Fills result.json's analysis fields from a track-only analysis: gravity_check, impacts
 // (contract fields, source "track"; uncertainties and track-only figures beside them as
 // <figure>_sd_<unit> and *_track_*), clip extras (noise_sd_m, onset height, tilt, checks),

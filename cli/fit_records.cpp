@@ -41,7 +41,10 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
     r.extra.emplace_back("onset_height_geometry_m", *fit.onset_prior_m);
     r.extra.emplace_back("onset_height_geometry_sd_m", fit.onset_prior_sd_m);
   }
-  r.notes = {{"formula", fit.formula}, {"termination", fit.termination}, {"start_note", fit.start_note}};
+  r.notes = {{"formula", fit.formula},
+             {"stop_reason", fit.failure ? std::string("not_fitted") : fit.stop_reason},
+             {"termination", fit.termination},
+             {"start_note", fit.start_note}};
   if (fit.failure) r.notes.emplace_back("failure", *fit.failure);
   // A list of texts as one note, joined by " | " (docs/formats.md, "Fit records"), when not empty.
   const auto add_joined = [&r](const char* name, const std::vector<std::string>& texts) {

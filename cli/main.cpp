@@ -8,6 +8,7 @@
 #include "cli/exit_status.h"
 #include "cli/subcommands.h"
 #include "dropfit/version.h"
+#include "media/library_log.h"
 
 int main(int argc, char** argv) {
   // Ceres logs through glog; dropfit reports problems through its own messages.
@@ -22,6 +23,11 @@ int main(int argc, char** argv) {
       "dropfit"};
   app.set_version_flag("--version", std::string("dropfit ") + dropfit::kVersion);
   app.require_subcommand(1, 1);
+  app.fallthrough();  // --verbose also after the subcommand
+  bool verbose = false;
+  app.add_flag("--verbose", verbose,
+               "Let the video decoder's (FFmpeg's) and OpenCV's own log lines through (default: quiet; dropfit "
+               "reports a clip's problems in its own words)");
   app.footer("Run `dropfit <command> --help` for a command's options, units and a worked example.");
 
   dropfit::cli::CommandAction action;
@@ -39,6 +45,7 @@ int main(int argc, char** argv) {
     return code == 0 ? dropfit::cli::kExitDone : dropfit::cli::kExitBadUsage;
   }
   if (!action) return dropfit::cli::kExitBadUsage;
+  dropfit::media::SetLibraryLogQuiet(!verbose);
   try {
     return action();
   } catch (const std::exception& e) {

@@ -12,7 +12,7 @@ void AddRunCommand(CLI::App& app, CommandAction& action) {
   sub->add_option("--rig", opts->rig_path, "Rig file from `dropfit calibrate`")->required();
   sub->add_option("-o,--output", opts->out_dir, "Output folder")->required();
   sub->add_option("--jobs", opts->jobs, "Clips analysed in parallel (0 = number of cores)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(CLI::Range(0, kMaxJobs));
   AddMarkerOffsetOption(sub, &opts->marker_offset_m);
   sub->add_option("--gravity", opts->gravity_mps2,
                   "Local gravity [m/s^2] for every clip; wins over the manifest's gravity_mps2 (default: standard "

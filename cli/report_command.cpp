@@ -53,7 +53,13 @@ int RunReport(const ReportCommandOptions& options, std::ostream& /*out*/, std::o
     return kExitBadUsage;
   }
   std::vector<std::string> problems;
-  const std::vector<ClipReportData> clips = ReadClipResults(out, problems);
+  std::vector<ClipReportData> clips = ReadClipResults(out, problems);
+  // Only the clips of the run's manifest: a result left by a row since removed is not the run's.
+  if (!summary.clips.empty()) {
+    std::erase_if(clips, [&](const ClipReportData& c) {
+      return std::find(summary.clips.begin(), summary.clips.end(), c.result.clip) == summary.clips.end();
+    });
+  }
   for (const std::string& p : problems) {
     err << "dropfit report: skipped " << p << "\n";
     summary.warnings.push_back({"", "report: skipped " + p});

@@ -1,6 +1,8 @@
 // CSV halves of cli/results.h (the JSON halves are in results_json.cpp).
+#include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstdio>
 #include <fstream>
 #include <sstream>
 #include <stdexcept>
@@ -37,7 +39,26 @@ constexpr const char* kTrackHeader = "frame,t_s,u_px,v_px,x_m,y_m,quality";
 constexpr const char* kSummaryHeader =
     "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
     "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
-    "peak_force_n_mean,peak_force_n_sd";
+    "peak_force_n_mean,peak_force_n_sd,rebound_speed_mps_mean,rebound_speed_mps_sd,energy_lost_j_mean,"
+    "energy_lost_j_sd,flags";
+
+// A mean and its sd, both to the sd's second significant digit (docs/formats.md, "summary.csv");
+// without an sd (one clip) or with sd 0 the mean as FormatNumber writes it.
+std::string Rounded(double value, const std::optional<double>& sd) {
+  if (!std::isfinite(value)) return {};
+  if (!sd || !std::isfinite(*sd) || !(*sd > 0.0)) return FormatNumber(value);
+  const int decimals = 1 - static_cast<int>(std::floor(std::log10(*sd)));
+  if (decimals <= 0) {
+    const double unit = std::pow(10.0, -decimals);
+    return FormatNumber(std::round(value / unit) * unit);
+  }
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.*f", std::min(decimals, 17), value);
+  return buf;
+}
+std::string MeanAndSd(double mean, const std::optional<double>& sd) {
+  return Rounded(mean, sd) + "," + (sd ? Rounded(*sd, sd) : std::string());
+}
 
 // Quotes a free-text CSV field when it needs it ("Common Format and MIME Type for Comma-Separated
 // Values (CSV) Files", RFC 4180).
@@ -95,6 +116,10 @@ double ExtraValue(const ClipResult& r, const std::string& key) {
   return std::nan("");
 }
 
+void AddFlag(std::vector<std::string>& flags, const std::string& flag) {
+  if (std::find(flags.begin(), flags.end(), flag) == flags.end()) flags.push_back(flag);
+}
+
 std::string FormatNumber(double value) {
   if (!std::isfinite(value)) return {};
   char buf[64];
@@ -147,12 +172,46 @@ void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<Summar
   WriteFileAtomically(path, [&](std::ostream& out) {
     out << kSummaryHeader << '\n';
     for (const SummaryGroup& g : groups) {
+      std::string flags;
+      for (const std::string& f : g.flags) flags += (flags.empty() ? "" : ";") + f;
       out << CsvText(g.specimen) << ',' << FormatNumber(g.drop_height_m) << ',' << g.clips << ','
-          << FormatNumber(g.impact_speed_mps_mean) << ',' << Optional(g.impact_speed_mps_sd) << ','
-          << FormatNumber(g.cor_mean) << ',' << Optional(g.cor_sd) << ',' << FormatNumber(g.contact_duration_s_mean)
-          << ',' << Optional(g.contact_duration_s_sd) << ',' << FormatNumber(g.max_deflection_m_mean) << ','
-          << Optional(g.max_deflection_m_sd) << ',' << FormatNumber(g.peak_force_n_mean) << ','
-          << Optional(g.peak_force_n_sd) << '\n';
+          << MeanAndSd(g.impact_speed_mps_mean, g.impact_speed_mps_sd) << ',' << MeanAndSd(g.cor_mean, g.cor_sd) << ','
+          << MeanAndSd(g.contact_duration_s_mean, g.contact_duration_s_sd) << ','
+          << MeanAndSd(g.max_deflection_m_mean, g.max_deflection_m_sd) << ','
+          << MeanAndSd(g.peak_force_n_mean, g.peak_force_n_sd) << ','
+          << MeanAndSd(g.rebound_speed_mps_mean, g.rebound_speed_mps_sd) << ','
+          << MeanAndSd(g.energy_lost_j_mean, g.energy_lost_j_sd) << ',' << CsvText(flags) << '\n';
+    }
+  });
+}
+
+void WriteLawsCsv(const std::filesystem::path& path, const std::vector<SpecimenSummary>& specimens) {
+  WriteFileAtomically(path, [&](std::ostream& out) {
+    out << "specimen,law,parameter,value,sd,bic,delta_bic,best,holdout_cor_error_max,holdout_duration_error_max_s\n";
+    for (const SpecimenSummary& sp : specimens) {
+      double best_bic = std::nan("");
+      for (const JointFitRecord& jf : sp.joint_fits) {
+        if (sp.best_law && jf.fit.law == *sp.best_law) best_bic = jf.fit.bic;
+      }
+      for (const JointFitRecord& jf : sp.joint_fits) {
+        double cor_max = std::nan(""), duration_max = std::nan("");
+        for (const HoldoutRecord& h : jf.holdout) {
+          if (std::isfinite(h.cor_error))
+            cor_max = std::isnan(cor_max) ? std::abs(h.cor_error) : std::max(cor_max, std::abs(h.cor_error));
+          if (std::isfinite(h.contact_duration_error_s)) {
+            duration_max = std::isnan(duration_max) ? std::abs(h.contact_duration_error_s)
+                                                    : std::max(duration_max, std::abs(h.contact_duration_error_s));
+          }
+        }
+        const bool best = sp.best_law && jf.fit.law == *sp.best_law;
+        for (size_t i = 0; i < jf.fit.params.size(); ++i) {
+          const auto& [name, value] = jf.fit.params[i];
+          const double sd = i < jf.fit.param_sd.size() ? jf.fit.param_sd[i].second : std::nan("");
+          out << CsvText(sp.specimen) << ',' << jf.fit.law << ',' << name << ',' << Rounded(value, sd) << ','
+              << Rounded(sd, sd) << ',' << FormatNumber(jf.fit.bic) << ',' << FormatNumber(jf.fit.bic - best_bic) << ','
+              << (best ? 1 : 0) << ',' << FormatNumber(cor_max) << ',' << FormatNumber(duration_max) << '\n';
+        }
+      }
     }
   });
 }

@@ -68,6 +68,9 @@ struct ImpactRecord {
   std::string source = "track";               // "track" or a law id
   bool complete = true;
   NamedValues extra;  // uncertainties, track-only estimates, energy lost, ...
+  // Flags of docs/formats.md ("Flags"): a figure kept but implausible (cor_above_1,
+  // negative_deflection, peak_force_implausible); the impact is then left out of the means.
+  std::vector<std::string> flags;
 };
 
 struct FitRecord {
@@ -110,7 +113,18 @@ struct ClipResult {
   NamedValues extra;                              // e.g. noise estimate, tilt
   NamedTexts info;                                // e.g. marker kind chosen and why
   std::vector<Curve> curves;                      // for the report
+  // Flags of docs/formats.md ("Flags"), e.g. "rate_or_scale" (the plausibility gate).
+  std::vector<std::string> flags;
 };
+
+// Group flags of summary.csv (docs/formats.md, "Flags"); the clip and impact flags are declared
+// where they are raised (pipeline/plausibility.h, cli/clip_records.h).
+inline constexpr const char* kFlagFailed = "failed";          // a clip of the group failed
+inline constexpr const char* kFlagIncomplete = "incomplete";  // a clip has no complete impact
+
+// Adds `flag` to a flag list unless it is there already.
+void AddFlag(std::vector<std::string>& flags, const std::string& flag);
+inline void AddFlag(ClipResult& result, const std::string& flag) { AddFlag(result.flags, flag); }
 
 // One row of summary.csv: a (specimen, nominal height) group. `*_sd` empty for one clip.
 struct SummaryGroup {
@@ -127,6 +141,12 @@ struct SummaryGroup {
   std::optional<double> max_deflection_m_sd;
   double peak_force_n_mean = 0.0;
   std::optional<double> peak_force_n_sd;
+  double rebound_speed_mps_mean = 0.0;
+  std::optional<double> rebound_speed_mps_sd;
+  double energy_lost_j_mean = 0.0;
+  std::optional<double> energy_lost_j_sd;
+  // Flags of docs/formats.md ("Flags"): why the group's figures are fewer or suspect.
+  std::vector<std::string> flags;
 };
 
 struct HoldoutRecord {
@@ -163,6 +183,10 @@ struct Summary {
   std::vector<ClipMessage> warnings;
   NamedValues rig_quality;  // the rig's quality figures, for the report
   NamedTexts run;           // effective options and versions of the run
+  // The clip ids of the run's manifest (summary.json "clips"): `dropfit report` shows only these
+  // (a result left in clips/ by a row since removed is not the run's). Empty in a summary.json
+  // written before issue 18: then every result in clips/ is shown.
+  std::vector<std::string> clips;
 };
 
 // track.csv
@@ -177,6 +201,10 @@ ClipResult ReadClipResult(const std::filesystem::path& path);
 // summary.csv and summary.json
 void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<SummaryGroup>& groups);
 void WriteSummaryJson(const std::filesystem::path& path, const Summary& summary);
+// laws.csv (docs/formats.md, "laws.csv"): one row per specimen, joint law and parameter, with the
+// law's BIC, its difference from the best law's, whether it is the best law, and the largest
+// holdout errors of COR and contact duration (absolute values).
+void WriteLawsCsv(const std::filesystem::path& path, const std::vector<SpecimenSummary>& specimens);
 Summary ReadSummaryJson(const std::filesystem::path& path);
 
 // Formats a number for CSV: shortest text that round-trips a double (%.17g trimmed), empty for

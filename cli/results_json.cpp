@@ -57,9 +57,19 @@ NamedValues GetValues(const json& j) {
   return out;
 }
 
-const char* const kImpactKeys[] = {
-    "t_contact_s",      "t_separation_s", "impact_speed_mps", "rebound_speed_mps",   "cor",    "contact_duration_s",
-    "max_deflection_m", "peak_force_n",   "onset_height_m",   "onset_height_source", "source", "complete"};
+const char* const kImpactKeys[] = {"t_contact_s",
+                                   "t_separation_s",
+                                   "impact_speed_mps",
+                                   "rebound_speed_mps",
+                                   "cor",
+                                   "contact_duration_s",
+                                   "max_deflection_m",
+                                   "peak_force_n",
+                                   "onset_height_m",
+                                   "onset_height_source",
+                                   "source",
+                                   "complete",
+                                   "flags"};
 const char* const kFitKeys[] = {"law",     "params",         "param_sd", "onset_height_m", "onset_height_source",
                                 "bounces", "rms_residual_m", "bic",      "converged"};
 
@@ -182,6 +192,7 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
     ji["onset_height_source"] = im.onset_height_source;
     ji["source"] = im.source;
     ji["complete"] = im.complete;
+    if (!im.flags.empty()) ji["flags"] = im.flags;
     AddExtra(ji, im.extra);
     j["impacts"].push_back(ji);
   }
@@ -190,6 +201,7 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
   j["best_law"] = r.best_law ? ordered_json(*r.best_law) : ordered_json(nullptr);
   j["equivalent_laws"] = r.equivalent_laws;
   j["no_law_fits"] = r.no_law_fits ? ordered_json(*r.no_law_fits) : ordered_json(nullptr);
+  j["flags"] = r.flags;
   j["warnings"] = r.warnings;
   j["errors"] = r.errors;
   j["frames_left_empty"] = ordered_json::array();
@@ -230,6 +242,7 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
       im.onset_height_source = ji.value("onset_height_source", "track");
       im.source = ji.value("source", "track");
       im.complete = ji.value("complete", false);
+      im.flags = ji.value("flags", std::vector<std::string>{});
       ReadExtras(ji, kImpactKeys, im.extra, nullptr);
       r.impacts.push_back(im);
     }
@@ -237,6 +250,7 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     if (j.contains("best_law") && j["best_law"].is_string()) r.best_law = j["best_law"].get<std::string>();
     r.equivalent_laws = j.value("equivalent_laws", std::vector<std::string>{});
     if (j.contains("no_law_fits") && j["no_law_fits"].is_string()) r.no_law_fits = j["no_law_fits"].get<std::string>();
+    r.flags = j.value("flags", std::vector<std::string>{});
     r.warnings = j.value("warnings", std::vector<std::string>{});
     r.errors = j.value("errors", std::vector<std::string>{});
     for (const json& e : j.value("frames_left_empty", json::array())) {
@@ -245,7 +259,8 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
     static const char* const kTop[] = {"clip",           "capture_fps",     "capture_fps_source", "frames",
                                        "tracked_frames", "y_origin",        "gravity_check",      "impacts",
                                        "fits",           "best_law",        "warnings",           "errors",
-                                       "curves",         "equivalent_laws", "no_law_fits",        "frames_left_empty"};
+                                       "curves",         "equivalent_laws", "no_law_fits",        "frames_left_empty",
+                                       "flags"};
     ReadExtras(j, kTop, r.extra, &r.info);
     r.curves = CurvesFromJson(j);
     return r;
@@ -270,7 +285,12 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
                            {"max_deflection_m_mean", Number(g.max_deflection_m_mean)},
                            {"max_deflection_m_sd", Number(g.max_deflection_m_sd)},
                            {"peak_force_n_mean", Number(g.peak_force_n_mean)},
-                           {"peak_force_n_sd", Number(g.peak_force_n_sd)}});
+                           {"peak_force_n_sd", Number(g.peak_force_n_sd)},
+                           {"rebound_speed_mps_mean", Number(g.rebound_speed_mps_mean)},
+                           {"rebound_speed_mps_sd", Number(g.rebound_speed_mps_sd)},
+                           {"energy_lost_j_mean", Number(g.energy_lost_j_mean)},
+                           {"energy_lost_j_sd", Number(g.energy_lost_j_sd)},
+                           {"flags", g.flags}});
   }
   j["specimens"] = ordered_json::array();
   for (const SpecimenSummary& sp : s.specimens) {
@@ -302,6 +322,7 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
   };
   j["errors"] = messages(s.errors);
   j["warnings"] = messages(s.warnings);
+  j["clips"] = s.clips;
   j["rig_quality"] = Values(s.rig_quality);
   ordered_json run = ordered_json::object();
   for (const auto& [k, v] : s.run) run[k] = v;
@@ -328,6 +349,12 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
       g.max_deflection_m_sd = GetOptional(jg, "max_deflection_m_sd");
       g.peak_force_n_mean = GetNumber(jg, "peak_force_n_mean");
       g.peak_force_n_sd = GetOptional(jg, "peak_force_n_sd");
+      // Added by issue 18; a summary.json written before has none of them.
+      g.rebound_speed_mps_mean = GetOptional(jg, "rebound_speed_mps_mean").value_or(std::nan(""));
+      g.rebound_speed_mps_sd = GetOptional(jg, "rebound_speed_mps_sd");
+      g.energy_lost_j_mean = GetOptional(jg, "energy_lost_j_mean").value_or(std::nan(""));
+      g.energy_lost_j_sd = GetOptional(jg, "energy_lost_j_sd");
+      g.flags = jg.value("flags", std::vector<std::string>{});
       s.groups.push_back(g);
     }
     for (const json& js : j.at("specimens")) {
@@ -359,6 +386,7 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
     }
     for (const json& m : j.value("errors", json::array())) s.errors.push_back({m.at("clip"), m.at("message")});
     for (const json& m : j.value("warnings", json::array())) s.warnings.push_back({m.at("clip"), m.at("message")});
+    s.clips = j.value("clips", std::vector<std::string>{});
     s.rig_quality = GetValues(j.value("rig_quality", json::object()));
     const json run = j.value("run", json::object());
     for (const auto& [k, v] : run.items()) {

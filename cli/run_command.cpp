@@ -85,6 +85,9 @@ class ProgressDisplay {
   std::chrono::steady_clock::time_point last_{};
 };
 
+// Warnings the run's closing lines show in full.
+constexpr size_t kWarningsShown = 5;
+
 struct ClipSlot {
   const ManifestRow* row = nullptr;
   pipeline::ClipRequest request;
@@ -108,8 +111,9 @@ struct RunStart {
 
 // Returns the message (exit status 2, nothing written) when the run cannot start.
 std::optional<std::string> StartRun(const RunCommandOptions& options, RunStart& start) {
-  if (options.jobs < 0) {
-    return "--jobs " + std::to_string(options.jobs) + " is negative; give 0 (all cores) or a positive count";
+  if (options.jobs < 0 || options.jobs > kMaxJobs) {
+    return "--jobs " + std::to_string(options.jobs) + " is outside [0, " + std::to_string(kMaxJobs) +
+           "]; give 0 (all cores) or a count of clips to analyse at once";
   }
   if (options.gravity_mps2 &&
       !(std::isfinite(*options.gravity_mps2) && *options.gravity_mps2 > 0 && *options.gravity_mps2 <= 100)) {
@@ -232,6 +236,59 @@ void AddRunRecord(const RunCommandOptions& options, const RunStart& start, int r
                  {"time_joint_fits_s", FormatNumber(joint_seconds)}};
 }
 
+// The kind of a warning, for the run's closing count (docs/formats.md, "What `run` prints").
+std::string WarningKind(const std::string& message) {
+  static const std::pair<const char*, const char*> kKinds[] = {
+      {"left out of the means", "implausible figure"},
+      {"gravity check:", "gravity check"},
+      {"tilt check:", "tilt check"},
+      {"drop-height check:", "drop-height check"},
+      {"gravity ruler", "gravity ruler"},
+      {"marker's plane", "gravity ruler"},
+      {"capture rate", "capture rate"},
+      {"manifest", "manifest"},
+      {"marker", "tracking"},
+      {"template", "tracking"},
+      {"converge", "law fit"},
+      {"bound", "law fit"},
+      {"law", "law fit"},
+  };
+  for (const auto& [needle, kind] : kKinds) {
+    if (message.find(needle) != std::string::npos) return kind;
+  }
+  return "other";
+}
+
+// The run's closing lines: the warnings counted per kind and the first few in full.
+void PrintWarnings(const std::vector<ClipMessage>& warnings, ProgressDisplay& progress) {
+  if (warnings.empty()) return;
+  std::vector<std::pair<std::string, int>> kinds;
+  for (const ClipMessage& w : warnings) {
+    const std::string kind = WarningKind(w.message);
+    auto it = std::find_if(kinds.begin(), kinds.end(), [&](const auto& k) { return k.first == kind; });
+    if (it == kinds.end())
+      kinds.push_back({kind, 1});
+    else
+      ++it->second;
+  }
+  std::string line =
+      "dropfit run: " + std::to_string(warnings.size()) + " warning" + (warnings.size() == 1 ? "" : "s") + " (";
+  for (size_t i = 0; i < kinds.size(); ++i) {
+    line += (i ? ", " : "") + kinds[i].first + ": ";
+    line += std::to_string(kinds[i].second);
+  }
+  line += ")";
+  const size_t shown = std::min<size_t>(warnings.size(), kWarningsShown);
+  line += shown < warnings.size() ? "; the first " + std::to_string(shown) + ":" : ":";
+  progress.Line(line);
+  for (size_t i = 0; i < shown; ++i) {
+    std::string w = "  warning: ";
+    if (!warnings[i].clip.empty()) w += warnings[i].clip + ": ";
+    progress.Line(w + warnings[i].message);
+  }
+  if (shown < warnings.size()) progress.Line("  (all of them: summary.json \"warnings\" and the report)");
+}
+
 double SecondsSince(std::chrono::steady_clock::time_point t) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - t).count();
 }
@@ -279,17 +336,21 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
   std::vector<AnalysedClip> analysed;
   std::vector<JointClip> joint_inputs;
   int reused = 0;
+  size_t analysed_count = 0;
   for (const ClipSlot& slot : slots) {
     reused += slot.reused ? 1 : 0;
     for (const std::string& w : slot.result.warnings) summary.warnings.push_back({slot.row->clip_id, w});
     for (const std::string& e : slot.result.errors) {
       summary.errors.push_back({slot.row->clip_id, e});
-      err << "error: " << slot.row->clip_id << ": " << e << "\n";
+      progress.Line("error: " + slot.row->clip_id + ": " + e);
     }
+    // A failed clip only flags its group; the joint fits take the analysed ones.
+    analysed.push_back({slot.row, &slot.result, !slot.analysed});
     if (!slot.analysed) continue;
-    analysed.push_back({slot.row, &slot.result});
+    ++analysed_count;
     if (slot.measurement) joint_inputs.push_back({slot.row, &*slot.measurement});
   }
+  for (const ManifestRow& row : manifest.rows) summary.clips.push_back(row.clip_id.empty() ? row.clip : row.clip_id);
   summary.groups = BuildSummaryGroups(analysed);
 
   // Stage 2: joint fits per specimen over all its clips and heights.
@@ -301,6 +362,7 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
 
   try {
     WriteSummaryCsv(start.out / "summary.csv", summary.groups);
+    WriteLawsCsv(start.out / "laws.csv", summary.specimens);
     WriteSummaryJson(start.out / "summary.json", summary);
     std::vector<ClipReportData> report_clips;
     for (const ClipSlot& slot : slots) report_clips.push_back({slot.result, slot.track});
@@ -309,11 +371,16 @@ int RunRun(const RunCommandOptions& options, std::ostream& /*out*/, std::ostream
     err << "dropfit run: " << e.what() << "\n";
     return kExitPartial;
   }
+  PrintWarnings(summary.warnings, progress);
+  // Failures count clips, not messages: a manifest row refused, or a clip with an error.
+  const size_t failed = manifest.rows.size() - analysed_count;
   char line[256];
   std::snprintf(line, sizeof(line), "dropfit run: %zu of %zu clips analysed (%d reused), %zu failed, in %.1f s",
-                analysed.size(), manifest.rows.size(), reused, summary.errors.size(), SecondsSince(started));
+                analysed_count, manifest.rows.size(), reused, failed, SecondsSince(started));
   progress.Line(line);
-  return summary.errors.empty() ? kExitDone : kExitPartial;
+  progress.Line("dropfit run: summary: " + (start.out / "summary.csv").string() + " and summary.json; laws: " +
+                (start.out / "laws.csv").string() + "; report: " + (start.out / "report.html").string());
+  return summary.errors.empty() && failed == 0 ? kExitDone : kExitPartial;
 }
 
 int RunRun(const RunCommandOptions& options) { return RunRun(options, std::cout, std::cerr); }

@@ -7,11 +7,14 @@
 
 namespace dropfit::cli {
 
+// The most clips `run` analyses at once (--jobs).
+inline constexpr int kMaxJobs = 256;
+
 struct RunCommandOptions {
   std::string folder;    // clip folder holding manifest.csv
   std::string rig_path;  // rig.json from `dropfit calibrate`
   std::string out_dir;   // output folder
-  int jobs = 0;          // clips in parallel; 0 = number of cores
+  int jobs = 0;          // clips in parallel; 0 = number of cores; [0, kMaxJobs]
   // Offset of the marker's plane from the calibrated plane for every clip, toward the camera
   // positive [m]; wins over the manifest's marker_offset_m; |value| <= kMaxMarkerOffsetM
   // (cli/manifest.h); needs a rig with a plane pose (calib/rig.h).

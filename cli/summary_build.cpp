@@ -38,15 +38,13 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     std::string specimen;
     double height = 0;
     int clips = 0;
-    Stats speed, cor, duration, deflection, force;
+    Stats speed, cor, duration, deflection, force, rebound, energy;
+    std::vector<std::string> flags;
   };
   std::vector<std::string> specimen_order;
   std::vector<Acc> accs;
   for (const AnalysedClip& c : clips) {
     if (!c.row || !c.result) continue;
-    auto first = std::find_if(c.result->impacts.begin(), c.result->impacts.end(),
-                              [](const ImpactRecord& im) { return im.complete; });
-    if (first == c.result->impacts.end()) continue;
     if (std::find(specimen_order.begin(), specimen_order.end(), c.row->specimen) == specimen_order.end()) {
       specimen_order.push_back(c.row->specimen);
     }
@@ -54,8 +52,23 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
       return a.specimen == c.row->specimen && std::abs(a.height - c.row->drop_height_m) <= kHeightMatchM;
     });
     if (it == accs.end()) {
-      accs.push_back({c.row->specimen, c.row->drop_height_m, 0, {}, {}, {}, {}, {}});
+      accs.push_back({c.row->specimen, c.row->drop_height_m, 0, {}, {}, {}, {}, {}, {}, {}, {}});
       it = std::prev(accs.end());
+    }
+    for (const std::string& f : c.result->flags) AddFlag(it->flags, f);
+    if (c.failed) {
+      AddFlag(it->flags, kFlagFailed);
+      continue;
+    }
+    auto first = std::find_if(c.result->impacts.begin(), c.result->impacts.end(),
+                              [](const ImpactRecord& im) { return im.complete; });
+    if (first == c.result->impacts.end()) {
+      AddFlag(it->flags, kFlagIncomplete);
+      continue;
+    }
+    if (!first->flags.empty()) {
+      for (const std::string& f : first->flags) AddFlag(it->flags, f);
+      continue;
     }
     ++it->clips;
     it->speed.Add(first->impact_speed_mps);
@@ -63,6 +76,10 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     it->duration.Add(first->contact_duration_s);
     it->deflection.Add(first->max_deflection_m);
     it->force.Add(first->peak_force_n);
+    it->rebound.Add(first->rebound_speed_mps);
+    for (const auto& [name, value] : first->extra) {
+      if (name == "energy_lost_j") it->energy.Add(value);
+    }
   }
   std::stable_sort(accs.begin(), accs.end(), [&](const Acc& a, const Acc& b) {
     const auto ia = std::find(specimen_order.begin(), specimen_order.end(), a.specimen);
@@ -85,6 +102,11 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     g.max_deflection_m_sd = a.deflection.Sd();
     g.peak_force_n_mean = a.force.Mean();
     g.peak_force_n_sd = a.force.Sd();
+    g.rebound_speed_mps_mean = a.rebound.Mean();
+    g.rebound_speed_mps_sd = a.rebound.Sd();
+    g.energy_lost_j_mean = a.energy.Mean();
+    g.energy_lost_j_sd = a.energy.Sd();
+    g.flags = a.flags;
     groups.push_back(g);
   }
   return groups;

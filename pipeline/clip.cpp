@@ -83,8 +83,28 @@ std::vector<analysis::FlightWindow> FlightWindowsOf(const analysis::Segmentation
 // The gravity ruler on a measured clip (docs/formats.md, "Gravity ruler"): estimate the marker
 // plane's offset; with none given, apply it when the policy allows (mapping the track again and
 // measuring it again, twice at most); with one given, warn where they disagree beyond 3 sd.
+void ApplyGravityRulerSteps(const calib::Rig& rig, double fps, const tracker::Track& track,
+                            const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m);
+
+// The ruler's Newton steps may ask for a plane the rig cannot map (behind the camera) when the
+// flights are far from g (e.g. a rate 2x too low): that is no marker offset but a wrong rate,
+// unit or rig, left to the plausibility gate (pipeline/plausibility.h) with the kinematics as
+// they were.
 void ApplyGravityRuler(const calib::Rig& rig, double fps, const tracker::Track& track,
                        const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
+  const ClipMeasurement before = m;
+  try {
+    ApplyGravityRulerSteps(rig, fps, track, kinematics_options, m);
+  } catch (const std::invalid_argument&) {
+    m = before;
+    m.gravity_warnings.push_back(
+        "the gravity ruler found no marker plane in front of the camera that makes the flights fall at g: this is no "
+        "marker offset but a wrong capture rate, unit or rig; not applied");
+  }
+}
+
+void ApplyGravityRulerSteps(const calib::Rig& rig, double fps, const tracker::Track& track,
+                            const analysis::KinematicsOptions& kinematics_options, ClipMeasurement& m) {
   if (!m.camera_distance_m) {
     m.gravity_warnings.push_back(
         "the gravity ruler was skipped: the rig knows no pose of its calibrated plane (plane view only, no lens "
@@ -272,6 +292,11 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   if (m.kinematics.failure) return m;
   if (options.track && request.gravity_ruler) ApplyGravityRuler(rig, fps, *options.track, kinematics_options, m);
   if (m.kinematics.failure) return m;
+  // The plausibility gate: the rate as ResolveCaptureRate found it (the clip's own as the last).
+  const std::optional<CaptureRate> rate =
+      ResolveCaptureRate(request.fps_option, request.fps_manifest, rig.capture_fps, fps);
+  if (rate) m.plausibility_problem = GravityGateProblem(m.kinematics.checks.gravity, *rate);
+  if (m.plausibility_problem) m.flags.push_back(kFlagRateOrScale);
   m.fit_clip = analysis::MakeFitClip(request.clip_id, request.drop_height_m.value_or(0.0), request.mass_kg, m.series,
                                      m.kinematics.segmentation, m.kinematics.impacts);
   if (m.fit_clip->known_onset_height_m && options.fit_laws) {
@@ -289,7 +314,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
       m.geometry_onset = std::make_pair(g, sd);
     }
   }
-  if (options.fit_laws) {
+  if (options.fit_laws && !m.plausibility_problem) {
     FitLaws(kinematics_options, m);
   } else if (options.onset_from_fit) {
     ReadAtFittedOnset(kinematics_options, options.onset_from_fit->first, options.onset_from_fit->second, m,

@@ -37,6 +37,7 @@
 #include "pipeline/capture_rate.h"
 #include "pipeline/law_curves.h"
 #include "pipeline/marker_offset.h"
+#include "pipeline/plausibility.h"
 #include "tracker/marker_kind.h"
 #include "tracker/track.h"
 
@@ -145,6 +146,11 @@ struct ClipMeasurement {
   std::vector<std::string> gravity_warnings;  // the ruler's warnings, as sentences
   // The report's force-deflection loop from the filtered track (first complete bounce).
   std::optional<ForceDeflection> track_force;
+  // The plausibility gate (pipeline/plausibility.h): set when the flights disagree with gravity
+  // after the ruler; the laws were then not fitted and the clip fails with this error (no clip
+  // name). `flags` holds the clip's flags of docs/formats.md ("Flags"), e.g. "rate_or_scale".
+  std::optional<std::string> plausibility_problem;
+  std::vector<std::string> flags;
   double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
 };
 
@@ -164,7 +170,9 @@ struct MeasureOptions {
 // Measures a clip from its series. With options.track, a rig that knows its plane's pose and
 // request.gravity_ruler, the gravity ruler runs on the kinematics' flights (analysis/gravity_ruler.h);
 // when no offset was given and the policy allows, the series is mapped again at the estimate
-// (source "gravity") and measured again, twice at most, before the law fits. Throws
+// (source "gravity") and measured again, twice at most, before the law fits. Then the plausibility
+// gate (pipeline/plausibility.h): flights that still disagree with gravity stop the clip before
+// the law fits (plausibility_problem set, flag "rate_or_scale"). Throws
 // std::invalid_argument for an invalid series or request; a clip that cannot be analysed comes
 // back with kinematics.failure set.
 ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, analysis::TimeSeries series, double fps,

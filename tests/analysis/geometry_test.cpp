@@ -153,5 +153,21 @@ TEST(Geometry, TabulatedTorusVolumeAgreesWithTheQuadrature) {
   EXPECT_DOUBLE_EQ(InterpenetrationVolume(tabulated, 0.06), TorusCapVolume(0.25, 0.05, 0.06));
 }
 
+TEST(Geometry, ADepthFarBeyondTheTorusTableIsClampedNotIndexedOutside) {
+  // Regression (issue 18): with a capture rate 2x too high, a law fit tried depths of ~1e10 m;
+  // the table's knot index overflowed its int conversion and `run` died in a segmentation fault.
+  // The contract (analysis/geometry.h): depths beyond R + a are clamped there (the floor through
+  // the axle), so the volume is half the torus, pi^2 R a^2 (Pappus's centroid theorem for the whole
+  // torus, 2 pi^2 R a^2; common practice, no source).
+  constexpr double kHalfTorusRelative = 1e-9;  // the quadrature's accuracy at the clamp
+  const TreadGeometry tabulated = MakeTreadGeometry(0.10, 0.0, 0.025);
+  ASSERT_NE(tabulated.torus_table, nullptr);
+  const double whole = M_PI * M_PI * 0.075 * 0.025 * 0.025;  // half the torus
+  for (double depth : {1.0, 1e10, 3e9, 1e300, HUGE_VAL}) {
+    EXPECT_NEAR(InterpenetrationVolume(tabulated, depth), whole, kHalfTorusRelative * whole) << depth;
+  }
+  EXPECT_TRUE(std::isnan(InterpenetrationVolume(tabulated, std::nan(""))));
+}
+
 }  // namespace
 }  // namespace dropfit::analysis

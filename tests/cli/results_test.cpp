@@ -143,8 +143,9 @@ TEST_F(ResultsTest, SummaryCsvHasTheContractColumnsInOrderAndEmptySdForOneClip) 
   EXPECT_EQ(test::ReadFileBytes(path),
             "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
             "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
-            "peak_force_n_mean,peak_force_n_sd\n"
-            "\"wheel, front\",0.4,1,0,,0.7,,0,,0,,0,\n");
+            "peak_force_n_mean,peak_force_n_sd,rebound_speed_mps_mean,rebound_speed_mps_sd,energy_lost_j_mean,"
+            "energy_lost_j_sd,flags\n"
+            "\"wheel, front\",0.4,1,0,,0.7,,0,,0,,0,,0,,0,,\n");
 }
 
 TEST_F(ResultsTest, SummaryJsonRoundTrips) {

@@ -42,6 +42,10 @@ TEST(SummaryBuild, GroupsBySpecimenThenHeightUsingTheFirstCompleteImpact) {
   EXPECT_DOUBLE_EQ(groups[0].drop_height_m, 0.3);
   EXPECT_EQ(groups[0].clips, 1);
   EXPECT_FALSE(groups[0].cor_sd.has_value());
+  // c5 has no complete impact: it does not count, and says so in its group's flags
+  // (docs/formats.md, "Flags").
+  EXPECT_EQ(groups[0].flags, std::vector<std::string>{"incomplete"});
+  EXPECT_TRUE(groups[1].flags.empty());
   EXPECT_EQ(groups[1].specimen, "B");
   EXPECT_DOUBLE_EQ(groups[1].drop_height_m, 0.4);
   EXPECT_EQ(groups[1].clips, 2);
@@ -50,6 +54,19 @@ TEST(SummaryBuild, GroupsBySpecimenThenHeightUsingTheFirstCompleteImpact) {
   EXPECT_NEAR(groups[1].cor_sd.value(), 0.04 / std::sqrt(2.0), 1e-15);
   EXPECT_NEAR(groups[1].impact_speed_mps_sd.value(), 0.0, 1e-15);
   EXPECT_EQ(groups[2].specimen, "A");
+}
+
+TEST(SummaryBuild, AFailedClipFlagsItsGroupWithItsOwnFlagsAndAGroupWithoutClipsHasNoNumbers) {
+  // docs/formats.md, "Flags": a wrong figure is never written as a plain number.
+  const ManifestRow row = Row("A", 0.3);
+  ClipResult gated = ClipWith({{true, 0.7}});
+  gated.flags = {"rate_or_scale"};
+  const auto groups = BuildSummaryGroups({{&row, &gated, /*failed=*/true}});
+  ASSERT_EQ(groups.size(), 1u);
+  EXPECT_EQ(groups[0].clips, 0);
+  EXPECT_TRUE(std::isnan(groups[0].cor_mean));
+  EXPECT_TRUE(std::isnan(groups[0].impact_speed_mps_mean));
+  EXPECT_EQ(groups[0].flags, (std::vector<std::string>{"rate_or_scale", "failed"}));
 }
 
 }  // namespace
