@@ -88,7 +88,7 @@ struct PlanOptions {
   double target_stiffness = 0.05;   // relative to the stiffness parameter; (0, 1]
   int max_repeats = 10;             // repeats proposed at most per height; [1, 100]
   // Simulation.
-  int realisations = 12;  // noise realisations per setting and height; [4, 1000]
+  int realisations = 24;  // noise realisations per setting and height; [4, 1000]
   int threads = 2;        // [1, 64]
   uint64_t seed = 1;
   double gravity_mps2 = analysis::kStandardGravityMps2;  // [9.7, 9.9]

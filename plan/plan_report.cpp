@@ -85,7 +85,7 @@ std::string FormatPlanTable(const PlanOptions& o, const PlanResult& r) {
                     Fmt("%.3g", s.scale_m_per_px * 1e3).c_str(), Fmt("%.0f", s.exposure_s * 1e6).c_str(),
                     Fmt("%.1f", s.marker_px).c_str(), Fmt("%.3g", h.height_m).c_str(),
                     Fmt("%.1f", h.frames_per_contact).c_str(), Fmt("%.1f", h.blur_px).c_str(), view.c_str(),
-                    Fmt("%.4f", h.cor.sd).c_str(), Percent(h.duration_s).c_str(), Percent(h.deflection_m).c_str(),
+                    Fmt("%.2g", h.cor.sd).c_str(), Percent(h.duration_s).c_str(), Percent(h.deflection_m).c_str(),
                     Percent(h.stiffness).c_str(), Percent(h.damping).c_str(), h.measured, o.realisations,
                     h.repeats_needed ? std::to_string(h.repeats_needed).c_str() : "-");
       out << line;
