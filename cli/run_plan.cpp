@@ -180,6 +180,7 @@ plan::ClipFigures RenderAndMeasure(const plan::PlanOptions& o, const plan::Plann
     for (const analysis::BounceFitFigures& b : fit.figures) {
       if (b.bounce_index != 0) continue;
       f.ok = true;
+      f.noise_sd_m = m.kinematics.segmentation.noise_sd_m;
       f.cor = m.kinematics.impacts[0].cor.value;
       f.duration_s = b.contact_duration_s;
       f.deflection_m = b.max_deflection_m;
@@ -300,6 +301,7 @@ int RunPlan(const PlanCommandOptions& options, std::ostream& out, std::ostream& 
                          {"measured", h.measured},
                          {"failure", h.failure},
                          {"repeats_needed", h.repeats_needed},
+                         {"track_noise_sd_m", Num(h.track_noise_sd_m)},
                          {"cor", SpreadJson(h.cor, repeats)},
                          {"contact_duration_s", SpreadJson(h.duration_s, repeats)},
                          {"max_deflection_m", SpreadJson(h.deflection_m, repeats)},

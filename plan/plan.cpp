@@ -25,6 +25,12 @@ namespace {
 
 // Clip start before release when the marker is in view then [s] (as `dropfit render`).
 constexpr double kPreReleaseS = 0.01;
+// The simulated tracks start at release instead: on them the kinematics alone
+// (analysis::AnalyzeKinematics) let the held frames before release double the COR's spread
+// (measured: 40 realisations, 1,000 frames/s, 1 mm/px: 3.2e-5 with 10 held frames, 1.6e-5 without),
+// while the road of `dropfit run` on rendered clips with those frames gave 1.5e-5 (bench/plan_bench);
+// docs/methods.md §21.
+constexpr double kSimulatedPreReleaseS = 0.0;
 // The marker counts as in view with this margin inside the image [px] (synth/render.h,
 // MarkerInView).
 constexpr double kViewMarginPx = 2.0;
@@ -99,14 +105,14 @@ analysis::TimeSeries PlannedTrack(const PlanOptions& o, const HeightTruth& truth
 
 // The clip span (PlanClipSpan) given the second contact's time after release (NaN: none).
 PlannedClip SpanOf(const PlanOptions& o, const RateOffer& rate, double scale, double h, double phase,
-                   double second_contact_s) {
+                   double second_contact_s, double pre_release_s) {
   const double g = o.gravity_mps2;
   const double release_hub = o.free_radius_m + h;
   const double top = HighestVisibleHubM(o, rate, scale);
   // Time after release at which the marker comes into view (0 when it is in view at release).
   const double t_enter = release_hub <= top ? 0.0 : std::sqrt(2.0 * (release_hub - top) / g);
   PlannedClip c;
-  c.release_time_s = (t_enter > 0 ? -t_enter : kPreReleaseS) + phase / rate.fps;
+  c.release_time_s = (t_enter > 0 ? -t_enter : pre_release_s) + phase / rate.fps;
   double end = 3.0 * FallTime(h, g) + 0.1;
   if (std::isfinite(second_contact_s)) end = second_contact_s - 2.0 / rate.fps;
   end = std::min(end, 3.0);
@@ -303,7 +309,7 @@ synth::CameraSetup SettingCamera(const PlanOptions& o, const RateOffer& rate, do
 PlannedClip PlanClipSpan(const PlanOptions& o, const PlannedSpecimen& sp, const RateOffer& rate, double scale, double h,
                          double phase) {
   const HeightTruth t = SimulateHeight(o, sp, h);
-  return SpanOf(o, rate, scale, h, phase, t.second_contact_s);
+  return SpanOf(o, rate, scale, h, phase, t.second_contact_s, kPreReleaseS);
 }
 
 namespace {
@@ -340,6 +346,7 @@ ClipFigures Measure(const PlanOptions& o, const PlannedSpecimen& sp, const calib
     return f;
   }
   f.ok = true;
+  f.noise_sd_m = kin.segmentation.noise_sd_m;
   f.cor = kin.impacts[0].cor.value;
   f.duration_s = first->contact_duration_s;
   f.deflection_m = first->max_deflection_m;
@@ -430,8 +437,8 @@ PlanResult MakePlan(const PlanOptions& o, const PlanProgress& progress) {
         if (s.heights[hi].visible_fall_m <= 0.0) {
           figures[i].failure = "the marker is never in view above the contact";
         } else {
-          const PlannedClip span =
-              SpanOf(o, s.rate, s.scale_m_per_px, truths[hi].height_m, phase, truths[hi].second_contact_s);
+          const PlannedClip span = SpanOf(o, s.rate, s.scale_m_per_px, truths[hi].height_m, phase,
+                                          truths[hi].second_contact_s, kSimulatedPreReleaseS);
           analysis::TimeSeries series = PlannedTrack(o, truths[hi], s.rate, s.scale_m_per_px, s.exposure_s, span, rng);
           figures[i] = Measure(o, sp, rigs[si], truths[hi].height_m, s.rate.fps, std::move(series));
         }
@@ -459,7 +466,7 @@ PlanResult MakePlan(const PlanOptions& o, const PlanProgress& progress) {
     for (size_t hi = 0; hi < n_heights; ++hi) {
       HeightResult& hr = s.heights[hi];
       const HeightTruth& t = truths[hi];
-      std::vector<double> cor, dur, defl, k, c;
+      std::vector<double> cor, dur, defl, k, c, noise;
       for (size_t ri = 0; ri < n_real; ++ri) {
         const ClipFigures& f = figures[(si * n_heights + hi) * n_real + ri];
         if (!f.ok) {
@@ -471,7 +478,9 @@ PlanResult MakePlan(const PlanOptions& o, const PlanProgress& progress) {
         defl.push_back(f.deflection_m);
         k.push_back(f.stiffness);
         c.push_back(f.damping);
+        noise.push_back(f.noise_sd_m);
       }
+      hr.track_noise_sd_m = SpreadOf(noise, 0.0).mean;
       hr.measured = static_cast<int>(cor.size());
       hr.cor = SpreadOf(cor, t.first.cor);
       hr.duration_s = SpreadOf(dur, t.first.contact_duration_s);

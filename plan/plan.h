@@ -135,7 +135,8 @@ struct HeightResult {
   int measured = 0;                 // realisations measured (kinematics and fit converged)
   std::string failure;              // why some realisations failed (first reason), or ""
   Spread cor, duration_s, deflection_m, stiffness, damping;
-  int repeats_needed = 0;  // fewest repeats meeting every target; 0: none up to max
+  int repeats_needed = 0;         // fewest repeats meeting every target; 0: none up to max
+  double track_noise_sd_m = 0.0;  // mean position noise the kinematics saw in the simulated tracks [m]
 };
 
 struct SettingResult {
@@ -191,6 +192,7 @@ struct ClipFigures {
   bool ok = false;
   std::string failure;
   double cor = 0, duration_s = 0, deflection_m = 0, stiffness = 0, damping = 0;
+  double noise_sd_m = 0;  // the kinematics' position noise estimate (analysis/impacts.h)
 };
 
 // The terminal table.

@@ -150,23 +150,32 @@ std::string PlanHtml(const PlanOptions& o, const PlanResult& r) {
   h << "<div class=\"plots\">\n";
   const double W = 520, H = 260, L = 60, R = 130, T = 24, B = 36;
   for (const Figure& f : figures) {
-    double ymax = f.target * 1.5;
+    // Log axis: the uncertainties span decades.
+    double ymin = f.target, ymax = f.target;
     for (const SettingResult& s : r.settings) {
       for (const HeightResult& x : s.heights) {
         const double v = f.value(x);
-        if (std::isfinite(v)) ymax = std::max(ymax, v);
+        if (std::isfinite(v) && v > 0) {
+          ymin = std::min(ymin, v);
+          ymax = std::max(ymax, v);
+        }
       }
     }
-    ymax *= 1.05;
+    const double lo_exp = std::floor(std::log10(ymin)), hi_exp = std::max(lo_exp + 1, std::ceil(std::log10(ymax)));
     auto X = [&](double fps) { return L + (W - L - R) * std::log(fps / fmin) / std::log(fmax / fmin); };
-    auto Y = [&](double v) { return T + (H - T - B) * (1 - std::min(v, ymax) / ymax); };
+    auto Y = [&](double v) {
+      return T +
+             (H - T - B) * (1 - (std::log10(std::clamp(v, std::pow(10.0, lo_exp), std::pow(10.0, hi_exp))) - lo_exp) /
+                                    (hi_exp - lo_exp));
+    };
     h << "<svg width=\"" << W << "\" height=\"" << H << "\" viewBox=\"0 0 " << W << " " << H
       << "\" xmlns=\"http://www.w3.org/2000/svg\" font-size=\"11\">\n";
     h << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << W - L - R << "\" height=\"" << H - T - B
       << "\" fill=\"#fff\" stroke=\"#999\"/>\n";
-    h << "<text x=\"" << L << "\" y=\"15\" font-weight=\"600\">" << f.title << " (one clip) vs frame rate</text>\n";
-    for (int k = 0; k <= 4; ++k) {
-      const double v = ymax * k / 4;
+    h << "<text x=\"" << L << "\" y=\"15\" font-weight=\"600\">" << f.title
+      << " (one clip) vs frame rate, log scale</text>\n";
+    for (double e = lo_exp; e <= hi_exp; ++e) {
+      const double v = std::pow(10.0, e);
       h << "<text x=\"" << L - 4 << "\" y=\"" << Y(v) + 4 << "\" text-anchor=\"end\">" << Fmt("%.3g", v) << "</text>\n";
     }
     std::vector<double> rates;
