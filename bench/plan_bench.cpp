@@ -15,6 +15,8 @@
 // of the rebound in view).
 #include <glog/logging.h>
 
+#include <unistd.h>
+
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -57,8 +59,8 @@ int main(int argc, char** argv) {
   FLAGS_minloglevel = 3;  // Ceres logs through glog; the bench prints its own numbers
   google::InitGoogleLogging(argv[0]);
   int clips = 40, realisations = 40, threads = 2;
-  int only = 0;  // 1 or 2: that setting alone
-  std::string work = "/tmp/plan_bench_work";
+  int only = 0;                                                             // 1 or 2: that setting alone
+  std::string work = "/tmp/plan_bench_work_" + std::to_string(::getpid());  // one per run
   for (int i = 1; i < argc; ++i) {
     if (!std::strcmp(argv[i], "--clips") && i + 1 < argc)
       clips = std::atoi(argv[++i]);
@@ -154,7 +156,7 @@ int main(int argc, char** argv) {
     }
     std::fflush(stdout);
   }
-  std::filesystem::remove_all(work);
+  if (clips > 0) std::filesystem::remove_all(work);  // only what this run rendered into
   std::printf("\noverall: %s (ratio within 1 +- %.2f for COR, contact duration, stiffness)\n",
               all_pass ? "PASS" : "FAIL", kTolerance);
   return all_pass ? 0 : 1;
