@@ -37,6 +37,7 @@ int main(int argc, char** argv) {
   dropfit::cli::AddRunCommand(app, action);
   dropfit::cli::AddRenderCommand(app, action);
   dropfit::cli::AddReportCommand(app, action);
+  dropfit::cli::AddPlanCommand(app, action);
 
   try {
     app.parse(argc, argv);

@@ -18,6 +18,7 @@ void AddAnalyzeCommand(CLI::App& app, CommandAction& action);
 void AddRunCommand(CLI::App& app, CommandAction& action);
 void AddRenderCommand(CLI::App& app, CommandAction& action);
 void AddReportCommand(CLI::App& app, CommandAction& action);
+void AddPlanCommand(CLI::App& app, CommandAction& action);
 
 // Options several subcommands share, each with one help text (parse_shared.cpp).
 // --marker-offset M (track, analyze, run).
