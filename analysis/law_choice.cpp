@@ -45,6 +45,18 @@ double EffectiveSampleCount(int samples, double lag1_correlation) {
   return samples * (1.0 - rho) / (1.0 + rho);
 }
 
+double CorrelationTime(const std::vector<double>& autocorrelation) {
+  // Geyer's initial positive sequence: Gamma_m = rho_2m + rho_2m+1 summed while positive.
+  double sum = 0.0;
+  for (size_t m = 0; 2 * m + 1 < autocorrelation.size(); ++m) {
+    const double gamma = autocorrelation[2 * m] + autocorrelation[2 * m + 1];
+    if (!(gamma > 0.0)) break;
+    sum += gamma;
+  }
+  const double tau = -1.0 + 2.0 * sum;
+  return std::clamp(std::isfinite(tau) ? tau : 1.0, 1.0, kMaxCorrelationTime);
+}
+
 double RankCriterion(const LawFitResult& fit, double effective_samples) {
   if (fit.failure || !(fit.samples > 0) || !(effective_samples > 0.0)) return kNaN;
   const double n = fit.samples;
@@ -140,7 +152,9 @@ LawChoice ChooseLaw(std::vector<LawFitResult>& fits, double noise_sd_m) {
     }
   }
   if (!closest) return out;
-  out.effective_samples = EffectiveSampleCount(closest->samples, closest->residual_lag1_correlation);
+  out.effective_samples = closest->effective_samples > 0.0
+                              ? closest->effective_samples
+                              : EffectiveSampleCount(closest->samples, closest->residual_lag1_correlation);
   for (LawFitResult& f : fits) f.rank_criterion = RankCriterion(f, out.effective_samples);
 
   const std::vector<int> order = RankLaws(fits);

@@ -796,24 +796,27 @@ struct ContactFlightSums {
   std::vector<double> abs_all, abs_contact;  // |residual|, for the robust spreads
 };
 
-// The residuals' lag-1 autocorrelation at the kept solution, pooled over the windows (each
-// window's residuals in sample order; law_fit.h "Correlated residuals"); NaN when the
-// residuals cannot be evaluated.
-double ResidualLag1Correlation(const FitInputs& in, Solved& best) {
+// The residuals' autocorrelation at lags 0..kMaxResidualLag at the kept solution, pooled over
+// the windows (each window's residuals in sample order; law_fit.h "Correlated residuals"):
+// rho_k = sum_i r_i r_(i+k) / sum_i r_i^2 within windows. Empty when the residuals cannot be
+// evaluated.
+constexpr int kMaxResidualLag = 200;
+std::vector<double> ResidualAutocorrelation(const FitInputs& in, Solved& best) {
   std::vector<double> r;
-  if (!best.problem->Evaluate(ceres::Problem::EvaluateOptions(), nullptr, &r, nullptr, nullptr)) return kNaN;
-  double num = 0.0, den = 0.0;
+  if (!best.problem->Evaluate(ceres::Problem::EvaluateOptions(), nullptr, &r, nullptr, nullptr)) return {};
+  std::vector<double> sums(kMaxResidualLag + 1, 0.0);
   size_t offset = 0;
   for (const WindowRef& ref : in.windows) {
     const size_t n = ref.window->t_s.size();
-    if (offset + n > r.size()) return kNaN;
-    for (size_t k = 0; k < n; ++k) {
-      den += r[offset + k] * r[offset + k];
-      if (k + 1 < n) num += r[offset + k] * r[offset + k + 1];
+    if (offset + n > r.size()) return {};
+    for (size_t lag = 0; lag < sums.size() && lag < n; ++lag) {
+      for (size_t k = 0; k + lag < n; ++k) sums[lag] += r[offset + k] * r[offset + k + lag];
     }
     offset += n;
   }
-  return den > 0.0 ? num / den : kNaN;
+  if (!(sums[0] > 0.0)) return {};
+  for (size_t lag = sums.size(); lag-- > 0;) sums[lag] /= sums[0];
+  return sums;
 }
 
 // The per-bounce figures of window i from a run of the fitted law, their SDs, its
@@ -1163,8 +1166,10 @@ LawFitResult FitLaw(LawId law, const std::vector<FitClip>& clips, const LawFitOp
   ReportSolution(in, *best, &result);
   const int dof = result.samples - result.free_parameters;
   InternalCovariance cov = ComputeInternalCovariance(*best, InternalDim(law), start.onset_free, dof, &result.warnings);
-  result.residual_lag1_correlation = ResidualLag1Correlation(in, *best);
-  result.effective_samples = EffectiveSampleCount(result.samples, result.residual_lag1_correlation);
+  const std::vector<double> acf = ResidualAutocorrelation(in, *best);
+  result.residual_lag1_correlation = acf.size() > 1 ? acf[1] : kNaN;
+  result.residual_correlation_time = acf.empty() ? 1.0 : CorrelationTime(acf);
+  result.effective_samples = result.samples / result.residual_correlation_time;
   result.sd_inflation = std::sqrt(result.samples / result.effective_samples);
   cov.cov *= result.sd_inflation * result.sd_inflation;
   ReportParameterUncertainty(in, cov, &result);

@@ -238,9 +238,11 @@ struct LawFitResult {
   double robust_sd_contact_m = 0.0;
   double bic = 0.0;
   int samples_downweighted = 0;  // samples the robust loss gave less than full weight
-  // The residuals' lag-1 autocorrelation (pooled over windows), the effective sample count
-  // it gives and the factor sqrt(N / N_eff) applied to every SD of the fit.
+  // The residuals' lag-1 autocorrelation and integrated correlation time (pooled over
+  // windows; analysis/law_choice.h), the effective sample count N / tau it gives and the
+  // factor sqrt(N / N_eff) applied to every SD of the fit.
   double residual_lag1_correlation = 0.0;
+  double residual_correlation_time = 1.0;
   double effective_samples = 0.0;
   double sd_inflation = 1.0;
   // The ranking criterion of analysis/law_choice.h, set when laws are compared (NaN before).

@@ -30,6 +30,7 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
              {"solve_time_s", fit.solve_time_s},
              {"rank_criterion", fit.rank_criterion},
              {"residual_lag1_correlation", fit.residual_lag1_correlation},
+             {"residual_correlation_time", fit.residual_correlation_time},
              {"effective_samples", fit.effective_samples},
              {"sd_inflation", fit.sd_inflation},
              {"rms_contact_m", fit.rms_contact_m},

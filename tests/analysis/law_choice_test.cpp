@@ -33,6 +33,33 @@ TEST(EffectiveSampleCount, MatchesTheExactVarianceOfTheMeanOfAnAutoregressiveSer
   EXPECT_NEAR(EffectiveSampleCount(990, 1.0), 990.0 * 0.02 / 1.98, 1e-9);  // clamped at 0.98
 }
 
+// The integrated autocorrelation time by Geyer's initial positive sequence (law_choice.h):
+// for an AR(1) autocorrelation rho^k it is the closed form (1 + rho) / (1 - rho) (the same
+// exact variance ratio as above, large N); for a first-order moving average (rho_1 only) it
+// is 1 + 2 rho_1 (the same sum, finite); white noise gives 1; anti-correlation is not
+// rewarded; the long tail of a slowly varying error counts where the lag-1 formula misses it.
+TEST(CorrelationTime, MatchesTheClosedFormsOfAutoregressiveAndMovingAverageSeries) {
+  for (double rho : {0.1, 0.5, 0.9}) {
+    std::vector<double> acf(201);
+    for (size_t k = 0; k < acf.size(); ++k) acf[k] = std::pow(rho, static_cast<double>(k));
+    EXPECT_NEAR(CorrelationTime(acf), (1.0 + rho) / (1.0 - rho), 1e-6 * (1.0 + rho) / (1.0 - rho)) << rho;
+    EXPECT_NEAR(CorrelationTime(acf), ExactVarianceRatio(20000, rho), 2e-3 * ExactVarianceRatio(20000, rho)) << rho;
+  }
+  EXPECT_DOUBLE_EQ(CorrelationTime({1.0, 0.4, 0.0, 0.0, 0.0}), 1.8);
+  EXPECT_DOUBLE_EQ(CorrelationTime({1.0, 0.0, 0.0, 0.0}), 1.0);
+  EXPECT_DOUBLE_EQ(CorrelationTime({1.0, -0.4, 0.1, 0.0}), 1.0);  // anti-correlated: 1, not below
+  // lag 1 at 0.15, then a tail of 0.08 over 20 lags: tau = 1 + 2 (0.15 + 19 x 0.08) = 4.34,
+  // where the lag-1 formula gives 1.35.
+  std::vector<double> tail(40, 0.0);
+  tail[0] = 1.0;
+  tail[1] = 0.15;
+  for (int k = 2; k <= 20; ++k) tail[static_cast<size_t>(k)] = 0.08;
+  EXPECT_NEAR(CorrelationTime(tail), 1.0 + 2.0 * (0.15 + 19 * 0.08), 1e-12);
+  std::vector<double> flat(10, 1.0);
+  EXPECT_DOUBLE_EQ(CorrelationTime(flat), 19.0);  // five pairs of 2, as far as the lags go
+  EXPECT_DOUBLE_EQ(CorrelationTime(std::vector<double>(400, 1.0)), kMaxCorrelationTime);
+}
+
 // A hand-made fit: parameters 2.0, SDs 1 % except the last (worst_rel_sd), p = 10, N = 1000.
 LawFitResult Fit(LawId law, double bic, double rms_m, bool converged, double worst_rel_sd) {
   LawFitResult f;
