@@ -8,6 +8,7 @@
 #include <stdexcept>
 
 #include "cli/atomic_write.h"
+#include "cli/json_numbers.h"
 #include "cli/results.h"
 
 namespace dropfit::cli {
@@ -18,13 +19,8 @@ using nlohmann::ordered_json;
 // Read with insertion order kept, so parameter lists come back in the law's order.
 using json = nlohmann::ordered_json;
 
-// A finite number, a whole one as an integer ("1000", not "1000.0"; exact below 2^53); null
-// otherwise.
-ordered_json Number(double v) {
-  if (!std::isfinite(v)) return ordered_json(nullptr);
-  if (v == std::trunc(v) && std::abs(v) < 9007199254740992.0) return ordered_json(static_cast<std::int64_t>(v));
-  return ordered_json(v);
-}
+// A finite number, a whole one as an integer; null otherwise (cli/json_numbers.h).
+ordered_json Number(double v) { return JsonNumber<ordered_json>(v); }
 ordered_json Number(const std::optional<double>& v) { return v ? Number(*v) : ordered_json(nullptr); }
 
 ordered_json Values(const NamedValues& values) {

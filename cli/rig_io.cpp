@@ -11,6 +11,7 @@
 #include <stdexcept>
 
 #include "cli/atomic_write.h"
+#include "cli/json_numbers.h"
 
 namespace dropfit::cli {
 
@@ -19,13 +20,8 @@ namespace {
 using nlohmann::json;
 using nlohmann::ordered_json;
 
-// A finite number, a whole one as an integer ("1000", not "1000.0"; exact below 2^53); null
-// otherwise.
-ordered_json Number(double v) {
-  if (!std::isfinite(v)) return ordered_json(nullptr);
-  if (v == std::trunc(v) && std::abs(v) < 9007199254740992.0) return ordered_json(static_cast<std::int64_t>(v));
-  return ordered_json(v);
-}
+// A finite number, a whole one as an integer; null otherwise (cli/json_numbers.h).
+ordered_json Number(double v) { return JsonNumber<ordered_json>(v); }
 template <typename T>
 ordered_json Optional(const std::optional<T>& v) {
   return v ? Number(static_cast<double>(*v)) : ordered_json(nullptr);

@@ -9,6 +9,7 @@
 #include <stdexcept>
 
 #include "cli/atomic_write.h"
+#include "cli/json_numbers.h"
 
 namespace dropfit::cli {
 
@@ -269,6 +270,7 @@ std::string TruthToJson(const RenderTruth& truth) {
   json options = json::object();
   for (const auto& [name, value] : truth.options) options[name] = value;
   j["options"] = options;
+  WholeNumbersAsIntegers(j);
   return j.dump(2) + "\n";
 }
 
