@@ -34,25 +34,6 @@ using namespace dropfit;
 
 constexpr double kTolerance = 0.35;  // the acceptance: within +-35 %
 
-struct Stat {
-  double mean = NAN, sd = NAN;
-};
-Stat StatOf(const std::vector<plan::ClipFigures>& clips, double plan::ClipFigures::*field) {
-  std::vector<double> v;
-  for (const auto& c : clips) {
-    if (c.ok) v.push_back(c.*field);
-  }
-  Stat s;
-  if (v.size() < 2) return s;
-  double sum = 0;
-  for (double x : v) sum += x;
-  s.mean = sum / v.size();
-  double ss = 0;
-  for (double x : v) ss += (x - s.mean) * (x - s.mean);
-  s.sd = std::sqrt(ss / (v.size() - 1));
-  return s;
-}
-
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -142,12 +123,12 @@ int main(int argc, char** argv) {
                         {"stiffness", &plan::ClipFigures::stiffness, &h.stiffness, true},
                         {"damping", &plan::ClipFigures::damping, &h.damping, false}};
     // The position noise the kinematics saw, simulated (the plan's realisations) and rendered.
-    const Stat noise_rendered = StatOf(rendered, &plan::ClipFigures::noise_sd_m);
+    const plan::FigureSpread noise_rendered = plan::SpreadOf(rendered, &plan::ClipFigures::noise_sd_m);
     std::printf("  position noise seen by the kinematics: simulated %.3g m (%.4f px), rendered %.3g m (%.4f px)\n",
                 h.track_noise_sd_m, h.track_noise_sd_m / s.scale_m_per_px, noise_rendered.mean,
                 noise_rendered.mean / s.scale_m_per_px);
     for (const Row& r : rows) {
-      const Stat st = StatOf(rendered, r.field);
+      const plan::FigureSpread st = plan::SpreadOf(rendered, r.field);
       const double ratio = st.sd / r.spread->sd;
       const bool pass = std::abs(ratio - 1.0) <= kTolerance;
       if (r.judged && !pass) all_pass = false;

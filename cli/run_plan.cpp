@@ -84,26 +84,6 @@ class Progress {
   bool tty_;
 };
 
-struct CheckStats {
-  double mean = NAN, sd = NAN;
-};
-CheckStats Stats(const std::vector<plan::ClipFigures>& clips, double plan::ClipFigures::*field) {
-  std::vector<double> v;
-  for (const auto& c : clips) {
-    if (c.ok) v.push_back(c.*field);
-  }
-  CheckStats s;
-  if (v.empty()) return s;
-  double sum = 0;
-  for (double x : v) sum += x;
-  s.mean = sum / v.size();
-  if (v.size() < 2) return s;
-  double ss = 0;
-  for (double x : v) ss += (x - s.mean) * (x - s.mean);
-  s.sd = std::sqrt(ss / (v.size() - 1));
-  return s;
-}
-
 }  // namespace
 
 plan::ClipFigures RenderAndMeasure(const plan::PlanOptions& o, const plan::PlannedSpecimen& sp,
@@ -263,7 +243,7 @@ int RunPlan(const PlanCommandOptions& options, std::ostream& out, std::ostream& 
           {"stiffness", {&plan::ClipFigures::stiffness, &hr.stiffness}},
           {"damping", {&plan::ClipFigures::damping, &hr.damping}}};
       for (const auto& [name, what] : figures) {
-        const CheckStats st = Stats(clips, what.first);
+        const plan::FigureSpread st = plan::SpreadOf(clips, what.first);
         row[name] = {{"predicted_sd", Num(what.second->sd)},
                      {"measured_sd", Num(st.sd)},
                      {"measured_mean", Num(st.mean)},

@@ -28,6 +28,7 @@
 
 #include <cstdint>
 #include <functional>
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -194,6 +195,14 @@ struct ClipFigures {
   double cor = 0, duration_s = 0, deflection_m = 0, stiffness = 0, damping = 0;
   double noise_sd_m = 0;  // the kinematics' position noise estimate (analysis/impacts.h)
 };
+
+// The mean and the sample standard deviation of one figure over the clips measured (ok); NaN
+// where there are too few (no clip; one clip for the sd).
+struct FigureSpread {
+  double mean = std::numeric_limits<double>::quiet_NaN();
+  double sd = std::numeric_limits<double>::quiet_NaN();
+};
+FigureSpread SpreadOf(const std::vector<ClipFigures>& clips, double ClipFigures::*field);
 
 // The terminal table.
 std::string FormatPlanTable(const PlanOptions& options, const PlanResult& result);

@@ -54,13 +54,6 @@ namespace fs = std::filesystem;
 constexpr const char* kHint = "did you give millimetres?";
 const fs::path kDemo = fs::path(DROPFIT_SOURCE_DIR) / "demo_clips";
 
-std::string Read(const fs::path& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 void Write(const fs::path& p, const std::string& text) { std::ofstream(p, std::ios::binary) << text; }
 
 bool Has(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }
@@ -135,7 +128,7 @@ Ran RefusedCalibration(const CalibrateCommandOptions& o) {
   std::ostringstream out, err;
   Ran r{RunCalibrate(o, out, err), out.str(), err.str()};
   EXPECT_EQ(r.status, kExitBadUsage);
-  EXPECT_EQ(Read(o.out_path), earlier) << "the earlier rig was replaced";
+  EXPECT_EQ(test::ReadFileBytes(o.out_path), earlier) << "the earlier rig was replaced";
   EXPECT_TRUE(Has(r.err, "nothing was written")) << r.err;
   EXPECT_EQ(r.out, "") << "a refused calibration prints no figures";
   return r;
@@ -326,7 +319,7 @@ TEST(MistakesInputs, AnalyzeSectionRadiusInMillimetresIsRefusedAndAnEarlierResul
   EXPECT_EQ(err.str(),
             "dropfit analyze: --section-radius 45 is outside the plausible 0.005-1.5 m; did you give millimetres? Give "
             "the tyre section radius in metres\n");
-  EXPECT_EQ(Read(fs::path(o.out_dir) / "result.json"), "{}\n");
+  EXPECT_EQ(test::ReadFileBytes(fs::path(o.out_dir) / "result.json"), "{}\n");
 }
 
 TEST(MistakesInputs, AnalyzeMassInGramsIsRefused) {
@@ -348,7 +341,8 @@ TEST(MistakesInputs, TheOldStartPointOptionNamesItsNewName) {
   const int raw = std::system(command.c_str());
   ASSERT_TRUE(WIFEXITED(raw));
   EXPECT_EQ(WEXITSTATUS(raw), kExitBadUsage);
-  EXPECT_TRUE(Has(Read(err_file), "--seed: the marker's start point is now --marker-at U,V")) << Read(err_file);
+  EXPECT_TRUE(Has(test::ReadFileBytes(err_file), "--seed: the marker's start point is now --marker-at U,V"))
+      << test::ReadFileBytes(err_file);
   EXPECT_FALSE(fs::exists(c.dir / "seed_out"));
 }
 
