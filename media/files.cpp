@@ -65,21 +65,28 @@ cv::Mat ReadGreyImage(const fs::path& path, const std::string& role, std::string
   if (!fs::is_regular_file(path, ec)) {
     throw std::runtime_error(role + " " + path.string() + " does not exist or is not a file");
   }
-  cv::Mat grey = cv::imread(path.string(), cv::IMREAD_GRAYSCALE);
-  if (grey.empty()) {
-    throw std::runtime_error(
+  const auto undecodable = [&] {
+    return std::runtime_error(
         role + " " + path.string() +
         " cannot be decoded as an image; give PNG, JPEG, TIFF or BMP files, a folder of them, or a video");
-  }
-  // 16-bit data: scaled by its significant bits (media/frame_source.h), not by 16 bits.
-  cv::Mat deep = cv::imread(path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_GRAYSCALE);
-  if (deep.depth() == CV_16U) {
+  };
+  // Decoded once at its own depth: 8-bit grey as it is; 16-bit data scaled by its significant
+  // bits (media/frame_source.h), not by 16 bits.
+  cv::Mat image = cv::imread(path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_GRAYSCALE);
+  if (image.empty()) throw undecodable();
+  if (image.depth() == CV_8U) return image;
+  if (image.depth() == CV_16U) {
     double lo = 0, hi = 0;
-    cv::minMaxLoc(deep, &lo, &hi);
+    cv::minMaxLoc(image, &lo, &hi);
     const int bits = SignificantBits16(static_cast<int>(hi));
-    deep.convertTo(grey, CV_8U, 255.0 / (std::ldexp(1.0, bits) - 1.0));
+    cv::Mat grey;
+    image.convertTo(grey, CV_8U, 255.0 / (std::ldexp(1.0, bits) - 1.0));
     if (note) *note = path.string() + ": " + Scaling16Note(bits, static_cast<int>(hi), 1);
+    return grey;
   }
+  // Other depths (floating point): OpenCV's own 8-bit grey conversion.
+  cv::Mat grey = cv::imread(path.string(), cv::IMREAD_GRAYSCALE);
+  if (grey.empty()) throw undecodable();
   return grey;
 }
 

@@ -145,27 +145,29 @@ class ImageFolderSource final : public FrameSource {
                                std::to_string(span - static_cast<long long>(files_.size())) +
                                " gap(s); the missing numbers are frames left empty (each named in its own warning)");
     }
-    // The first frame that decodes fixes the clip's size.
-    for (const NumberedFile& f : files_) {
-      cv::Mat img = cv::imread(f.path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
-      if (!img.empty()) {
-        info_.size = img.size();
-        break;
-      }
+    // The first frame that decodes fixes the clip's size, and whether its data are 16-bit.
+    size_t first = 0;
+    cv::Mat img;
+    for (; first < files_.size(); ++first) {
+      img = cv::imread(files_[first].path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
+      if (!img.empty()) break;
     }
-    if (info_.size.empty()) {
+    if (img.empty()) {
       throw std::runtime_error(folder.string() + ": none of its " + std::to_string(files_.size()) +
                                " image files could be decoded; check the files open in an image viewer");
     }
+    info_.size = img.size();
     // 16-bit files: the significant bits from the largest value over the first frames
     // (SignificantBits16), so that 12-bit camera data (0-4095) is not read as nearly black.
+    // Only the first kBitDepthFrames files are looked at (the first one already decoded).
     double largest = 0;
     int sixteen_bit = 0;
-    for (size_t i = 0; i < files_.size() && sixteen_bit < kBitDepthFrames; ++i) {
-      cv::Mat img = cv::imread(files_[i].path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
-      if (img.empty() || img.depth() != CV_16U) continue;
+    for (size_t i = first; i < files_.size() && i < first + kBitDepthFrames; ++i) {
+      const cv::Mat frame =
+          i == first ? img : cv::imread(files_[i].path.string(), cv::IMREAD_ANYDEPTH | cv::IMREAD_ANYCOLOR);
+      if (frame.empty() || frame.depth() != CV_16U) continue;
       double lo = 0, hi = 0;
-      cv::minMaxLoc(img.reshape(1), &lo, &hi);
+      cv::minMaxLoc(frame.reshape(1), &lo, &hi);
       largest = std::max(largest, hi);
       ++sixteen_bit;
     }
@@ -222,8 +224,11 @@ class ImageFolderSource final : public FrameSource {
   size_t next_file_ = 0;
   int next_frame_ = 0;
   bool warned16_ = false;
-  int bits16_ = 16;           // significant bits of the 16-bit frames
-  std::string scaling_note_;  // what the scaling of 16-bit frames did
+  int bits16_ = 16;  // significant bits of the 16-bit frames
+  // What the scaling of 16-bit frames did (16-bit frames only after the first files: as 16 bits).
+  std::string scaling_note_ =
+      "16-bit images were scaled to 8 bits for tracking as 16-bit data (none among the first files to measure "
+      "their significant bits: values / 65535 x 255)";
 };
 
 }  // namespace

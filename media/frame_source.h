@@ -11,11 +11,13 @@
 // numbers, the LAST one counts ("cam2_take3_000123.png" is number 123). A number missing from the
 // sequence is a frame that cannot be read: Read() reports it as an error and the clip goes on.
 // Colour images are converted to grey. 16-bit images are scaled to 8 bits by their significant
-// bits: the largest value over the first kBitDepthFrames 16-bit frames gives the bit count b
-// (SignificantBits16: 12 for 12-bit camera data stored as 0-4095 in 16-bit TIFF or PNG), and a
-// frame is scaled by 255 / (2^b - 1), later values above 2^b - 1 clipped; the source says so
-// in its warnings (Scaling16Note). Without this, 12-bit data scaled as 16-bit reads as 0-15
-// grey levels and no marker is found.
+// bits: the largest value over the first kBitDepthFrames frames (from the first that decodes)
+// gives the bit count b (SignificantBits16: 12 for 12-bit camera data stored as 0-4095 in
+// 16-bit TIFF or PNG), and a frame is scaled by 255 / (2^b - 1), later values above 2^b - 1
+// clipped; the source says so in its warnings (Scaling16Note). Only the first kBitDepthFrames
+// files are looked at, so an 8-bit folder is not decoded twice; 16-bit frames that appear only
+// later (a folder of mixed depths) are scaled as 16 bits, and the warning says so. Without this, 12-bit data scaled as
+// 16-bit reads as 0-15 grey levels and no marker is found.
 //
 // Faults, per DEVELOPERS.md ("Conventions": three ways to fail):
 // - a clip that cannot be opened at all (missing path, an empty file, not a video, a folder
