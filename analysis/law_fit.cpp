@@ -154,6 +154,9 @@ struct WindowCost {
   WindowData data;
 };
 
+// True when the clip's geometric onset height enters as a prior (FitClip::onset_prior_sd_m).
+bool HasOnsetPrior(const FitClip& clip) { return clip.known_onset_height_m && !OnsetHeldFixed(clip); }
+
 // The onset height's prior: (onset - value) weight, weight = noise / (sd x residual scale),
 // so that it weighs as one measured sample of that sd against the samples' noise.
 struct OnsetPriorCost {
@@ -414,7 +417,7 @@ Solved BuildProblem(const FitInputs& in, const std::vector<double>& start_params
   // The geometry's onset heights given as priors, after every window's samples.
   const double noise = TrackNoise(in.clips);
   for (const FitClip& clip : in.clips) {
-    if (OnsetHeldFixed(clip) || !clip.known_onset_height_m) continue;
+    if (!HasOnsetPrior(clip)) continue;
     const double weight = (noise > 0.0 ? noise : kResidualScaleM) / (clip.onset_prior_sd_m * kResidualScaleM);
     s.problem->AddResidualBlock(
         new ceres::AutoDiffCostFunction<OnsetPriorCost, 1, 1>(new OnsetPriorCost{*clip.known_onset_height_m, weight}),
@@ -562,7 +565,7 @@ void ReportSolution(const FitInputs& in, const Solved& best, LawFitResult* resul
   result->bounds_reached = BoundsReached(in.law, best, x_params);
   result->onset_height_fitted = in.start.onset_free;
   for (const FitClip& clip : in.clips) {
-    if (clip.known_onset_height_m && !OnsetHeldFixed(clip)) {
+    if (HasOnsetPrior(clip)) {
       result->onset_prior_m = clip.known_onset_height_m;
       result->onset_prior_sd_m = clip.onset_prior_sd_m;
     }
@@ -887,8 +890,7 @@ void AddDegenerateDataWarnings(const FitInputs& in, const std::vector<double>& m
   for (const std::string& bound : result->bounds_reached) {
     result->warnings.push_back(bound + ": the best value may lie beyond it, so its SD holds on one side only");
   }
-  const bool prior = std::any_of(in.clips.begin(), in.clips.end(),
-                                 [](const FitClip& c) { return c.known_onset_height_m && !OnsetHeldFixed(c); });
+  const bool prior = std::any_of(in.clips.begin(), in.clips.end(), HasOnsetPrior);
   if (in.start.onset_free && in.windows.size() == 1 && !prior) {
     result->warnings.push_back(
         "a single bounce with a fitted onset height: stiffness, exponent and onset height trade off "

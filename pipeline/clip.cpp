@@ -50,23 +50,24 @@ void FitLaws(const analysis::KinematicsOptions& kinematics_options, ClipMeasurem
       m.law_traces.push_back(TraceFit(fit, {*m.fit_clip}, 0, m.fit_options));
     // A law that does not fit gives no onset height to trust: the track's stays.
     const analysis::LawChoice& choice = m.laws->choice;
-    if (choice.best && !choice.no_law_fits && !kinematics_options.onset_height_m) {
+    if (choice.best && !choice.no_law_fits) {
       const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*choice.best)];
-      ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m);
-    } else if (choice.best && !choice.no_law_fits && m.geometry_onset) {
-      // The geometry entered as a prior: the best law's onset height, and a word where the two
-      // disagree (docs/methods.md §13).
-      const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*choice.best)];
-      const auto [g, g_sd] = *m.geometry_onset;
-      ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m,
-                        analysis::OnsetHeightSource::kGeometryPrior);
-      // (after the figures are read again, which replaces the kinematics' warnings)
-      const double sd = std::hypot(g_sd, best.onset_height_sd_m);
-      if (std::abs(best.onset_height_m - g) > 3.0 * sd) {
-        m.kinematics.warnings.push_back(
-            "the bounces put the onset height at " + Mm(best.onset_height_m) + ", " + Mm(best.onset_height_m - g) +
-            " from the geometry's " + Mm(g) + " (floor + free radius, sd " + Mm(g_sd) +
-            "): more than 3 standard uncertainties; check free_radius_m and the rig's floor (--corner-height)");
+      if (!kinematics_options.onset_height_m) {
+        ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m);
+      } else if (best.onset_prior_m) {
+        // The geometry entered as a prior: the best law's onset height, and a word where the two
+        // disagree (docs/methods.md §13).
+        const double g = *best.onset_prior_m, g_sd = best.onset_prior_sd_m;
+        ReadAtFittedOnset(kinematics_options, best.onset_height_m, best.onset_height_sd_m, m,
+                          analysis::OnsetHeightSource::kGeometryPrior);
+        // (after the figures are read again, which replaces the kinematics' warnings)
+        const double sd = std::hypot(g_sd, best.onset_height_sd_m);
+        if (std::abs(best.onset_height_m - g) > 3.0 * sd) {
+          m.kinematics.warnings.push_back(
+              "the bounces put the onset height at " + Mm(best.onset_height_m) + ", " + Mm(best.onset_height_m - g) +
+              " from the geometry's " + Mm(g) + " (floor + free radius, sd " + Mm(g_sd) +
+              "): more than 3 standard uncertainties; check free_radius_m and the rig's floor (--corner-height)");
+        }
       }
     }
   }
@@ -309,10 +310,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
     } catch (const std::exception&) {
     }
     const double sd = std::hypot(floor_sd, request.free_radius_sd_m);
-    if (sd > 0.0) {
-      m.fit_clip->onset_prior_sd_m = sd;
-      m.geometry_onset = std::make_pair(g, sd);
-    }
+    if (sd > 0.0) m.fit_clip->onset_prior_sd_m = sd;
   }
   if (options.fit_laws && !m.plausibility_problem) {
     FitLaws(kinematics_options, m);

@@ -135,9 +135,7 @@ struct ClipMeasurement {
   analysis::LawFitOptions fit_options;
   std::optional<analysis::LawComparison> laws;  // per-clip fits, when fitted
   std::vector<FitTrace> law_traces;             // one per laws->fits (empty for failed fits)
-  bool onset_refitted = false;
-  // The geometry's onset height and its sd when it entered the law fits as a prior.
-  std::optional<std::pair<double, double>> geometry_onset;  // figures read again at the best law's onset
+  bool onset_refitted = false;                  // figures read again at the best law's onset
   // The plane `series` is in: the offset given, the gravity ruler's when it was applied, or 0.
   MarkerOffset marker_offset;
   // The gravity ruler's estimate (at the final plane's flight windows), when it ran.

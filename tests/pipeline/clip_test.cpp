@@ -99,8 +99,8 @@ TEST(PipelineClip, TheGeometrysOnsetHeightIsAPriorThatTheBouncesCanOverrule) {
     request.free_radius_m = kOnsetM + error_m;
     const ClipMeasurement m = MeasureClip(request, RigWithFloor(true), drop.series, kFps, options);
     ASSERT_FALSE(m.kinematics.failure);
-    ASSERT_TRUE(m.geometry_onset);
-    EXPECT_NEAR(m.geometry_onset->second, std::hypot(0.0005, 0.0005), 1e-9);  // rig without uncertainty
+    ASSERT_TRUE(m.fit_clip && m.fit_clip->known_onset_height_m);
+    EXPECT_NEAR(m.fit_clip->onset_prior_sd_m, std::hypot(0.0005, 0.0005), 1e-9);  // rig without uncertainty
     ASSERT_TRUE(m.laws && m.laws->choice.best);
     const analysis::LawFitResult& best = m.laws->fits[static_cast<size_t>(*m.laws->choice.best)];
     std::printf("free radius %+.1f mm off: fitted onset %.5f m (truth %.5f), source %s\n", 1e3 * error_m,
