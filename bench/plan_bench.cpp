@@ -123,12 +123,12 @@ int main(int argc, char** argv) {
                         {"stiffness", &plan::ClipFigures::stiffness, &h.stiffness, true},
                         {"damping", &plan::ClipFigures::damping, &h.damping, false}};
     // The position noise the kinematics saw, simulated (the plan's realisations) and rendered.
-    const plan::FigureSpread noise_rendered = plan::SpreadOf(rendered, &plan::ClipFigures::noise_sd_m);
+    const plan::Spread noise_rendered = plan::SpreadOf(rendered, &plan::ClipFigures::noise_sd_m);
     std::printf("  position noise seen by the kinematics: simulated %.3g m (%.4f px), rendered %.3g m (%.4f px)\n",
                 h.track_noise_sd_m, h.track_noise_sd_m / s.scale_m_per_px, noise_rendered.mean,
                 noise_rendered.mean / s.scale_m_per_px);
     for (const Row& r : rows) {
-      const plan::FigureSpread st = plan::SpreadOf(rendered, r.field);
+      const plan::Spread st = plan::SpreadOf(rendered, r.field);
       const double ratio = st.sd / r.spread->sd;
       const bool pass = std::abs(ratio - 1.0) <= kTolerance;
       if (r.judged && !pass) all_pass = false;

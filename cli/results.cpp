@@ -194,15 +194,16 @@ void WriteLawsCsv(const std::filesystem::path& path, const std::vector<SpecimenS
         if (sp.best_law && jf.fit.law == *sp.best_law) best_bic = jf.fit.bic;
       }
       for (const JointFitRecord& jf : sp.joint_fits) {
-        double cor_max = std::nan(""), duration_max = std::nan("");
-        for (const HoldoutRecord& h : jf.holdout) {
-          if (std::isfinite(h.cor_error))
-            cor_max = std::isnan(cor_max) ? std::abs(h.cor_error) : std::max(cor_max, std::abs(h.cor_error));
-          if (std::isfinite(h.contact_duration_error_s)) {
-            duration_max = std::isnan(duration_max) ? std::abs(h.contact_duration_error_s)
-                                                    : std::max(duration_max, std::abs(h.contact_duration_error_s));
+        // The largest |error| over the held-out heights; NaN when none is known.
+        const auto largest = [&jf](double HoldoutRecord::*error) {
+          double m = std::nan("");
+          for (const HoldoutRecord& h : jf.holdout) {
+            if (std::isfinite(h.*error)) m = std::isnan(m) ? std::abs(h.*error) : std::max(m, std::abs(h.*error));
           }
-        }
+          return m;
+        };
+        const double cor_max = largest(&HoldoutRecord::cor_error);
+        const double duration_max = largest(&HoldoutRecord::contact_duration_error_s);
         const bool best = sp.best_law && jf.fit.law == *sp.best_law;
         for (size_t i = 0; i < jf.fit.params.size(); ++i) {
           const auto& [name, value] = jf.fit.params[i];

@@ -243,7 +243,7 @@ int RunPlan(const PlanCommandOptions& options, std::ostream& out, std::ostream& 
           {"stiffness", {&plan::ClipFigures::stiffness, &hr.stiffness}},
           {"damping", {&plan::ClipFigures::damping, &hr.damping}}};
       for (const auto& [name, what] : figures) {
-        const plan::FigureSpread st = plan::SpreadOf(clips, what.first);
+        const plan::Spread st = plan::SpreadOf(clips, what.first);
         row[name] = {{"predicted_sd", Num(what.second->sd)},
                      {"measured_sd", Num(st.sd)},
                      {"measured_mean", Num(st.mean)},

@@ -544,21 +544,12 @@ PlanResult MakePlan(const PlanOptions& o, const PlanProgress& progress) {
   return result;
 }
 
-FigureSpread SpreadOf(const std::vector<ClipFigures>& clips, double ClipFigures::*field) {
+Spread SpreadOf(const std::vector<ClipFigures>& clips, double ClipFigures::*field) {
   std::vector<double> v;
   for (const ClipFigures& c : clips) {
     if (c.ok) v.push_back(c.*field);
   }
-  FigureSpread s;
-  if (v.empty()) return s;
-  double sum = 0;
-  for (double x : v) sum += x;
-  s.mean = sum / static_cast<double>(v.size());
-  if (v.size() < 2) return s;
-  double ss = 0;
-  for (double x : v) ss += (x - s.mean) * (x - s.mean);
-  s.sd = std::sqrt(ss / static_cast<double>(v.size() - 1));
-  return s;
+  return SpreadOf(v, NAN);
 }
 
 }  // namespace dropfit::plan

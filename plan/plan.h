@@ -28,7 +28,6 @@
 
 #include <cstdint>
 #include <functional>
-#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -197,12 +196,8 @@ struct ClipFigures {
 };
 
 // The mean and the sample standard deviation of one figure over the clips measured (ok); NaN
-// where there are too few (no clip; one clip for the sd).
-struct FigureSpread {
-  double mean = std::numeric_limits<double>::quiet_NaN();
-  double sd = std::numeric_limits<double>::quiet_NaN();
-};
-FigureSpread SpreadOf(const std::vector<ClipFigures>& clips, double ClipFigures::*field);
+// where there are too few (no clip; one clip for the sd); no truth (NaN).
+Spread SpreadOf(const std::vector<ClipFigures>& clips, double ClipFigures::*field);
 
 // The terminal table.
 std::string FormatPlanTable(const PlanOptions& options, const PlanResult& result);
