@@ -7,6 +7,7 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "analysis/law_choice.h"
 #include "analysis/savgol.h"
 #include "analysis/segmentation_steps.h"
 
@@ -377,6 +378,42 @@ std::optional<FlightSamples> SamplesGrownFromCore(const TimeSeries& s, const det
   return f;
 }
 
+// The integrated autocorrelation time of a flight fit's residuals (FlightPhase): the
+// autocorrelation pooled over the used samples, pairs with an unused sample left out, to lag
+// min(200, n / 2).
+double ResidualCorrelationTime(const TimeSeries& s, const FlightSamples& f, const PolynomialFit& fit) {
+  std::vector<double> r;
+  std::vector<bool> used;
+  for (int i = f.first; i <= f.last; ++i) {
+    used.push_back(f.use[U(i)]);
+    r.push_back(f.use[U(i)] ? s.y_m[U(i)] - fit.Value(s.t_s[U(i)]) : 0.0);
+  }
+  const size_t n = r.size();
+  const size_t max_lag = std::min<size_t>(200, n / 2);
+  std::vector<double> acf(max_lag + 1, 0.0);
+  double var = 0.0;
+  int count0 = 0;
+  for (size_t k = 0; k < n; ++k) {
+    if (!used[k]) continue;
+    var += r[k] * r[k];
+    ++count0;
+  }
+  if (!(var > 0.0) || count0 < 8) return 1.0;
+  var /= count0;
+  acf[0] = 1.0;
+  for (size_t lag = 1; lag <= max_lag; ++lag) {
+    double sum = 0.0;
+    int count = 0;
+    for (size_t k = 0; k + lag < n; ++k) {
+      if (!used[k] || !used[k + lag]) continue;
+      sum += r[k] * r[k + lag];
+      ++count;
+    }
+    acf[lag] = count > 0 ? sum / count / var : 0.0;
+  }
+  return CorrelationTime(acf);
+}
+
 // The flight's parabolas in y and x; nothing when too few samples are used or the y
 // parabola does not open downward.
 std::optional<FlightPhase> FitFlightPhase(const TimeSeries& s, const detail::FlightWindow& w, const FlightSamples& f,
@@ -399,6 +436,7 @@ std::optional<FlightPhase> FitFlightPhase(const TimeSeries& s, const detail::Fli
   phase.missing_samples = missing;
   phase.cut_by_clip_start = w.cut_start;
   phase.cut_by_clip_end = w.cut_end;
+  phase.residual_correlation_time = ResidualCorrelationTime(s, f, phase.y_fit);
   return phase;
 }
 
@@ -761,7 +799,7 @@ double ApexAbove(const PolynomialFit& f, double height) {
   return apex ? apex->height_m - height : kNaN;
 }
 
-Estimate Unknown() { return Estimate{kNaN, kNaN}; }
+Estimate Unknown() { return Estimate{kNaN, kNaN, kNaN}; }
 
 }  // namespace
 
@@ -818,19 +856,22 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
     Eigen::MatrixXd cov = Eigen::MatrixXd::Zero(7, 7);
     if (fall) {
       x.segment(0, 3) = fall->coef;
-      cov.block(0, 0, 3, 3) = fall->covariance;
+      cov.block(0, 0, 3, 3) = fall->covariance * seg.flights[U(*b.flight_before)].residual_correlation_time;
     }
     if (rise) {
       x.segment(3, 3) = rise->coef;
-      cov.block(3, 3, 3, 3) = rise->covariance;
+      cov.block(3, 3, 3, 3) = rise->covariance * seg.flights[U(*b.flight_after)].residual_correlation_time;
     }
     x(6) = h;
     cov(6, 6) = h_sd * h_sd;
+    Eigen::MatrixXd onset_cov = Eigen::MatrixXd::Zero(7, 7);
+    onset_cov(6, 6) = h_sd * h_sd;
     auto fall_of = [&](const Eigen::VectorXd& v) { return WithCoef(*fall, v.segment(0, 3)); };
     auto rise_of = [&](const Eigen::VectorXd& v) { return WithCoef(*rise, v.segment(3, 3)); };
     auto estimate = [&](const std::function<double(const Eigen::VectorXd&)>& fn) {
       const double value = fn(x);
-      return std::isfinite(value) ? Estimate{value, PropagatedSd(fn, x, cov)} : Unknown();
+      return std::isfinite(value) ? Estimate{value, PropagatedSd(fn, x, cov), PropagatedSd(fn, x, onset_cov)}
+                                  : Unknown();
     };
 
     if (fall && std::isfinite(h)) {
@@ -877,7 +918,7 @@ std::vector<ImpactFigures> MeasureImpacts(const TimeSeries& s, const Segmentatio
         f.contact_duration_track_s = {b.t_separation_track_s - f.t_contact_s.value,
                                       std::hypot(b.t_separation_track_sd_s, f.t_contact_s.sd)};
     }
-    if (std::isfinite(h)) f.max_deflection_m = {h - b.y_lowest_m, std::hypot(h_sd, b.y_lowest_sd_m)};
+    if (std::isfinite(h)) f.max_deflection_m = {h - b.y_lowest_m, std::hypot(h_sd, b.y_lowest_sd_m), h_sd};
 
     // Peak force from the contact's filtered acceleration (ContactAcceleration).
     const ContactAccelerationTrace acc = ContactAcceleration(s, b);

@@ -57,8 +57,9 @@
 //                      acceleration from a quartic Savitzky-Golay filter of the track
 //   energy_lost_j      (1/2) m (impact^2 - rebound^2): kinetic energy lost between the two
 //                      passages of the onset height (no potential energy difference there)
-// Each uncertainty is propagated from the flight-fit covariances and the onset height's sd
-// (analysis/flight_fit.h, PropagatedSd); flights are independent fits.
+// Each uncertainty is propagated from the flight-fit covariances, each inflated by its
+// residuals' correlation time, and the onset height's sd (analysis/flight_fit.h, PropagatedSd);
+// flights are independent fits. Estimate::onset_sd is the onset height's share.
 
 #include <optional>
 #include <string>
@@ -110,6 +111,11 @@ struct FlightPhase {
   int missing_samples = 0;         // invalid samples inside the window (gaps bridged by the fit)
   bool cut_by_clip_start = false;  // no contact before it in the clip
   bool cut_by_clip_end = false;    // no contact after it in the clip
+  // Integrated autocorrelation time of the y fit's residuals over the window (Geyer's initial
+  // positive sequence, analysis/law_choice.h, CorrelationTime), >= 1. The figures' sds read
+  // from this flight take its covariance times this (docs/methods.md §10): residuals correlated
+  // over tau samples carry the information of N / tau independent ones.
+  double residual_correlation_time = 1.0;
 };
 
 // One bounce (one contact), in clip order.
@@ -158,6 +164,9 @@ void SetOnsetHeight(double onset_height_m, double onset_height_sd_m, OnsetHeight
 struct Estimate {
   double value = 0.0;
   double sd = 0.0;
+  // The part of `sd` the onset height's sd makes (<= sd; the rest is the flights' own scatter):
+  // the "onset_height" part of the figure's budget (analysis/uncertainty_budget.h).
+  double onset_sd = 0.0;
 };
 
 struct ImpactFigures {

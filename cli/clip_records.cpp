@@ -5,6 +5,7 @@
 #include <stdexcept>
 
 #include "cli/fit_records.h"
+#include "pipeline/uncertainty.h"
 #include "tracker/track.h"
 
 namespace dropfit::cli {
@@ -100,6 +101,69 @@ void FlagImplausibleImpacts(double mass_kg, const std::string& clip, ClipResult&
 
 namespace {
 
+// The name of a figure's sd in the records: "_sd" before the unit ("impact_speed_mps" ->
+// "impact_speed_sd_mps"), after a figure without one ("cor" -> "cor_sd").
+std::string SdName(const std::string& figure) {
+  for (const char* unit : {"_mps", "_m", "_s", "_n", "_j"}) {
+    const std::string u = unit;
+    if (figure.size() > u.size() && figure.compare(figure.size() - u.size(), u.size(), u) == 0)
+      return figure.substr(0, figure.size() - u.size()) + "_sd" + u;
+  }
+  return figure + "_sd";
+}
+
+void SetExtra(NamedValues& extra, const std::string& name, double value) {
+  for (auto& [n, v] : extra) {
+    if (n == name) {
+      v = value;
+      return;
+    }
+  }
+  extra.emplace_back(name, value);
+}
+
+BudgetRecord BudgetRecordOf(const pipeline::NamedBudget& b) {
+  BudgetRecord r;
+  r.figure = b.figure;
+  r.sd = b.budget.sd;
+  r.dominant = analysis::ToString(b.budget.dominant);
+  for (int p = 0; p < analysis::kBudgetParts; ++p) {
+    const auto part = static_cast<analysis::BudgetPart>(p);
+    r.parts.emplace_back(analysis::ToString(part), b.budget.part(part));
+  }
+  return r;
+}
+
+// The uncertainty budgets (pipeline/uncertainty.h): each figure's sd field becomes its combined
+// standard uncertainty, its budget beside it; the law parameters' sds likewise; the clip's scale
+// inputs at the top.
+void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const std::string& name, ClipResult& result) {
+  const analysis::ScaleUncertainty& s = m.scale_uncertainty;
+  result.extra.push_back({"rig_scale_rel_sd", s.rig_scale_rel});
+  result.extra.push_back({"marker_plane_rel_sd", s.marker_plane_rel});
+  result.extra.push_back({"capture_rate_rel_sd", s.capture_rate_rel});
+  result.extra.push_back({"gravity_rel_sd", s.gravity_rel});
+  result.info.push_back({"length_scale_from", s.gravity_ruler ? "gravity" : "rig"});
+  for (const std::string& note : m.uncertainty_notes) result.warnings.push_back(name + ": " + note);
+  const std::vector<std::vector<pipeline::NamedBudget>> impacts = pipeline::ImpactBudgets(m, s);
+  for (size_t i = 0; i < impacts.size() && i < result.impacts.size(); ++i) {
+    ImpactRecord& im = result.impacts[i];
+    for (const pipeline::NamedBudget& b : impacts[i]) {
+      SetExtra(im.extra, SdName(b.figure), b.budget.sd);
+      im.budget.push_back(BudgetRecordOf(b));
+    }
+  }
+  if (!m.laws) return;
+  for (size_t i = 0; i < m.laws->fits.size() && i < result.fits.size(); ++i) {
+    FitRecord& f = result.fits[i];
+    for (const pipeline::NamedBudget& b : pipeline::ParameterBudgets(m.laws->fits[i], s, m.conditions)) {
+      for (auto& [n, v] : f.param_sd)
+        if (n == b.figure) v = b.budget.sd;
+      f.budget.push_back(BudgetRecordOf(b));
+    }
+  }
+}
+
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
 void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline::ClipMeasurement& m,
                             const std::string& name, const tracker::Track& track, ClipResult& result) {
@@ -124,6 +188,7 @@ void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline
     }
   }
   if (request.fit_laws) result.extra.push_back({"time_fits_s", m.fit_seconds});
+  AddBudgetsToResult(m, name, result);
   for (const std::string& flag : m.flags) AddFlag(result, flag);
   FlagImplausibleImpacts(m.conditions.mass_kg, name, result);
   if (m.track_force) {
@@ -147,6 +212,8 @@ pipeline::ClipRequest ClipRequestFor(const ManifestRow& row, const std::filesyst
   r.fps_manifest = row.capture_fps;
   r.marker_offset_manifest_m = row.marker_offset_m;
   r.gravity_mps2 = row.gravity_mps2;
+  r.gravity_sd_mps2 = row.gravity_sd_mps2;
+  if (row.capture_fps_tolerance_ppm) r.capture_fps_tolerance_ppm = *row.capture_fps_tolerance_ppm;
   // The manifest reader checked the kind against kManifestMarkerKinds.
   r.marker = tracker::MarkerKindFromString(row.marker.empty() ? "auto" : row.marker);
   if (row.marker_u_px && row.marker_v_px) r.seed_px = cv::Point2d(*row.marker_u_px, *row.marker_v_px);

@@ -138,7 +138,9 @@ enum class Column {
   kGravity,
   kMarker,
   kMarkerU,
-  kMarkerV
+  kMarkerV,
+  kFpsTolerance,
+  kGravitySd
 };
 
 const std::vector<std::pair<std::string, Column>>& KnownColumns() {
@@ -154,6 +156,8 @@ const std::vector<std::pair<std::string, Column>>& KnownColumns() {
       {"section_radius_m", Column::kSectionRadius},
       {"marker_offset_m", Column::kMarkerOffset},
       {"gravity_mps2", Column::kGravity},
+      {"gravity_sd_mps2", Column::kGravitySd},
+      {"capture_fps_tolerance_ppm", Column::kFpsTolerance},
       {"marker", Column::kMarker},
       {"marker_u_px", Column::kMarkerU},
       {"marker_v_px", Column::kMarkerV},
@@ -390,6 +394,16 @@ void ReadNumberColumns(ManifestRow& row, const std::vector<std::string>& f, cons
            {"tyre section radius", "metres"},
            &kRadiusRange},
           {Column::kGravity, "gravity_mps2", &row.gravity_mps2, {"local gravity", "m/s^2"}, nullptr},
+          {Column::kGravitySd,
+           "gravity_sd_mps2",
+           &row.gravity_sd_mps2,
+           {"standard uncertainty of the local gravity", "m/s^2"},
+           nullptr},
+          {Column::kFpsTolerance,
+           "capture_fps_tolerance_ppm",
+           &row.capture_fps_tolerance_ppm,
+           {"tolerance of the camera's frame clock", "parts per million"},
+           nullptr},
       };
   for (const auto& [column, name, target, spec, range] : optional_numbers) {
     if (!header.index.count(column) || get(column).empty()) continue;

@@ -56,6 +56,11 @@ struct ManifestRow {
   std::optional<double> marker_offset_m;
   // Local gravity [m/s^2]; positive; `--gravity` wins; default standard gravity 9.80665.
   std::optional<double> gravity_mps2;
+  // Its standard uncertainty [m/s^2]; default 0.001 with gravity_mps2 or --gravity, 0.015 with
+  // standard gravity (docs/methods.md §23).
+  std::optional<double> gravity_sd_mps2;
+  // The camera clock's tolerance [ppm], a rectangular half-width; default 50 (docs/methods.md §23).
+  std::optional<double> capture_fps_tolerance_ppm;
   // The hub marker (tracker/marker_kind.h, tracker/track.h): its kind, "" = auto; one of
   // kManifestMarkerKinds. Its centre in the first frames [px] (--marker-at of `analyze`): both
   // or neither, finite, >= 0; a template marker needs them.

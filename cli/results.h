@@ -54,6 +54,17 @@ struct GravityCheck {
   double expected_mps2 = analysis::kStandardGravityMps2;  // standard gravity or the user's local g
 };
 
+// A figure's uncertainty budget (docs/formats.md, "Uncertainty budgets"; docs/methods.md §23):
+// its combined standard uncertainty, the part that contributes most, and each part's
+// contribution in the figure's unit (fit, onset_height, rig_scale, marker_plane, capture_rate,
+// gravity).
+struct BudgetRecord {
+  std::string figure;  // the figure's name in the record, e.g. "impact_speed_mps", "k"
+  double sd = 0.0;
+  std::string dominant;
+  NamedValues parts;
+};
+
 struct ImpactRecord {
   double t_contact_s = 0.0;
   double t_separation_s = 0.0;
@@ -71,6 +82,7 @@ struct ImpactRecord {
   // Flags of docs/formats.md ("Flags"): a figure kept but implausible (cor_above_1,
   // negative_deflection, peak_force_implausible); the impact is then left out of the means.
   std::vector<std::string> flags;
+  std::vector<BudgetRecord> budget;  // one per figure with an uncertainty
 };
 
 struct FitRecord {
@@ -83,8 +95,9 @@ struct FitRecord {
   double rms_residual_m = 0.0;
   double bic = 0.0;
   bool converged = false;
-  NamedValues extra;  // e.g. iterations, cost
-  NamedTexts notes;   // e.g. formula, geometry assumed
+  NamedValues extra;                 // e.g. iterations, cost
+  NamedTexts notes;                  // e.g. formula, geometry assumed
+  std::vector<BudgetRecord> budget;  // one per parameter (param_sd holds their combined sds)
 };
 
 // A frame where the marker was located but not trusted (tracker::EmptyFrame), left empty in

@@ -116,6 +116,28 @@ std::vector<Curve> CurvesFromJson(const json& j) {
   return out;
 }
 
+// "budget": {figure: {"sd", "dominant", "parts": {part: contribution}}} (docs/formats.md).
+ordered_json BudgetToJson(const std::vector<BudgetRecord>& budget) {
+  ordered_json out = ordered_json::object();
+  for (const BudgetRecord& b : budget)
+    out[b.figure] = {{"sd", Number(b.sd)}, {"dominant", b.dominant}, {"parts", Values(b.parts)}};
+  return out;
+}
+
+std::vector<BudgetRecord> BudgetFromJson(const json& j) {
+  std::vector<BudgetRecord> out;
+  if (!j.contains("budget") || !j.at("budget").is_object()) return out;
+  for (auto it = j.at("budget").begin(); it != j.at("budget").end(); ++it) {
+    BudgetRecord b;
+    b.figure = it.key();
+    b.sd = GetNumber(it.value(), "sd");
+    b.dominant = it.value().value("dominant", "");
+    b.parts = GetValues(it.value().value("parts", json::object()));
+    out.push_back(b);
+  }
+  return out;
+}
+
 ordered_json FitToJson(const FitRecord& f) {
   ordered_json j;
   j["law"] = f.law;
@@ -129,6 +151,7 @@ ordered_json FitToJson(const FitRecord& f) {
   j["converged"] = f.converged;
   AddExtra(j, f.extra);
   AddTexts(j, f.notes);
+  if (!f.budget.empty()) j["budget"] = BudgetToJson(f.budget);
   return j;
 }
 
@@ -144,6 +167,7 @@ FitRecord FitFromJson(const json& j) {
   f.bic = GetNumber(j, "bic");
   f.converged = j.value("converged", false);
   ReadExtras(j, kFitKeys, f.extra, &f.notes);
+  f.budget = BudgetFromJson(j);
   return f;
 }
 
@@ -190,6 +214,7 @@ void WriteClipResult(const std::filesystem::path& path, const ClipResult& r) {
     ji["complete"] = im.complete;
     if (!im.flags.empty()) ji["flags"] = im.flags;
     AddExtra(ji, im.extra);
+    if (!im.budget.empty()) ji["budget"] = BudgetToJson(im.budget);
     j["impacts"].push_back(ji);
   }
   j["fits"] = ordered_json::array();
@@ -240,6 +265,7 @@ ClipResult ReadClipResult(const std::filesystem::path& path) {
       im.complete = ji.value("complete", false);
       im.flags = ji.value("flags", std::vector<std::string>{});
       ReadExtras(ji, kImpactKeys, im.extra, nullptr);
+      im.budget = BudgetFromJson(ji);
       r.impacts.push_back(im);
     }
     for (const json& jf : j.value("fits", json::array())) r.fits.push_back(FitFromJson(jf));

@@ -7,6 +7,7 @@
 
 #include "calib/rig.h"
 #include "calib/rig_uncertainty.h"
+#include "pipeline/uncertainty.h"
 
 namespace dropfit::pipeline {
 
@@ -320,6 +321,9 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
                                                         : analysis::OnsetHeightSource::kFit);
   }
   m.track_force = TrackForceDeflection(m.series, m.kinematics, m.conditions.mass_kg, m.conditions.gravity_mps2);
+  ClipScaleUncertainty scale = ScaleUncertaintyOf(request, rig, m);
+  m.scale_uncertainty = scale.scale;
+  m.uncertainty_notes = std::move(scale.notes);
   return m;
 }
 

@@ -32,6 +32,7 @@
 #include "analysis/law_choice.h"
 #include "analysis/law_fit.h"
 #include "analysis/time_series.h"
+#include "analysis/uncertainty_budget.h"
 #include "calib/rig.h"
 #include "media/frame_source.h"
 #include "pipeline/capture_rate.h"
@@ -58,6 +59,12 @@ struct ClipRequest {
   std::optional<double> fps_option;        // --fps (wins over everything)
   std::optional<double> fps_manifest;      // manifest capture_fps
   std::optional<double> gravity_mps2;      // local gravity; default standard gravity
+  // Its standard uncertainty [m/s^2]; default kGivenGravitySdMps2 when gravity_mps2 is set,
+  // kStandardGravitySdMps2 otherwise (pipeline/uncertainty.h).
+  std::optional<double> gravity_sd_mps2;
+  // The camera clock's stated tolerance [ppm], a rectangular half-width (manifest
+  // capture_fps_tolerance_ppm), >= 0.
+  double capture_fps_tolerance_ppm = 50.0;
   // The hub marker's plane (pipeline/marker_offset.h): --marker-offset, manifest marker_offset_m.
   std::optional<double> marker_offset_option_m;
   std::optional<double> marker_offset_manifest_m;
@@ -150,6 +157,10 @@ struct ClipMeasurement {
   std::optional<std::string> plausibility_problem;
   std::vector<std::string> flags;
   double fit_seconds = 0.0;  // wall time of the per-clip fits (0 when none ran)
+  // The clip's scale inputs to the figures' uncertainty budgets (pipeline/uncertainty.h,
+  // ScaleUncertaintyOf), and what could not be known, as sentences.
+  analysis::ScaleUncertainty scale_uncertainty;
+  std::vector<std::string> uncertainty_notes;
 };
 
 // How to measure: fit the laws (per-clip stage) or not (a clip rebuilt from its track.csv for the
