@@ -1,5 +1,6 @@
 #include "analysis/uncertainty_budget.h"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <stdexcept>
@@ -34,27 +35,29 @@ double CombineUncorrelated(const std::vector<double>& sensitivities, const std::
 }
 
 double CombineCorrelated(const std::vector<double>& sensitivities, const std::vector<double>& sds,
-                         const Eigen::MatrixXd& correlation) {
+                         const std::vector<std::vector<double>>& correlation) {
   CheckSds(sensitivities, sds, "CombineCorrelated");
-  const auto n = static_cast<Eigen::Index>(sds.size());
-  if (correlation.rows() != n || correlation.cols() != n)
-    throw std::invalid_argument("CombineCorrelated: the correlation matrix is " + std::to_string(correlation.rows()) +
-                                "x" + std::to_string(correlation.cols()) + ", expected " + std::to_string(n) + "x" +
-                                std::to_string(n));
-  for (Eigen::Index i = 0; i < n; ++i) {
-    if (std::abs(correlation(i, i) - 1.0) > 1e-12)
+  const size_t n = sds.size();
+  if (correlation.size() != n)
+    throw std::invalid_argument("CombineCorrelated: the correlation matrix has " + std::to_string(correlation.size()) +
+                                " rows, expected " + std::to_string(n));
+  for (size_t i = 0; i < n; ++i) {
+    if (correlation[i].size() != n)
+      throw std::invalid_argument("CombineCorrelated: row " + std::to_string(i) + " of the correlation matrix has " +
+                                  std::to_string(correlation[i].size()) + " entries, expected " + std::to_string(n));
+  }
+  for (size_t i = 0; i < n; ++i) {
+    if (std::abs(correlation[i][i] - 1.0) > 1e-12)
       throw std::invalid_argument("CombineCorrelated: the correlation matrix's diagonal must be 1");
-    for (Eigen::Index j = 0; j < n; ++j) {
-      const double r = correlation(i, j);
-      if (!std::isfinite(r) || std::abs(r) > 1.0 + 1e-12 || std::abs(r - correlation(j, i)) > 1e-12)
+    for (size_t j = 0; j < n; ++j) {
+      const double r = correlation[i][j];
+      if (!std::isfinite(r) || std::abs(r) > 1.0 + 1e-12 || std::abs(r - correlation[j][i]) > 1e-12)
         throw std::invalid_argument("CombineCorrelated: correlation coefficients must be symmetric and within [-1, 1]");
     }
   }
   double sum = 0.0;
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const double ui = sensitivities[static_cast<size_t>(i)] * sds[static_cast<size_t>(i)];
-    for (Eigen::Index j = 0; j < n; ++j)
-      sum += ui * sensitivities[static_cast<size_t>(j)] * sds[static_cast<size_t>(j)] * correlation(i, j);
+  for (size_t i = 0; i < n; ++i) {
+    for (size_t j = 0; j < n; ++j) sum += sensitivities[i] * sds[i] * sensitivities[j] * sds[j] * correlation[i][j];
   }
   return std::sqrt(std::max(0.0, sum));
 }

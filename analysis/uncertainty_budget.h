@@ -32,8 +32,6 @@
 // rig_scale, capture_rate and gravity (SharedBetweenClips). The fit, the onset height and the
 // ruler's per-clip estimate are each clip's own.
 
-#include <Eigen/Dense>
-
 #include <array>
 #include <optional>
 #include <string>
@@ -49,7 +47,7 @@ double CombineUncorrelated(const std::vector<double>& sensitivities, const std::
 // r that is not a correlation matrix, or a negative or non-finite sd. Returns 0 when the
 // quadratic form rounds below 0.
 double CombineCorrelated(const std::vector<double>& sensitivities, const std::vector<double>& sds,
-                         const Eigen::MatrixXd& correlation);
+                         const std::vector<std::vector<double>>& correlation);
 
 enum class BudgetPart { kFit, kOnsetHeight, kRigScale, kMarkerPlane, kCaptureRate, kGravity };
 inline constexpr int kBudgetParts = 6;

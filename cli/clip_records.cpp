@@ -122,18 +122,6 @@ void SetExtra(NamedValues& extra, const std::string& name, double value) {
   extra.emplace_back(name, value);
 }
 
-BudgetRecord BudgetRecordOf(const pipeline::NamedBudget& b) {
-  BudgetRecord r;
-  r.figure = b.figure;
-  r.sd = b.budget.sd;
-  r.dominant = analysis::ToString(b.budget.dominant);
-  for (int p = 0; p < analysis::kBudgetParts; ++p) {
-    const auto part = static_cast<analysis::BudgetPart>(p);
-    r.parts.emplace_back(analysis::ToString(part), b.budget.part(part));
-  }
-  return r;
-}
-
 // The uncertainty budgets (pipeline/uncertainty.h): each figure's sd field becomes its combined
 // standard uncertainty, its budget beside it; the law parameters' sds likewise; the clip's scale
 // inputs at the top.
@@ -150,18 +138,12 @@ void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const std::string& n
     ImpactRecord& im = result.impacts[i];
     for (const pipeline::NamedBudget& b : impacts[i]) {
       SetExtra(im.extra, SdName(b.figure), b.budget.sd);
-      im.budget.push_back(BudgetRecordOf(b));
+      im.budget.push_back(ToBudgetRecord(b.figure, b.budget));
     }
   }
   if (!m.laws) return;
-  for (size_t i = 0; i < m.laws->fits.size() && i < result.fits.size(); ++i) {
-    FitRecord& f = result.fits[i];
-    for (const pipeline::NamedBudget& b : pipeline::ParameterBudgets(m.laws->fits[i], s, m.conditions)) {
-      for (auto& [n, v] : f.param_sd)
-        if (n == b.figure) v = b.budget.sd;
-      f.budget.push_back(BudgetRecordOf(b));
-    }
-  }
+  for (size_t i = 0; i < m.laws->fits.size() && i < result.fits.size(); ++i)
+    AddParameterBudgets(m.laws->fits[i], s, m.conditions, result.fits[i]);
 }
 
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
@@ -401,6 +383,9 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
     e.sd_m = sd;
     e.flights = static_cast<int>(ExtraValue(result, "gravity_ruler_flights"));
     m.gravity_offset = e;
+    pipeline::ClipScaleUncertainty scale = pipeline::ScaleUncertaintyOf(request, rig, m);
+    m.scale_uncertainty = scale.scale;
+    m.uncertainty_notes = std::move(scale.notes);
   }
   return m;
 }

@@ -58,6 +58,15 @@ FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index) {
   return r;
 }
 
+void AddParameterBudgets(const analysis::LawFitResult& fit, const analysis::ScaleUncertainty& scale,
+                         const analysis::DropConditions& conditions, FitRecord& record) {
+  for (const pipeline::NamedBudget& b : pipeline::ParameterBudgets(fit, scale, conditions)) {
+    for (auto& [name, sd] : record.param_sd)
+      if (name == b.figure) sd = b.budget.sd;
+    record.budget.push_back(ToBudgetRecord(b.figure, b.budget));
+  }
+}
+
 Curve CorCurve(analysis::LawId law, const pipeline::CorCurvePoints& points) {
   return {analysis::ToString(law), CurveKind::kCorVsSpeed, points.impact_speed_mps, points.cor};
 }

@@ -9,12 +9,18 @@
 #include "analysis/law_fit.h"
 #include "cli/results.h"
 #include "pipeline/law_curves.h"
+#include "pipeline/uncertainty.h"
 
 namespace dropfit::cli {
 
 // One fit as the contract's record (law, params, param_sd, onset height, bounces of clip
 // `clip_index`, rms, bic, converged; formula, warnings and solver figures beside them).
 FitRecord ToFitRecord(const analysis::LawFitResult& fit, int clip_index = 0);
+
+// The uncertainty budgets of a fit's parameters (pipeline::ParameterBudgets) into its record:
+// `budget`, and param_sd set to the combined standard uncertainties.
+void AddParameterBudgets(const analysis::LawFitResult& fit, const analysis::ScaleUncertainty& scale,
+                         const analysis::DropConditions& conditions, FitRecord& record);
 
 // Fills result.fits, result.best_law and the report curves of a per-clip fit (`traces` holds the
 // simulated heights of each fit, pipeline/law_curves.h), and replaces each fitted impact's

@@ -6,21 +6,28 @@
 #include "cli/fit_records.h"
 #include "cli/parallel_for.h"
 #include "pipeline/joint_stage.h"
+#include "pipeline/uncertainty.h"
 
 namespace dropfit::cli {
 
 namespace {
 
-// The records of one specimen's joint fits.
-SpecimenSummary SummaryOf(const pipeline::SpecimenResult& r) {
+// The records of one specimen's joint fits; each parameter's sd is its combined standard
+// uncertainty with the clips' scale inputs pooled (pipeline::PooledScaleUncertainty).
+SpecimenSummary SummaryOf(const pipeline::SpecimenResult& r,
+                          const std::vector<const pipeline::ClipMeasurement*>& clips) {
   SpecimenSummary summary;
   summary.specimen = r.specimen;
   if (!r.fit) return summary;
+  std::vector<analysis::ScaleUncertainty> scales;
+  for (const pipeline::ClipMeasurement* m : clips) scales.push_back(m->scale_uncertainty);
+  const analysis::ScaleUncertainty pooled = pipeline::PooledScaleUncertainty(scales);
   summary.curves.push_back({"measured", CurveKind::kCorMeasured, r.measured_cor.impact_speed_mps, r.measured_cor.cor});
   for (size_t i = 0; i < r.fit->laws.size(); ++i) {
     const analysis::JointFitResult& law = r.fit->laws[i];
     JointFitRecord record;
     record.fit = ToFitRecord(law.fit, -1);
+    if (!clips.empty()) AddParameterBudgets(law.fit, pooled, clips.front()->conditions, record.fit);
     if (r.geometry_onset_height_m) record.fit.extra.emplace_back("onset_height_geometry_m", *r.geometry_onset_height_m);
     for (const analysis::HoldoutError& h : law.holdout) {
       if (h.failure) continue;
@@ -68,7 +75,7 @@ std::vector<SpecimenSummary> FitSpecimens(const std::vector<JointClip>& clips,
       if (c.row->specimen == order[index]) mine.push_back(c.measurement);
     }
     const pipeline::SpecimenResult r = pipeline::FitSpecimenClips(order[index], mine);
-    out[index] = SummaryOf(r);
+    out[index] = SummaryOf(r, mine);
     AddPooledGravityRuler(mine, out[index]);
     if (!r.fit) return;
     char line[256];

@@ -86,21 +86,26 @@ void SummaryTable(std::ostringstream& html, const std::vector<SummaryGroup>& gro
   html << "<table><tr><th class=\"t\">specimen</th><th>drop height [m]</th><th>clips</th>"
           "<th>impact speed [m/s]</th><th>COR</th><th>contact duration [ms]</th><th>max deflection [mm]</th>"
           "<th>peak force [N]</th></tr>";
-  auto pm = [](double mean, const std::optional<double>& sd, double scale, int decimals) {
+  auto pm = [](double mean, const std::optional<double>& sd, double scale, int decimals,
+               const std::optional<double>& u = std::nullopt) {
     std::string s = Scaled(mean, scale, decimals);
     if (sd) s += " &plusmn; " + Scaled(*sd, scale, decimals);
+    if (u && std::isfinite(*u)) s += " <span class=\"small\">(u " + Num(*u * scale, 2) + ")</span>";
     return s;
   };
   for (const SummaryGroup& g : groups) {
     html << "<tr><td class=\"t\">" << EscapeHtml(g.specimen) << "</td><td>" << Scaled(g.drop_height_m, 1, 3)
-         << "</td><td>" << g.clips << "</td><td>" << pm(g.impact_speed_mps_mean, g.impact_speed_mps_sd, 1, 3)
-         << "</td><td>" << pm(g.cor_mean, g.cor_sd, 1, 4) << "</td><td>"
-         << pm(g.contact_duration_s_mean, g.contact_duration_s_sd, 1e3, 2) << "</td><td>"
-         << pm(g.max_deflection_m_mean, g.max_deflection_m_sd, 1e3, 2) << "</td><td>"
-         << pm(g.peak_force_n_mean, g.peak_force_n_sd, 1, 0) << "</td></tr>";
+         << "</td><td>" << g.clips << "</td><td>"
+         << pm(g.impact_speed_mps_mean, g.impact_speed_mps_sd, 1, 3, g.MeanU("impact_speed_mps")) << "</td><td>"
+         << pm(g.cor_mean, g.cor_sd, 1, 4, g.MeanU("cor")) << "</td><td>"
+         << pm(g.contact_duration_s_mean, g.contact_duration_s_sd, 1e3, 2, g.MeanU("contact_duration_s")) << "</td><td>"
+         << pm(g.max_deflection_m_mean, g.max_deflection_m_sd, 1e3, 2, g.MeanU("max_deflection_m")) << "</td><td>"
+         << pm(g.peak_force_n_mean, g.peak_force_n_sd, 1, 0, g.MeanU("peak_force_n")) << "</td></tr>";
   }
   html << "</table><p class=\"small\">Mean &plusmn; standard deviation over clips (first complete impact of each "
-          "clip). COR, impact and rebound speed are taken where the hub passes the contact-onset height.</p>";
+          "clip); u: the mean's standard uncertainty, with the parts the clips share (rig scale, capture rate, "
+          "gravity) that averaging does not shrink. COR, impact and rebound speed are taken where the hub passes the "
+          "contact-onset height.</p>";
 }
 
 std::string ParamText(const FitRecord& f) {
@@ -229,6 +234,46 @@ void RigSection(std::ostringstream& html, const Summary& summary) {
 }
 
 // "; marker plane ... (source); gravity ruler: d +- sd mm" (docs/formats.md, "Gravity ruler").
+// The budget of the clip's first complete bounce (docs/methods.md §23): per figure its value,
+// its combined standard uncertainty and each part's contribution, the dominant part in bold.
+void BudgetTable(std::ostringstream& html, const ClipResult& r) {
+  const auto im = std::find_if(r.impacts.begin(), r.impacts.end(),
+                               [](const ImpactRecord& x) { return x.complete && !x.budget.empty(); });
+  if (im == r.impacts.end()) return;
+  struct Row {
+    const char* figure;
+    const char* label;
+    double scale;
+  };
+  const Row rows[] = {{"impact_speed_mps", "impact speed [m/s]", 1.0},
+                      {"rebound_speed_mps", "rebound speed [m/s]", 1.0},
+                      {"cor", "COR", 1.0},
+                      {"contact_duration_s", "contact duration [ms]", 1e3},
+                      {"max_deflection_m", "max deflection [mm]", 1e3},
+                      {"peak_force_n", "peak force [N]", 1.0},
+                      {"energy_lost_j", "energy lost [J]", 1.0}};
+  const char* const parts[] = {"fit", "onset_height", "rig_scale", "marker_plane", "capture_rate", "gravity"};
+  html << "<p class=\"small\">Uncertainty budget of bounce " << (im - r.impacts.begin())
+       << ": standard uncertainties combined in quadrature (GUM); the largest part in bold.</p><table><tr>"
+          "<th class=\"t\">figure</th><th>u</th><th>fit</th><th>onset height</th><th>rig scale</th>"
+          "<th>marker plane</th><th>capture rate</th><th>gravity</th></tr>";
+  for (const Row& row : rows) {
+    const auto b = std::find_if(im->budget.begin(), im->budget.end(),
+                                [&](const BudgetRecord& x) { return x.figure == row.figure; });
+    if (b == im->budget.end()) continue;
+    html << "<tr><td class=\"t\">" << row.label << "</td><td>" << Num(b->sd * row.scale, 2) << "</td>";
+    for (const char* part : parts) {
+      double v = std::nan("");
+      for (const auto& [name, value] : b->parts)
+        if (name == part) v = value;
+      const std::string text = !std::isfinite(v) ? "&ndash;" : v == 0.0 ? "0" : Num(v * row.scale, 2);
+      html << "<td>" << (b->dominant == part ? "<strong>" + text + "</strong>" : text) << "</td>";
+    }
+    html << "</tr>";
+  }
+  html << "</table>";
+}
+
 std::string MarkerPlaneNote(const ClipResult& r) {
   const double offset = ExtraValue(r, "marker_offset_m");
   if (!std::isfinite(offset)) return "";
@@ -261,6 +306,7 @@ void ClipSection(std::ostringstream& html, const ClipReportData& clip) {
            << (im.complete ? "yes" : "no (cut by the clip)") << "</td></tr>";
     }
     html << "</table>";
+    BudgetTable(html, r);
   }
   // Height against time.
   Plot height{"Hub height against time", "time [s]", "height y [m]", {}, {}, 620, 340};

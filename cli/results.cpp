@@ -37,10 +37,11 @@ std::vector<std::string> SplitComma(const std::string& line) {
 
 constexpr const char* kTrackHeader = "frame,t_s,u_px,v_px,x_m,y_m,quality";
 constexpr const char* kSummaryHeader =
-    "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
-    "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
-    "peak_force_n_mean,peak_force_n_sd,rebound_speed_mps_mean,rebound_speed_mps_sd,energy_lost_j_mean,"
-    "energy_lost_j_sd,flags";
+    "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,impact_speed_mps_mean_u,cor_mean,cor_"
+    "sd,cor_mean_u,contact_duration_s_mean,contact_duration_s_sd,contact_duration_s_mean_u,max_deflection_m_mean,"
+    "max_deflection_m_sd,max_deflection_m_mean_u,peak_force_n_mean,peak_force_n_sd,peak_force_n_mean_u,rebound_"
+    "speed_mps_mean,rebound_speed_mps_sd,rebound_speed_mps_mean_u,energy_lost_j_mean,energy_lost_j_sd,energy_lost_"
+    "j_mean_u,flags";
 
 // A mean and its sd, both to the sd's second significant digit (docs/formats.md, "summary.csv");
 // without an sd (one clip) or with sd 0 the mean as FormatNumber writes it.
@@ -58,6 +59,10 @@ std::string Rounded(double value, const std::optional<double>& sd) {
 }
 std::string MeanAndSd(double mean, const std::optional<double>& sd) {
   return Rounded(mean, sd) + "," + (sd ? Rounded(*sd, sd) : std::string());
+}
+// The mean, the spread over repeats and the mean's standard uncertainty (empty when unknown).
+std::string MeanSdU(double mean, const std::optional<double>& sd, const std::optional<double>& u) {
+  return MeanAndSd(mean, sd) + "," + (u && std::isfinite(*u) ? Rounded(*u, u) : std::string());
 }
 
 // Quotes a free-text CSV field when it needs it ("Common Format and MIME Type for Comma-Separated
@@ -168,6 +173,29 @@ std::vector<TrackRow> ReadTrackCsv(const std::filesystem::path& path) {
   return rows;
 }
 
+BudgetRecord ToBudgetRecord(const std::string& figure, const analysis::FigureBudget& budget) {
+  BudgetRecord r;
+  r.figure = figure;
+  r.sd = budget.sd;
+  r.dominant = analysis::ToString(budget.dominant);
+  for (int p = 0; p < analysis::kBudgetParts; ++p) {
+    const auto part = static_cast<analysis::BudgetPart>(p);
+    r.parts.emplace_back(analysis::ToString(part), budget.part(part));
+  }
+  return r;
+}
+
+std::optional<analysis::FigureBudget> ToFigureBudget(const BudgetRecord& record) {
+  std::array<double, analysis::kBudgetParts> parts{};
+  try {
+    for (const auto& [name, value] : record.parts)
+      parts[static_cast<size_t>(analysis::BudgetPartFromString(name))] = value;
+  } catch (const std::invalid_argument&) {
+    return std::nullopt;
+  }
+  return analysis::MakeBudget(parts);
+}
+
 void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<SummaryGroup>& groups) {
   WriteFileAtomically(path, [&](std::ostream& out) {
     out << kSummaryHeader << '\n';
@@ -175,12 +203,14 @@ void WriteSummaryCsv(const std::filesystem::path& path, const std::vector<Summar
       std::string flags;
       for (const std::string& f : g.flags) flags += (flags.empty() ? "" : ";") + f;
       out << CsvText(g.specimen) << ',' << FormatNumber(g.drop_height_m) << ',' << g.clips << ','
-          << MeanAndSd(g.impact_speed_mps_mean, g.impact_speed_mps_sd) << ',' << MeanAndSd(g.cor_mean, g.cor_sd) << ','
-          << MeanAndSd(g.contact_duration_s_mean, g.contact_duration_s_sd) << ','
-          << MeanAndSd(g.max_deflection_m_mean, g.max_deflection_m_sd) << ','
-          << MeanAndSd(g.peak_force_n_mean, g.peak_force_n_sd) << ','
-          << MeanAndSd(g.rebound_speed_mps_mean, g.rebound_speed_mps_sd) << ','
-          << MeanAndSd(g.energy_lost_j_mean, g.energy_lost_j_sd) << ',' << CsvText(flags) << '\n';
+          << MeanSdU(g.impact_speed_mps_mean, g.impact_speed_mps_sd, g.MeanU("impact_speed_mps")) << ','
+          << MeanSdU(g.cor_mean, g.cor_sd, g.MeanU("cor")) << ','
+          << MeanSdU(g.contact_duration_s_mean, g.contact_duration_s_sd, g.MeanU("contact_duration_s")) << ','
+          << MeanSdU(g.max_deflection_m_mean, g.max_deflection_m_sd, g.MeanU("max_deflection_m")) << ','
+          << MeanSdU(g.peak_force_n_mean, g.peak_force_n_sd, g.MeanU("peak_force_n")) << ','
+          << MeanSdU(g.rebound_speed_mps_mean, g.rebound_speed_mps_sd, g.MeanU("rebound_speed_mps")) << ','
+          << MeanSdU(g.energy_lost_j_mean, g.energy_lost_j_sd, g.MeanU("energy_lost_j")) << ',' << CsvText(flags)
+          << '\n';
     }
   });
 }

@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "analysis/constants.h"
+#include "analysis/uncertainty_budget.h"
 
 namespace dropfit::cli {
 
@@ -64,6 +65,10 @@ struct BudgetRecord {
   std::string dominant;
   NamedValues parts;
 };
+
+// A budget as a record, and back (nothing when a part's name is unknown to this version).
+BudgetRecord ToBudgetRecord(const std::string& figure, const analysis::FigureBudget& budget);
+std::optional<analysis::FigureBudget> ToFigureBudget(const BudgetRecord& record);
 
 struct ImpactRecord {
   double t_contact_s = 0.0;
@@ -158,6 +163,17 @@ struct SummaryGroup {
   std::optional<double> rebound_speed_mps_sd;
   double energy_lost_j_mean = 0.0;
   std::optional<double> energy_lost_j_sd;
+  // The standard uncertainty of each mean (docs/methods.md §23, "Per-height means"): the spread
+  // over repeats combined with the parts the clips share, by figure name (impact_speed_mps, cor,
+  // contact_duration_s, max_deflection_m, peak_force_n, rebound_speed_mps, energy_lost_j); a
+  // figure is absent when a clip's result carries no budget for it.
+  std::vector<BudgetRecord> mean_budget;
+  // The mean's standard uncertainty of `figure`, if known.
+  std::optional<double> MeanU(const std::string& figure) const {
+    for (const BudgetRecord& b : mean_budget)
+      if (b.figure == figure) return b.sd;
+    return std::nullopt;
+  }
   // Flags of docs/formats.md ("Flags"): why the group's figures are fewer or suspect.
   std::vector<std::string> flags;
 };

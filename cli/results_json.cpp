@@ -124,10 +124,10 @@ ordered_json BudgetToJson(const std::vector<BudgetRecord>& budget) {
   return out;
 }
 
-std::vector<BudgetRecord> BudgetFromJson(const json& j) {
+std::vector<BudgetRecord> BudgetFromJson(const json& j, const char* key = "budget") {
   std::vector<BudgetRecord> out;
-  if (!j.contains("budget") || !j.at("budget").is_object()) return out;
-  for (auto it = j.at("budget").begin(); it != j.at("budget").end(); ++it) {
+  if (!j.contains(key) || !j.at(key).is_object()) return out;
+  for (auto it = j.at(key).begin(); it != j.at(key).end(); ++it) {
     BudgetRecord b;
     b.figure = it.key();
     b.sd = GetNumber(it.value(), "sd");
@@ -313,6 +313,9 @@ void WriteSummaryJson(const std::filesystem::path& path, const Summary& s) {
                            {"energy_lost_j_mean", Number(g.energy_lost_j_mean)},
                            {"energy_lost_j_sd", Number(g.energy_lost_j_sd)},
                            {"flags", g.flags}});
+    ordered_json& jg = j["groups"].back();
+    for (const BudgetRecord& b : g.mean_budget) jg[b.figure + "_mean_u"] = Number(b.sd);
+    if (!g.mean_budget.empty()) jg["mean_budget"] = BudgetToJson(g.mean_budget);
   }
   j["specimens"] = ordered_json::array();
   for (const SpecimenSummary& sp : s.specimens) {
@@ -377,6 +380,7 @@ Summary ReadSummaryJson(const std::filesystem::path& path) {
       g.energy_lost_j_mean = GetOptional(jg, "energy_lost_j_mean").value_or(std::nan(""));
       g.energy_lost_j_sd = GetOptional(jg, "energy_lost_j_sd");
       g.flags = jg.value("flags", std::vector<std::string>{});
+      g.mean_budget = BudgetFromJson(jg, "mean_budget");  // added by issue 19
       s.groups.push_back(g);
     }
     for (const json& js : j.at("specimens")) {

@@ -5,6 +5,8 @@
 #include <map>
 #include <string>
 
+#include "analysis/uncertainty_budget.h"
+
 namespace dropfit::cli {
 
 namespace {
@@ -31,6 +33,36 @@ struct Stats {
 
 constexpr double kHeightMatchM = 1e-9;
 
+// The figures whose means carry an uncertainty, in summary.csv's order.
+const char* const kMeanFigures[] = {"impact_speed_mps", "cor",          "contact_duration_s",
+                                    "max_deflection_m", "peak_force_n", "rebound_speed_mps",
+                                    "energy_lost_j"};
+
+// One figure's values and budgets over a group's clips; `complete` false once a clip had none.
+struct BudgetStats {
+  std::vector<double> values;
+  std::vector<analysis::FigureBudget> budgets;
+  bool complete = true;
+};
+
+std::optional<analysis::FigureBudget> FigureBudgetOf(const ImpactRecord& im, const std::string& figure) {
+  for (const BudgetRecord& b : im.budget)
+    if (b.figure == figure) return ToFigureBudget(b);
+  return std::nullopt;
+}
+
+double FigureValue(const ImpactRecord& im, const std::string& figure) {
+  if (figure == "impact_speed_mps") return im.impact_speed_mps;
+  if (figure == "cor") return im.cor;
+  if (figure == "contact_duration_s") return im.contact_duration_s;
+  if (figure == "max_deflection_m") return im.max_deflection_m;
+  if (figure == "peak_force_n") return im.peak_force_n;
+  if (figure == "rebound_speed_mps") return im.rebound_speed_mps;
+  for (const auto& [name, value] : im.extra)
+    if (name == figure) return value;
+  return std::nan("");
+}
+
 }  // namespace
 
 std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& clips) {
@@ -40,6 +72,7 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     int clips = 0;
     Stats speed, cor, duration, deflection, force, rebound, energy;
     std::vector<std::string> flags;
+    std::map<std::string, BudgetStats> budgets;
   };
   std::vector<std::string> specimen_order;
   std::vector<Acc> accs;
@@ -52,7 +85,7 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
       return a.specimen == c.row->specimen && std::abs(a.height - c.row->drop_height_m) <= kHeightMatchM;
     });
     if (it == accs.end()) {
-      accs.push_back({c.row->specimen, c.row->drop_height_m, 0, {}, {}, {}, {}, {}, {}, {}, {}});
+      accs.push_back({c.row->specimen, c.row->drop_height_m, 0, {}, {}, {}, {}, {}, {}, {}, {}, {}});
       it = std::prev(accs.end());
     }
     for (const std::string& f : c.result->flags) AddFlag(it->flags, f);
@@ -79,6 +112,18 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     it->rebound.Add(first->rebound_speed_mps);
     for (const auto& [name, value] : first->extra) {
       if (name == "energy_lost_j") it->energy.Add(value);
+    }
+    for (const char* figure : kMeanFigures) {
+      const double v = FigureValue(*first, figure);
+      if (!std::isfinite(v)) continue;
+      BudgetStats& b = it->budgets[figure];
+      const auto budget = FigureBudgetOf(*first, figure);
+      if (!budget) {
+        b.complete = false;
+        continue;
+      }
+      b.values.push_back(v);
+      b.budgets.push_back(*budget);
     }
   }
   std::stable_sort(accs.begin(), accs.end(), [&](const Acc& a, const Acc& b) {
@@ -107,6 +152,12 @@ std::vector<SummaryGroup> BuildSummaryGroups(const std::vector<AnalysedClip>& cl
     g.energy_lost_j_mean = a.energy.Mean();
     g.energy_lost_j_sd = a.energy.Sd();
     g.flags = a.flags;
+    for (const char* figure : kMeanFigures) {
+      const auto found = a.budgets.find(figure);
+      if (found == a.budgets.end() || !found->second.complete || found->second.values.empty()) continue;
+      const analysis::MeanBudget mean = analysis::MeanOf(found->second.values, found->second.budgets);
+      g.mean_budget.push_back(ToBudgetRecord(figure, mean.budget));
+    }
     groups.push_back(g);
   }
   return groups;

@@ -20,6 +20,12 @@
 namespace dropfit::analysis {
 namespace {
 
+std::vector<std::vector<double>> Filled(size_t n, double off_diagonal) {
+  std::vector<std::vector<double>> r(n, std::vector<double>(n, off_diagonal));
+  for (size_t i = 0; i < n; ++i) r[i][i] = 1.0;
+  return r;
+}
+
 TEST(UncertaintyBudget, TheEndGaugeOfGumAnnexH1CombinesTo32Nanometres) {
   const double ls = 0.05, theta = -0.1, alpha_s = 11.5e-6;
   // inputs: l_s, d, alpha_s, theta, delta alpha, delta theta (SI units: m, m, /degC, degC, /degC, degC)
@@ -28,17 +34,18 @@ TEST(UncertaintyBudget, TheEndGaugeOfGumAnnexH1CombinesTo32Nanometres) {
   const double uc = CombineUncorrelated(c, u);
   EXPECT_NEAR(uc * 1e9, 32.0, 0.5);  // GUM H.1: u_c(l) = 32 nm
   // The same with eq. 13 and an identity correlation matrix.
-  EXPECT_NEAR(CombineCorrelated(c, u, Eigen::MatrixXd::Identity(6, 6)), uc, 1e-15);
+  EXPECT_NEAR(CombineCorrelated(c, u, Filled(6, 0.0)), uc, 1e-15);
 }
 
 TEST(UncertaintyBudget, FullyCorrelatedResistorsOfGum522AddLinearly) {
   const std::vector<double> c(10, 1.0), u(10, 0.1);
-  EXPECT_NEAR(CombineCorrelated(c, u, Eigen::MatrixXd::Ones(10, 10)), 1.0, 1e-12);        // r = 1
-  EXPECT_NEAR(CombineCorrelated(c, u, Eigen::MatrixXd::Identity(10, 10)), 0.316, 0.001);  // r = 0
+  EXPECT_NEAR(CombineCorrelated(c, u, Filled(10, 1.0)), 1.0, 1e-12);    // r = 1
+  EXPECT_NEAR(CombineCorrelated(c, u, Filled(10, 0.0)), 0.316, 0.001);  // r = 0
   // A matrix that is not one of correlations is refused.
-  Eigen::MatrixXd bad = Eigen::MatrixXd::Identity(10, 10);
-  bad(0, 1) = 0.5;
+  std::vector<std::vector<double>> bad = Filled(10, 0.0);
+  bad[0][1] = 0.5;
   EXPECT_THROW(CombineCorrelated(c, u, bad), std::invalid_argument);
+  EXPECT_THROW(CombineCorrelated(c, u, Filled(9, 0.0)), std::invalid_argument);
   EXPECT_THROW(CombineUncorrelated({1.0}, {-1.0}), std::invalid_argument);
   EXPECT_THROW(CombineUncorrelated({1.0, 2.0}, {1.0}), std::invalid_argument);
 }

@@ -158,11 +158,11 @@ void ExpectGroupWithoutNumbers(const fs::path& out) {
   const std::vector<std::string> lines = Lines(Read(out / "summary.csv"));
   ASSERT_EQ(lines.size(), 2u);
   const std::vector<std::string> f = Fields(lines[1]);
-  ASSERT_EQ(f.size(), 18u) << lines[1];
+  ASSERT_EQ(f.size(), 25u) << lines[1];
   EXPECT_EQ(f[0], "wheel");
   EXPECT_EQ(f[2], "0");
-  for (size_t i = 3; i < 17; ++i) EXPECT_EQ(f[i], "") << "column " << i << " of " << lines[1];
-  EXPECT_EQ(f[17], "rate_or_scale;failed");
+  for (size_t i = 3; i < 24; ++i) EXPECT_EQ(f[i], "") << "column " << i << " of " << lines[1];
+  EXPECT_EQ(f[24], "rate_or_scale;failed");
 }
 
 TEST(MistakesGates, ATruncatedVideoLeavesNoLineOfTheVideoLibrariesOnStderr) {
@@ -395,15 +395,15 @@ TEST(MistakesGates, SummaryNumbersAreWrittenToTheSecondSignificantDigitOfTheirSd
   g.flags = {"incomplete", "failed"};
   WriteSummaryCsv(dir.path() / "summary.csv", {g});
   const std::vector<std::string> f = Fields(Lines(Read(dir.path() / "summary.csv"))[1]);
-  ASSERT_EQ(f.size(), 18u);
+  ASSERT_EQ(f.size(), 25u);  // each figure: mean, sd, the mean's uncertainty
   EXPECT_EQ(f[3], "1.715");
   EXPECT_EQ(f[4], "0.012");
-  EXPECT_EQ(f[5], "0.61234");
-  EXPECT_EQ(f[6], "0");
-  EXPECT_EQ(f[11], "1235");
-  EXPECT_EQ(f[12], "57");
-  EXPECT_EQ(f[15], "") << "no value: empty, never a number";
-  EXPECT_EQ(f[17], "incomplete;failed");
+  EXPECT_EQ(f[6], "0.61234");
+  EXPECT_EQ(f[7], "0");
+  EXPECT_EQ(f[15], "1235");
+  EXPECT_EQ(f[16], "57");
+  EXPECT_EQ(f[21], "") << "no value: empty, never a number";
+  EXPECT_EQ(f[24], "incomplete;failed");
 }
 
 TEST(MistakesGates, LawsCsvHasOneRowPerSpecimenLawAndParameterWithTheBicDifferenceToTheBestLaw) {

@@ -138,14 +138,53 @@ TEST_F(ResultsTest, SummaryCsvHasTheContractColumnsInOrderAndEmptySdForOneClip) 
   g.drop_height_m = 0.4;
   g.clips = 1;
   g.cor_mean = 0.7;
+  g.mean_budget.push_back({"cor", 0.001234, "rig_scale", {{"fit", 0.0001}}});
   const auto path = dir_ / "summary.csv";
   WriteSummaryCsv(path, {g});
+  // The mean's uncertainty beside the spread, to its own second significant digit (docs/formats.md).
   EXPECT_EQ(test::ReadFileBytes(path),
-            "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,cor_mean,cor_sd,"
-            "contact_duration_s_mean,contact_duration_s_sd,max_deflection_m_mean,max_deflection_m_sd,"
-            "peak_force_n_mean,peak_force_n_sd,rebound_speed_mps_mean,rebound_speed_mps_sd,energy_lost_j_mean,"
-            "energy_lost_j_sd,flags\n"
-            "\"wheel, front\",0.4,1,0,,0.7,,0,,0,,0,,0,,0,,\n");
+            "specimen,drop_height_m,clips,impact_speed_mps_mean,impact_speed_mps_sd,impact_speed_mps_mean_u,cor_mean,"
+            "cor_sd,cor_mean_u,contact_duration_s_mean,contact_duration_s_sd,contact_duration_s_mean_u,max_"
+            "deflection_m_mean,max_deflection_m_sd,max_deflection_m_mean_u,peak_force_n_mean,peak_force_n_sd,peak_"
+            "force_n_mean_u,rebound_speed_mps_mean,rebound_speed_mps_sd,rebound_speed_mps_mean_u,energy_lost_j_mean,"
+            "energy_lost_j_sd,energy_lost_j_mean_u,flags\n"
+            "\"wheel, front\",0.4,1,0,,,0.7,,0.0012,0,,,0,,,0,,,0,,,0,,,\n");
+}
+
+TEST_F(ResultsTest, BudgetsRoundTripThroughResultAndSummary) {
+  ClipResult r;
+  r.clip = "x";
+  ImpactRecord im;
+  im.cor = 0.7;
+  im.budget.push_back({"cor", 2e-4, "fit", {{"fit", 1.9e-4}, {"onset_height", 6e-5}, {"rig_scale", 0.0}}});
+  r.impacts = {im};
+  FitRecord f;
+  f.law = "kelvin-voigt";
+  f.params = {{"k_n_per_m", 4e4}};
+  f.param_sd = {{"k_n_per_m", 90.0}};
+  f.budget.push_back({"k_n_per_m", 90.0, "capture_rate", {{"capture_rate", 80.0}}});
+  r.fits = {f};
+  const auto path = dir_ / "result.json";
+  WriteClipResult(path, r);
+  const ClipResult back = ReadClipResult(path);
+  ASSERT_EQ(back.impacts[0].budget.size(), 1u);
+  EXPECT_EQ(back.impacts[0].budget[0].dominant, "fit");
+  EXPECT_EQ(back.impacts[0].budget[0].parts.size(), 3u);
+  EXPECT_DOUBLE_EQ(back.impacts[0].budget[0].sd, 2e-4);
+  ASSERT_EQ(back.fits[0].budget.size(), 1u);
+  EXPECT_EQ(back.fits[0].budget[0].figure, "k_n_per_m");
+  // Not read as extra numbers.
+  for (const auto& [name, value] : back.impacts[0].extra) EXPECT_NE(name, "budget");
+  Summary s;
+  SummaryGroup g;
+  g.mean_budget = {{"cor", 0.0012, "rig_scale", {{"rig_scale", 0.001}}}};
+  s.groups = {g};
+  WriteSummaryJson(dir_ / "summary.json", s);
+  const Summary sback = ReadSummaryJson(dir_ / "summary.json");
+  ASSERT_TRUE(sback.groups[0].MeanU("cor").has_value());
+  EXPECT_DOUBLE_EQ(*sback.groups[0].MeanU("cor"), 0.0012);
+  EXPECT_FALSE(sback.groups[0].MeanU("peak_force_n").has_value());
+  EXPECT_NE(test::ReadFileBytes(dir_ / "summary.json").find("\"cor_mean_u\": 0.0012"), std::string::npos);
 }
 
 TEST_F(ResultsTest, SummaryJsonRoundTrips) {

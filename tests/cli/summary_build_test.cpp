@@ -56,6 +56,23 @@ TEST(SummaryBuild, GroupsBySpecimenThenHeightUsingTheFirstCompleteImpact) {
   EXPECT_EQ(groups[2].specimen, "A");
 }
 
+// GUM (JCGM 100:2008) eq. 13 with r = 1 for the parts the clips share (the rig's scale) and
+// r = 0 for their own (the fit), docs/methods.md §23.
+TEST(SummaryBuild, TheMeansUncertaintyKeepsTheSharedPartsWhole) {
+  const ManifestRow r1 = Row("A", 0.3), r2 = Row("A", 0.3);
+  ClipResult c1 = ClipWith({{true, 0.70}}), c2 = ClipWith({{true, 0.70}});
+  for (ClipResult* c : {&c1, &c2}) {
+    c->impacts[0].budget.push_back({"impact_speed_mps", 0.005, "rig_scale", {{"fit", 0.003}, {"rig_scale", 0.004}}});
+  }
+  const auto groups = BuildSummaryGroups({{&r1, &c1}, {&r2, &c2}});
+  ASSERT_EQ(groups.size(), 1u);
+  // Both clips read 2.0 m/s: no spread; the fit parts average down (0.003 sqrt(2) / 2), the
+  // rig's does not (0.004).
+  ASSERT_TRUE(groups[0].MeanU("impact_speed_mps").has_value());
+  EXPECT_NEAR(*groups[0].MeanU("impact_speed_mps"), std::hypot(0.003 / std::sqrt(2.0), 0.004), 1e-12);
+  EXPECT_FALSE(groups[0].MeanU("cor").has_value());  // no budget given for it
+}
+
 TEST(SummaryBuild, AFailedClipFlagsItsGroupWithItsOwnFlagsAndAGroupWithoutClipsHasNoNumbers) {
   // docs/formats.md, "Flags": a wrong figure is never written as a plain number.
   const ManifestRow row = Row("A", 0.3);
