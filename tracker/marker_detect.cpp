@@ -133,13 +133,20 @@ std::optional<MarkerCandidate> VerifyQuadrant(const cv::Mat& g, cv::Point2d p, c
 
 // Radius where the ring-mean profile crosses halfway between inside and outside levels.
 bool DotProfile(const cv::Mat& g, cv::Point2d c, double r_guess, double& radius, double& level_in, double& level_out) {
-  const double rho_max = 2.0 * r_guess + 5.0;
+  // The profile runs out to 2 r + 5, or to the last ring inside the frame: a marker near the
+  // frame's edge (a hub entering the view) keeps the rings it has, as long as they reach past
+  // the background window below (and, once the radius is found, radius + 5).
+  double rho_max = 2.0 * r_guess + 5.0;
   std::vector<std::pair<double, double>> prof;
   for (double rho = 0; rho <= rho_max; rho += 0.5) {
     const double m = RingMean(g, c, rho);
-    if (!std::isfinite(m)) return false;
+    if (!std::isfinite(m)) {
+      rho_max = rho - 0.5;
+      break;
+    }
     prof.push_back({rho, m});
   }
+  if (rho_max < 1.5 * r_guess + 3.5) return false;
   auto mean_over = [&](double lo, double hi) {
     double s = 0;
     int n = 0;
@@ -163,7 +170,7 @@ bool DotProfile(const cv::Mat& g, cv::Point2d c, double r_guess, double& radius,
         break;
       }
     }
-    if (radius <= 0) return false;
+    if (radius <= 0 || radius + 5.0 > rho_max) return false;
     level_in = mean_over(0, std::max(0.5, 0.5 * radius - 0.5));
     const double out = mean_over(radius + 2.5, std::min(rho_max, radius + 5.0));
     if (!std::isfinite(out)) return false;
