@@ -118,6 +118,45 @@ TEST(Impacts, EveryLawWithTheOnsetHeightFromGeometryMeetsTheAccuracyTargets) {
   }
 }
 
+// Correlated track noise: a first-order autoregressive series e_i = rho e_(i-1) + w_i has the
+// integrated autocorrelation time tau = (1 + rho) / (1 - rho) (Bretherton et al. 1999, J. Climate
+// 12:1990-2009, eq. 31 as N_eff = N (1 - rho) / (1 + rho); equation number FROM MEMORY). The
+// flights measure it, and the figures' sds grow by about sqrt(tau) over white noise of the same sd.
+TEST(Impacts, CorrelatedTrackNoiseWidensTheFiguresUncertaintyByItsCorrelationTime) {
+  const LawCase c = AllLawCases()[0];
+  const Trajectory tr = Simulate(c, 0.0, 0.9);
+  const double rho = 0.6, tau = (1.0 + rho) / (1.0 - rho);  // 4
+  std::mt19937 rng(77);
+  TimeSeries white = Sample(tr, 2000.0, 1800, 0.0, rng);
+  TimeSeries red = white;
+  std::normal_distribution<double> w(0.0, kTrackNoiseM * std::sqrt(1.0 - rho * rho));
+  std::normal_distribution<double> n(0.0, kTrackNoiseM);
+  double ex = 0.0, ey = 0.0;
+  for (size_t i = 0; i < red.y_m.size(); ++i) {
+    ex = rho * ex + w(rng);
+    ey = rho * ey + w(rng);
+    red.x_m[i] += ex;
+    red.y_m[i] += ey;
+    white.x_m[i] += n(rng);
+    white.y_m[i] += n(rng);
+  }
+  const Segmentation seg_red = SegmentBounces(red, WithGeometry());
+  const Segmentation seg_white = SegmentBounces(white, WithGeometry());
+  ASSERT_FALSE(seg_red.failure.has_value());
+  ASSERT_FALSE(seg_white.failure.has_value());
+  for (const FlightPhase& f : seg_red.flights) {
+    if (f.last_index - f.first_index < 200) continue;  // too short to measure a tau of 4 well
+    EXPECT_NEAR(f.residual_correlation_time, tau, 0.35 * tau);
+  }
+  for (const FlightPhase& f : seg_white.flights) EXPECT_LT(f.residual_correlation_time, 1.6);
+  const auto fr = MeasureImpacts(red, seg_red, ImpactOptions{kMassKg, kStandardGravityMps2});
+  const auto fw = MeasureImpacts(white, seg_white, ImpactOptions{kMassKg, kStandardGravityMps2});
+  ASSERT_FALSE(fr.empty());
+  ASSERT_FALSE(fw.empty());
+  EXPECT_GT(fr[0].impact_speed_mps.sd / fw[0].impact_speed_mps.sd, 0.6 * std::sqrt(tau));
+  EXPECT_EQ(fr[0].impact_speed_mps.onset_sd, 0.0);  // the geometry's onset height is exact here
+}
+
 TEST(Impacts, SeveralBouncesAreFoundInClipOrder) {
   std::mt19937 rng(11);
   const LawCase c{LawId::kKelvinVoigt, {2e5, 60}};
