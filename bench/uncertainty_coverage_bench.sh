@@ -24,7 +24,8 @@
 # m (v_in^2 - v_out^2) / 2); the true law's per-clip fit parameters (result.json "fits"); and the
 # per-height means of summary.csv when a column of the mean's sd exists. Printed: per kind the
 # count, fraction within 2 sd, RMS and median of |error|/sd and the worst three; the pooled
-# fraction; RMS of error/sd split by rig scale, marker kind and marker offset; the acceptance line.
+# fraction; RMS of error/sd split by rig scale, marker kind, marker offset and bounce (the first
+# bounce follows the flight from release); the acceptance line.
 # Clips with an error over 100 sd are listed as gross failures, with the figures without them as a
 # diagnostic (the acceptance counts every figure).
 set -euo pipefail
@@ -126,7 +127,8 @@ for i in range(12):
                 if v is None or sd is None:
                     skipped['figure or sd missing'] += 1
                     continue
-                rows.append((k, cfg, c['clip_id'], 'c%d/%s' % (i, c['clip_id']), b, v - tv(ti, t), sd))
+                rows.append((k, dict(cfg, bounce='bounce %d' % b), c['clip_id'], 'c%d/%s' % (i, c['clip_id']), b,
+                             v - tv(ti, t), sd))
         fit = [f for f in r.get('fits', []) if f.get('law') == t['law']]
         for k, tv in t['params'].items():
             if not fit or fit[0].get('params', {}).get(k) is None:
@@ -136,7 +138,7 @@ for i in range(12):
             if sd is None:
                 skipped['figure or sd missing'] += 1
                 continue
-            rows.append(('param ' + k, cfg, c['clip_id'], 'c%d/%s' % (i, c['clip_id']), '-', fit[0]['params'][k] - tv, sd))
+            rows.append(('param ' + k, dict(cfg, bounce='-'), c['clip_id'], 'c%d/%s' % (i, c['clip_id']), '-', fit[0]['params'][k] - tv, sd))
     print(line + '  ' + ', '.join(offs))
     # per-height means of summary.csv: compared when a column of the mean's uncertainty exists
     sp = os.path.join(out, 'summary.csv')
@@ -153,7 +155,7 @@ for i in range(12):
                     continue
                 fk = m.group(1)
                 tm = sum(FIG[fk][1](c['impacts'][0], t) for c in tc) / len(tc)  # first bounce per clip
-                rows.append(('mean ' + fk, cfg, 'h%.2f' % h, 'c%d/h%.2f' % (i, h), 0,
+                rows.append(('mean ' + fk, dict(cfg, bounce='bounce 0'), 'h%.2f' % h, 'c%d/h%.2f' % (i, h), 0,
                              float(row[fk + '_mean']) - tm, float(row[col])))
 print('\nsummary.csv columns: %s' % ', '.join(summary_cols or []))
 if not any(r[0].startswith('mean ') for r in rows):
@@ -188,7 +190,8 @@ if gross:
         len(rest), 100 * sum(z(r) <= 2 for r in rest) / max(len(rest), 1),
         ', '.join('%s %.3g' % (k, math.sqrt(sum(z(r) ** 2 for r in rest if r[0] == k) /
                                             max(1, sum(1 for r in rest if r[0] == k)))) for k in kinds)))
-for key, groups in (('scale', ['1 px/mm', '0.6 px/mm']), ('marker', MARK), ('offset', ['+0 mm', '+20 mm', '-20 mm'])):
+for key, groups in (('scale', ['1 px/mm', '0.6 px/mm']), ('marker', MARK), ('offset', ['+0 mm', '+20 mm', '-20 mm']),
+                    ('bounce', ['bounce 0', 'bounce 1', 'bounce 2'])):
     print('\nRMS of error/sd by %s:' % key)
     print('%-28s' % 'figure kind' + ''.join('%12s' % g for g in groups))
     for k in kinds + ['(pooled)']:
