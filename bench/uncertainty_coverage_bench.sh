@@ -18,7 +18,8 @@
 #     (k 4e4 N/m, c 100 N s/m); scene seed 1000 + I.
 # Each folder is calibrated from its own calib/ images: `dropfit calibrate` with the corner height
 # and square of truth.json "calibration", corner height sd 0 (the renderer's corner height is
-# exact). Figures compared: per clip and bounce (matched by "bounce"; incomplete bounces, in
+# exact); each run is given the rendered world's gravity (`--gravity 9.80665`, as a user gives the
+# local value; its default sd then is 0.001 m/s^2). Figures compared: per clip and bounce (matched by "bounce"; incomplete bounces, in
 # truth or result, are skipped and counted) impact and rebound speed, COR, COR from the apex
 # heights (truth: the COR), contact duration, maximum deflection, peak force, energy lost (truth:
 # m (v_in^2 - v_out^2) / 2); the true law's per-clip fit parameters (result.json "fits"); and the
@@ -60,7 +61,7 @@ for i in $(seq 0 11); do
   fi
   if [ -f "$o/rig.json" ] && { [ "$FORCE" = 1 ] || [ ! -f "$o/out$TAG/summary.json" ]; }; then
     echo "run c$i -> out$TAG" >&2
-    "$DROPFIT" run "$o" --rig "$o/rig.json" -o "$o/out$TAG" --jobs 2 >"$o/run$TAG.log" 2>&1 || echo "run c$i failed (see $o/run$TAG.log)" >&2
+    "$DROPFIT" run "$o" --rig "$o/rig.json" -o "$o/out$TAG" --jobs 2 --gravity 9.80665 >"$o/run$TAG.log" 2>&1 || echo "run c$i failed (see $o/run$TAG.log)" >&2
   fi
 done
 python3 - "$DIR" "$TAG" <<'PY'
