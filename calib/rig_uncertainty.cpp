@@ -122,6 +122,13 @@ double ScaleRelSdAt(const Rig& rig, cv::Point2d image_px) {
   return std::sqrt(std::max(var.at<double>(0, 0), 0.0)) / s;
 }
 
+double MappedSd(const Rig& rig, const std::function<double(const Rig&)>& f) {
+  const cv::Mat cov = Covariance(rig);
+  const cv::Mat j = Jacobian(rig, cov, [&](const Rig& r) { return std::vector<double>{f(r)}; });
+  const cv::Mat var = j * cov * j.t();
+  return std::sqrt(std::max(var.at<double>(0, 0), 0.0));
+}
+
 void SummariseUncertainty(Rig& rig) {
   Covariance(rig);  // checks it
   RigUncertainty& u = *rig.uncertainty;

@@ -31,6 +31,7 @@
 
 #include <opencv2/core.hpp>
 
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -63,6 +64,12 @@ double HeightSdAt(const Rig& rig, cv::Point2d plane_m);
 
 // Relative standard uncertainty [-] of MetresPerPxAt(rig, image_px). Throws as PlanePointCovariance.
 double ScaleRelSdAt(const Rig& rig, cv::Point2d image_px);
+
+// Standard uncertainty of any function of the rig's mapping, f(rig), from the mapping's
+// covariance (step 4's J Sigma J^T with J of f by central differences). E.g. the ratio of two
+// heights mapped at different pixels, which a uniform scale error leaves alone but a
+// non-uniform one does not. Throws as PlanePointCovariance.
+double MappedSd(const Rig& rig, const std::function<double(const Rig&)>& f);
 
 // Fills the summary figures of rig.uncertainty (heights at the image's horizontal centre, floor,
 // scale) from its covariance and corner_height_sd_m. Throws as PlanePointCovariance.

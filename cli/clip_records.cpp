@@ -125,7 +125,8 @@ void SetExtra(NamedValues& extra, const std::string& name, double value) {
 // The uncertainty budgets (pipeline/uncertainty.h): each figure's sd field becomes its combined
 // standard uncertainty, its budget beside it; the law parameters' sds likewise; the clip's scale
 // inputs at the top.
-void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const std::string& name, ClipResult& result) {
+void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const calib::Rig& rig, const std::string& name,
+                        ClipResult& result) {
   const analysis::ScaleUncertainty& s = m.scale_uncertainty;
   result.extra.push_back({"rig_scale_rel_sd", s.rig_scale_rel});
   result.extra.push_back({"marker_plane_rel_sd", s.marker_plane_rel});
@@ -133,7 +134,7 @@ void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const std::string& n
   result.extra.push_back({"gravity_rel_sd", s.gravity_rel});
   result.info.push_back({"length_scale_from", s.gravity_ruler ? "gravity" : "rig"});
   for (const std::string& note : m.uncertainty_notes) result.warnings.push_back(name + ": " + note);
-  const std::vector<std::vector<pipeline::NamedBudget>> impacts = pipeline::ImpactBudgets(m, s);
+  const std::vector<std::vector<pipeline::NamedBudget>> impacts = pipeline::ImpactBudgets(m, s, &rig);
   for (size_t i = 0; i < impacts.size() && i < result.impacts.size(); ++i) {
     ImpactRecord& im = result.impacts[i];
     for (const pipeline::NamedBudget& b : impacts[i]) {
@@ -147,7 +148,7 @@ void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const std::string& n
 }
 
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
-void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline::ClipMeasurement& m,
+void AddMeasurementToResult(const pipeline::ClipRequest& request, const calib::Rig& rig, const pipeline::ClipMeasurement& m,
                             const std::string& name, const tracker::Track& track, ClipResult& result) {
   AddKinematicsToResult(m.kinematics, name, result);
   if (m.kinematics.failure) {
@@ -170,7 +171,7 @@ void AddMeasurementToResult(const pipeline::ClipRequest& request, const pipeline
     }
   }
   if (request.fit_laws) result.extra.push_back({"time_fits_s", m.fit_seconds});
-  AddBudgetsToResult(m, name, result);
+  AddBudgetsToResult(m, rig, name, result);
   for (const std::string& flag : m.flags) AddFlag(result, flag);
   FlagImplausibleImpacts(m.conditions.mass_kg, name, result);
   if (m.track_force) {
@@ -340,7 +341,7 @@ ClipAnalysis RecordsOfOutcome(const pipeline::ClipRequest& request, const calib:
         "marker, marker_u_px and marker_v_px columns)");
     return out;
   }
-  AddMeasurementToResult(request, *outcome.measurement, name, track, result);
+  AddMeasurementToResult(request, rig, *outcome.measurement, name, track, result);
   out.analysed = result.errors.empty();
   out.measurement = std::move(outcome.measurement);
   return out;

@@ -56,7 +56,7 @@ struct ManifestRow {
   std::optional<double> marker_offset_m;
   // Local gravity [m/s^2]; positive; `--gravity` wins; default standard gravity 9.80665.
   std::optional<double> gravity_mps2;
-  // Its standard uncertainty [m/s^2]; default 0.001 with gravity_mps2 or --gravity, 0.015 with
+  // Its standard uncertainty [m/s^2]; default 0.0005 with gravity_mps2 or --gravity, 0.015 with
   // standard gravity (docs/methods.md §23).
   std::optional<double> gravity_sd_mps2;
   // The camera clock's tolerance [ppm], a rectangular half-width; default 50 (docs/methods.md §23).

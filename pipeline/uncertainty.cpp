@@ -1,7 +1,9 @@
 #include "pipeline/uncertainty.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
+#include <optional>
 
 #include "analysis/geometry.h"
 #include "calib/rig_uncertainty.h"
@@ -35,6 +37,29 @@ void AddForce(std::vector<NamedBudget>& out, const char* name, double value, dou
               const analysis::ScaleUncertainty& scale) {
   if (!std::isfinite(value)) return;
   out.push_back({name, BudgetOf(kForce, value - mg, sd, 0.0, scale, mg)});
+}
+
+// The rig mapping's part of the COR from the apex heights (ImpactBudgets); nothing when the bounce
+// lacks a flight or the rig cannot say.
+std::optional<double> ApexRatioMappingSd(const calib::Rig& rig, const analysis::Segmentation& seg, int bounce) {
+  const analysis::Bounce& b = seg.bounces.at(static_cast<size_t>(bounce));
+  if (!b.flight_before || !b.flight_after || !std::isfinite(seg.onset_height_m)) return std::nullopt;
+  const analysis::FlightPhase& fall = seg.flights[static_cast<size_t>(*b.flight_before)];
+  const analysis::FlightPhase& rise = seg.flights[static_cast<size_t>(*b.flight_after)];
+  const auto apex_d = analysis::ParabolaApex(fall.y_fit), apex_r = analysis::ParabolaApex(rise.y_fit);
+  if (!apex_d || !apex_r) return std::nullopt;
+  try {
+    const cv::Point2d pd = calib::ImageFromPlane(rig, {fall.x_fit.Value(apex_d->t_s), apex_d->height_m});
+    const cv::Point2d pr = calib::ImageFromPlane(rig, {rise.x_fit.Value(apex_r->t_s), apex_r->height_m});
+    const cv::Point2d po = calib::ImageFromPlane(rig, {fall.x_fit.Value(b.t_contact_s), seg.onset_height_m});
+    const double sd = calib::MappedSd(rig, [&](const calib::Rig& r) {
+      const double o = calib::PlaneFromImage(r, po).y;
+      return std::sqrt((calib::PlaneFromImage(r, pr).y - o) / (calib::PlaneFromImage(r, pd).y - o));
+    });
+    if (std::isfinite(sd)) return sd;
+  } catch (const std::exception&) {
+  }
+  return std::nullopt;
 }
 
 }  // namespace
@@ -92,7 +117,8 @@ ClipScaleUncertainty ScaleUncertaintyOf(const ClipRequest& request, const calib:
   return out;
 }
 
-std::vector<std::vector<NamedBudget>> ImpactBudgets(const ClipMeasurement& m, const analysis::ScaleUncertainty& scale) {
+std::vector<std::vector<NamedBudget>> ImpactBudgets(const ClipMeasurement& m, const analysis::ScaleUncertainty& scale,
+                                                    const calib::Rig* rig) {
   std::vector<std::vector<NamedBudget>> out;
   const double mg = m.conditions.mass_kg * m.conditions.gravity_mps2;
   const analysis::LawFitResult* best = nullptr;
@@ -104,6 +130,13 @@ std::vector<std::vector<NamedBudget>> ImpactBudgets(const ClipMeasurement& m, co
     AddFlightFigure(b, "rebound_speed_mps", f.rebound_speed_mps, kSpeed, scale);
     AddFlightFigure(b, "cor", f.cor, kRatio, scale);
     AddFlightFigure(b, "cor_from_apex", f.cor_from_apex, kRatio, scale);
+    if (rig && rig->uncertainty && !b.empty() && b.back().figure == "cor_from_apex") {
+      if (auto u = ApexRatioMappingSd(*rig, m.kinematics.segmentation, f.bounce_index)) {
+        std::array<double, analysis::kBudgetParts> parts = b.back().budget.parts;
+        parts[static_cast<size_t>(analysis::BudgetPart::kRigScale)] = *u;
+        b.back().budget = analysis::MakeBudget(parts);
+      }
+    }
     AddFlightFigure(b, "energy_lost_j", f.energy_lost_j, kEnergy, scale);
     AddFlightFigure(b, "max_deflection_m", f.max_deflection_m, kLength, scale);
     AddFlightFigure(b, "drop_height_above_onset_m", f.drop_height_above_onset_m, kLength, scale);

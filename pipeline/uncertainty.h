@@ -22,9 +22,10 @@
 
 namespace dropfit::pipeline {
 
-// Local gravity's standard uncertainty when the user gave a value (a value from a local survey or
-// a gravity model, common practice, no source) [m/s^2].
-inline constexpr double kGivenGravitySdMps2 = 0.001;
+// Local gravity's standard uncertainty when the user gave a value [m/s^2]: a value from a normal
+// gravity formula at the site's latitude and height misses the local anomaly, mostly within
+// 0.0005 m/s^2 (50 mGal; FROM MEMORY); a surveyed value is far better (give gravity_sd_mps2).
+inline constexpr double kGivenGravitySdMps2 = 0.0005;
 // When standard gravity stands in for the local one: the Earth's surface gravity lies between
 // about 9.780 (equator) and 9.832 m/s^2 (poles) (FROM MEMORY), a rectangular half-width of
 // 0.026 m/s^2, so u = 0.026 / sqrt(3) = 0.015 m/s^2 (GUM 4.3.7).
@@ -50,8 +51,16 @@ struct NamedBudget {
 
 // One list per bounce of m.kinematics.impacts (same order): the flight figures, and the best
 // law's contact duration and peak force (names "contact_duration_s", "peak_force_n") when a law
-// fits, the track's otherwise. `mass_kg` and `gravity_mps2` split the peak force's m g.
-std::vector<std::vector<NamedBudget>> ImpactBudgets(const ClipMeasurement& m, const analysis::ScaleUncertainty& scale);
+// fits, the track's otherwise. The peak force's m g from m.conditions.
+// With a rig that carries its uncertainty, the COR from the apex heights gets its rig_scale part
+// from the mapping's covariance (calib::MappedSd of sqrt(dh_r / dh_d), the two apex heights and
+// the onset point mapped at their pixels): a ratio of heights at different places in the image
+// is untouched by a uniform scale error but not by a non-uniform one (measured: 5 um over a
+// 300 mm drop at 1 px/mm, 4 sd of that COR). Pixels from the calibrated plane's mapping (a
+// marker plane d in front moves them by d / D of their distance from the foot of the camera's
+// perpendicular, which does not matter to a sensitivity).
+std::vector<std::vector<NamedBudget>> ImpactBudgets(const ClipMeasurement& m, const analysis::ScaleUncertainty& scale,
+                                                    const calib::Rig* rig = nullptr);
 
 // The budgets of a law fit's parameters, by their names (analysis/uncertainty_budget.h,
 // ParameterDimension; the volumetric law's exponent from its volume at the fit's largest
