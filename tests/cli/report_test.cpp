@@ -105,6 +105,32 @@ TEST(Report, PageIsWellFormedSelfContainedAndEveryChartHasData) {
   EXPECT_LT(html.find("rate looks 2x too low"), html.find("Impact summary per height"));
 }
 
+// docs/methods.md §23: each clip shows the budget of its first complete bounce, the dominant
+// part marked; the summary shows each mean's standard uncertainty.
+TEST(Report, EachClipShowsTheUncertaintyBudgetOfItsFirstCompleteBounce) {
+  ClipReportData clip = MakeClip();
+  clip.result.impacts[0].cor = 0.71;
+  clip.result.impacts[0].budget = {{"cor",
+                                    2.5e-4,
+                                    "rig_scale",
+                                    {{"fit", 1e-4},
+                                     {"onset_height", 5e-5},
+                                     {"rig_scale", 2.2e-4},
+                                     {"marker_plane", 0.0},
+                                     {"capture_rate", 0.0},
+                                     {"gravity", 0.0}}}};
+  Summary summary = MakeSummary();
+  summary.groups.front().mean_budget = {{"cor", 0.00031, "rig_scale", {{"rig_scale", 0.0003}}}};
+  const std::string html = BuildReportHtml(summary, {clip}, "test");
+  EXPECT_EQ(CheckTagBalance(html), "");
+  const size_t table = html.find("Uncertainty budget of bounce 0");
+  ASSERT_NE(table, std::string::npos);
+  EXPECT_NE(html.find("<strong>0.00022</strong>", table), std::string::npos);  // the dominant part
+  EXPECT_NE(html.find("(u 0.00031)"), std::string::npos);                       // the mean's uncertainty
+  // A clip without budgets (a result written before) shows no table.
+  EXPECT_EQ(BuildReportHtml(MakeSummary(), {MakeClip()}, "test").find("Uncertainty budget"), std::string::npos);
+}
+
 TEST(SvgPlot, NiceTicksUseStepsOfOneTwoOrFive) {
   // "Nice numbers" for axis labels (Heckbert 1990, Graphics Gems, "Nice numbers for graph labels").
   EXPECT_EQ(NiceTicks(0.0, 1.0, 5), (std::vector<double>{0.0, 0.2, 0.4, 0.6000000000000001, 0.8, 1.0}));
