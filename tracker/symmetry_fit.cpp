@@ -175,7 +175,7 @@ enum class StepOutcome {
 // `fit_light_gradient` false only the centre moves (a, b stay zero). `step_px` is the length of
 // the centre's step [px].
 StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& offsets, bool fit_light_gradient,
-                            FitState& state, double& step_px) {
+                            FitState& state, double& step_px, double tukey_inv_c2 = 0.0) {
   const int n_params = fit_light_gradient ? 6 : 2;
   const double(&a)[2] = state.a;
   const double(&b)[2] = state.b;
@@ -189,9 +189,15 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
     const double r = (p.value - m.value) - (a[0] * d.x + a[1] * d.y) * s - (b[0] * d.x + b[1] * d.y);
     const double j[6] = {
         p.gx - m.gx, p.gy - m.gy, -d.x * s, -d.y * s, -static_cast<double>(d.x), -static_cast<double>(d.y)};
+    double w = 1.0;
+    if (tukey_inv_c2 > 0.0) {  // Tukey's biweight (RobustCentre)
+      const double u = 1.0 - r * r * tukey_inv_c2;
+      if (u <= 0.0) continue;
+      w = u * u;
+    }
     for (int i = 0; i < n_params; ++i) {
-      jtr[i] += j[i] * r;
-      for (int k = 0; k <= i; ++k) jtj(i, k) += j[i] * j[k];
+      jtr[i] += w * j[i] * r;
+      for (int k = 0; k <= i; ++k) jtj(i, k) += w * j[i] * j[k];
     }
   }
   for (int i = 0; i < n_params; ++i)
@@ -210,13 +216,14 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
   return StepOutcome::kTaken;
 }
 
+constexpr double kTukeyC = 4.685;      // 95 % efficiency for normal residuals (Holland & Welsch 1977)
+constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
+
 // The robust shift (header, "Robust shift"): the length of one Gauss-Newton step, weighted with
 // Tukey's biweight w = (1 - (r / (c s))²)² (0 beyond c s; c = 4.685, s = 1.4826 median |r|, at
 // least kMinScaleGrey), from the fitted state whose pair rows are `rows`. -1 when the weighted
 // normal equations cannot be solved.
 double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
-  constexpr double kTukeyC = 4.685;      // 95 % efficiency for normal residuals (Holland & Welsch 1977)
-  constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
   if (rows.empty()) return -1.0;
   std::vector<double> abs_r(rows.size());
   for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
@@ -242,6 +249,29 @@ double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
   cv::Vec<double, 6> step;
   if (!cv::solve(jtj, -jtr, step, cv::DECOMP_CHOLESKY)) return -1.0;
   return std::hypot(step[0], step[1]);
+}
+
+// The robust centre (header, "Robust centre"): Gauss-Newton steps weighted with Tukey's biweight,
+// its scale fixed from the fitted state's residuals `rows` as in RobustShift, from the fitted
+// state until a step moves less than 1e-4 px (at most 10). The fitted centre when a step fails.
+cv::Point2d RobustCentre(const Patch& patch, const std::vector<cv::Point>& offsets, const std::vector<PairRow>& rows,
+                         FitState state, bool fit_light_gradient, cv::Point origin) {
+  const cv::Point2d fitted(state.cx + origin.x, state.cy + origin.y);
+  if (rows.empty()) return fitted;
+  std::vector<double> abs_r(rows.size());
+  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
+  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
+  std::nth_element(abs_r.begin(), mid, abs_r.end());
+  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
+  const double inv_c2 = 1.0 / (kTukeyC * kTukeyC * scale * scale);
+  for (int it = 0; it < 10; ++it) {
+    double step_px = 0.0;
+    if (GaussNewtonStep(patch, offsets, fit_light_gradient, state, step_px, inv_c2) != StepOutcome::kTaken)
+      return fitted;
+    if (std::hypot(state.cx + origin.x - fitted.x, state.cy + origin.y - fitted.y) > 2.0) return fitted;
+    if (step_px < 1e-4) break;
+  }
+  return {state.cx + origin.x, state.cy + origin.y};
 }
 
 // Quality and residual (header, "Quality") at the final centre, on the unsmoothed samples (`raw`).
@@ -357,7 +387,10 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
     res.inside = false;
     res.converged = false;
   }
-  if (res.converged) res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
+  if (res.converged) {
+    res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
+    res.robust_centre_px = RobustCentre(patch, offsets_, rows, state, options_.fit_light_gradient, patch.origin);
+  }
   return res;
 }
 

@@ -42,6 +42,11 @@
 // that do not fit when part of the marker is hidden (a card edge over the rim, a glint). The
 // tracker judges it against the clip's own frames (tracker/track.h); the centre reported is the
 // unweighted one.
+//
+// Robust centre: the reweighted fit carried to convergence (Gauss-Newton steps with the same
+// Tukey weights, their scale fixed from the fitted centre's residuals, resampling the window at
+// each step): the centre the pixels that fit agree on. The tracker reports it for a frame whose
+// robust shift stands out from the clip's (tracker/track.h).
 
 #include <opencv2/core.hpp>
 
@@ -81,6 +86,7 @@ struct SymmetryFitResult {
   double residual_rms = 0.0;      // RMS of r(d) [grey levels]
   double window_sd = 0.0;         // s.d. of the window's samples (unsmoothed) [grey levels]: its contrast
   double robust_shift_px = -1.0;  // see "Robust shift" above; -1 when not converged
+  cv::Point2d robust_centre_px;   // see "Robust centre" above; set when converged
   int iterations = 0;
   bool converged = false;  // false: did not settle, moved too far, or left the image
   bool inside = true;      // false: part of the window fell outside the image

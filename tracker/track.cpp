@@ -73,6 +73,10 @@ std::optional<std::string> ValidateTrackOptions(const TrackOptions& o) {
   if (!in(o.min_robust_shift_px, 0.001, 10))
     return "min_robust_shift_px = " + Num(o.min_robust_shift_px) + " px is outside [0.001, 10]";
   if (!in(o.shift_mads, 1, 1000)) return "shift_mads = " + Num(o.shift_mads) + " is outside [1, 1000]";
+  if (!in(o.robust_centre_mads, 1, 1000))
+    return "robust_centre_mads = " + Num(o.robust_centre_mads) + " is outside [1, 1000]";
+  if (!in(o.robust_centre_fraction, 0, 1))
+    return "robust_centre_fraction = " + Num(o.robust_centre_fraction) + " is outside [0, 1]";
   if (!(o.washed_out_ratio >= 0 && o.washed_out_ratio < 1))
     return "washed_out_ratio = " + Num(o.washed_out_ratio) + " is outside [0, 1)";
   if (o.judge_min_frames < 3 || o.judge_min_frames > 1000000)
@@ -108,6 +112,7 @@ struct FitFigures {
   double misfit = 0.0;     // 1 - quality
   double window_sd = 0.0;  // [grey levels]
   double robust_shift_px = 0.0;
+  cv::Point2d robust_centre_px;  // the reweighted fit's centre (tracker/symmetry_fit.h)
 };
 
 double Median(std::vector<double> v) {
@@ -162,6 +167,12 @@ void JudgeAgainstClip(const TrackOptions& o, const std::vector<FitFigures>& figu
       reason = "marker washed out: contrast (window s.d.) " + Num(g.window_sd, "%.1f") + " grey levels, " +
                Num(g.window_sd / contrast_median, "%.2f") + " of the clip's median " + Num(contrast_median, "%.1f");
     } else {
+      // Kept. A frame whose robust shift stands out from the clip's, though not enough to leave it
+      // empty (a card or a glint at the marker's edge), takes the centre its fitting pixels agree
+      // on: the robust centre.
+      if (g.robust_shift_px > std::max(o.min_robust_shift_px * o.robust_centre_fraction,
+                                        shift_median + o.robust_centre_mads * shift_mad))
+        s.centre_px = g.robust_centre_px;
       continue;
     }
     s.found = false;
@@ -338,6 +349,7 @@ struct MarkerTracker::Impl {
     bool outside = false;
     double window_sd = -1;  // symmetry fits only
     double robust_shift_px = 0;
+    cv::Point2d robust_centre;
   };
 
   Located FitAt(const cv::Mat& grey, cv::Point2d start) const {
@@ -348,6 +360,7 @@ struct MarkerTracker::Impl {
     l.quality = r.quality;
     l.window_sd = r.window_sd;
     l.robust_shift_px = r.robust_shift_px;
+    l.robust_centre = r.robust_centre_px;
     l.ok = r.converged && r.inside && r.quality >= o.min_quality;
     return l;
   }
@@ -525,7 +538,7 @@ struct MarkerTracker::Impl {
   void Record(int frame, const Located& l) {
     if (kind == MarkerKind::kTemplate || l.window_sd < 0) return;
     if (static_cast<int>(figures.size()) <= frame) figures.resize(static_cast<size_t>(frame) + 1);
-    figures[static_cast<size_t>(frame)] = {true, 1.0 - l.quality, l.window_sd, l.robust_shift_px};
+    figures[static_cast<size_t>(frame)] = {true, 1.0 - l.quality, l.window_sd, l.robust_shift_px, l.robust_centre};
   }
 
   cv::Point2d candidate_centre{0, 0};  // centre of the candidate chosen
