@@ -219,18 +219,24 @@ StepOutcome GaussNewtonStep(const Patch& patch, const std::vector<cv::Point>& of
 constexpr double kTukeyC = 4.685;      // 95 % efficiency for normal residuals (Holland & Welsch 1977)
 constexpr double kMinScaleGrey = 1.0;  // a few times the 8-bit rounding noise of a pair difference
 
+// 1 / (c s)^2 of Tukey's biweight for the residuals of `rows` (not empty): c = 4.685,
+// s = 1.4826 median |r|, at least kMinScaleGrey.
+double TukeyInvC2(const std::vector<PairRow>& rows) {
+  std::vector<double> abs_r(rows.size());
+  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
+  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
+  std::nth_element(abs_r.begin(), mid, abs_r.end());
+  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
+  return 1.0 / (kTukeyC * kTukeyC * scale * scale);
+}
+
 // The robust shift (header, "Robust shift"): the length of one Gauss-Newton step, weighted with
 // Tukey's biweight w = (1 - (r / (c s))²)² (0 beyond c s; c = 4.685, s = 1.4826 median |r|, at
 // least kMinScaleGrey), from the fitted state whose pair rows are `rows`. -1 when the weighted
 // normal equations cannot be solved.
 double RobustShift(const std::vector<PairRow>& rows, bool fit_light_gradient) {
   if (rows.empty()) return -1.0;
-  std::vector<double> abs_r(rows.size());
-  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
-  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
-  std::nth_element(abs_r.begin(), mid, abs_r.end());
-  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
-  const double inv_c2 = 1.0 / (kTukeyC * kTukeyC * scale * scale);
+  const double inv_c2 = TukeyInvC2(rows);
   const int n_params = fit_light_gradient ? 6 : 2;
   cv::Matx<double, 6, 6> jtj = cv::Matx<double, 6, 6>::zeros();
   cv::Vec<double, 6> jtr = cv::Vec<double, 6>::all(0.0);
@@ -258,12 +264,7 @@ cv::Point2d RobustCentre(const Patch& patch, const std::vector<cv::Point>& offse
                          FitState state, bool fit_light_gradient, cv::Point origin) {
   const cv::Point2d fitted(state.cx + origin.x, state.cy + origin.y);
   if (rows.empty()) return fitted;
-  std::vector<double> abs_r(rows.size());
-  for (size_t i = 0; i < rows.size(); ++i) abs_r[i] = std::abs(rows[i].r);
-  const auto mid = abs_r.begin() + static_cast<std::ptrdiff_t>(abs_r.size() / 2);
-  std::nth_element(abs_r.begin(), mid, abs_r.end());
-  const double scale = std::max(1.4826 * *mid, kMinScaleGrey);
-  const double inv_c2 = 1.0 / (kTukeyC * kTukeyC * scale * scale);
+  const double inv_c2 = TukeyInvC2(rows);
   for (int it = 0; it < 10; ++it) {
     double step_px = 0.0;
     if (GaussNewtonStep(patch, offsets, fit_light_gradient, state, step_px, inv_c2) != StepOutcome::kTaken)

@@ -170,8 +170,8 @@ void JudgeAgainstClip(const TrackOptions& o, const std::vector<FitFigures>& figu
       // Kept. A frame whose robust shift stands out from the clip's, though not enough to leave it
       // empty (a card or a glint at the marker's edge), takes the centre its fitting pixels agree
       // on: the robust centre.
-      if (g.robust_shift_px > std::max(o.min_robust_shift_px * o.robust_centre_fraction,
-                                        shift_median + o.robust_centre_mads * shift_mad))
+      if (g.robust_shift_px >
+          std::max(o.min_robust_shift_px * o.robust_centre_fraction, shift_median + o.robust_centre_mads * shift_mad))
         s.centre_px = g.robust_centre_px;
       continue;
     }

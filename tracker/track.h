@@ -97,8 +97,8 @@ struct TrackOptions {
   // robust_centre_mads in [1, 1000], robust_centre_fraction in [0, 1] (0: the MAD rule alone).
   double robust_centre_mads = 2.0;
   double robust_centre_fraction = 0.0;
-  double washed_out_ratio = 0.5;       // contrast below this x the clip's median: washed out; [0, 1)
-  int judge_min_frames = 10;           // fewer frames found: none is judged; [3, 1e6]
+  double washed_out_ratio = 0.5;  // contrast below this x the clip's median: washed out; [0, 1)
+  int judge_min_frames = 10;      // fewer frames found: none is judged; [3, 1e6]
   // Templates: the largest plausible move of the marker from one frame to the next [px] (the
   // pipeline sets it from free fall from the drop height + 0.5 m, pipeline::MaxMarkerStepPx);
   // unset: no limit; > 0. A template match farther than k x max_step_px + jump_slack_px from
