@@ -42,8 +42,9 @@
 //      m     > max(misfit_ratio x median, median + misfit_mads x MAD),          or
 //      shift > max(min_robust_shift_px, median + shift_mads x MAD),              or
 //      contrast < washed_out_ratio x median.
-//    A frame kept whose robust shift still stands out (above median + robust_centre_mads x MAD)
-//    reports the robust centre (tracker/symmetry_fit.h): the centre the pixels that fit agree on.
+//    A dot's frame kept whose robust shift still stands out (above median + robust_centre_mads x
+//    MAD) reports the robust centre (tracker/symmetry_fit.h): the centre the pixels that fit
+//    agree on. (A quadrant disc's fit window lies inside the disc, out of a touching card's reach.)
 //    A card touching a dot's edge pulled the plain centre 0.054-0.060 px, the robust one at most
 //    0.038 px (bench/occlusion_bench.cpp).
 //    Judged on the clip's own spread rather than fixed thresholds, so noise, JPEG or H.264,
@@ -92,7 +93,7 @@ struct TrackOptions {
   double misfit_mads = 8.0;            // ... and the median + this x the scaled MAD; [1, 1000]
   double min_robust_shift_px = 0.025;  // robust-shift limit: at least this [px]; [0.001, 10]
   double shift_mads = 25.0;            // ... and the median + this x the scaled MAD; [1, 1000]
-  // A kept frame whose robust shift exceeds max(robust_centre_fraction x min_robust_shift_px,
+  // A dot's kept frame whose robust shift exceeds max(robust_centre_fraction x min_robust_shift_px,
   // median + robust_centre_mads x MAD) reports the robust centre (tracker/symmetry_fit.h);
   // robust_centre_mads in [1, 1000], robust_centre_fraction in [0, 1] (0: the MAD rule alone).
   double robust_centre_mads = 2.0;
