@@ -148,8 +148,9 @@ void AddBudgetsToResult(const pipeline::ClipMeasurement& m, const calib::Rig& ri
 }
 
 // The measurement's part of the records: kinematics, law fits, the track's force curve.
-void AddMeasurementToResult(const pipeline::ClipRequest& request, const calib::Rig& rig, const pipeline::ClipMeasurement& m,
-                            const std::string& name, const tracker::Track& track, ClipResult& result) {
+void AddMeasurementToResult(const pipeline::ClipRequest& request, const calib::Rig& rig,
+                            const pipeline::ClipMeasurement& m, const std::string& name, const tracker::Track& track,
+                            ClipResult& result) {
   AddKinematicsToResult(m.kinematics, name, result);
   if (m.kinematics.failure) {
     // A marker missing on most frames is the likelier cause: say so, with the frames.

@@ -126,7 +126,7 @@ TEST(Report, EachClipShowsTheUncertaintyBudgetOfItsFirstCompleteBounce) {
   const size_t table = html.find("Uncertainty budget of bounce 0");
   ASSERT_NE(table, std::string::npos);
   EXPECT_NE(html.find("<strong>0.00022</strong>", table), std::string::npos);  // the dominant part
-  EXPECT_NE(html.find("(u 0.00031)"), std::string::npos);                       // the mean's uncertainty
+  EXPECT_NE(html.find("(u 0.00031)"), std::string::npos);                      // the mean's uncertainty
   // A clip without budgets (a result written before) shows no table.
   EXPECT_EQ(BuildReportHtml(MakeSummary(), {MakeClip()}, "test").find("Uncertainty budget"), std::string::npos);
 }
