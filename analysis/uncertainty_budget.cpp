@@ -109,7 +109,8 @@ FigureBudget BudgetOf(Dimension dim, double track_part, double fit_sd, double on
   ValidateScaleUncertainty(s);
   const double v = std::abs(track_part);
   std::array<double, kBudgetParts> parts{};
-  parts[static_cast<size_t>(BudgetPart::kFit)] = std::isfinite(fit_sd) ? std::abs(fit_sd) : kNaN;
+  // An infinite fit sd (a parameter the data do not determine) stays infinite; NaN stays NaN.
+  parts[static_cast<size_t>(BudgetPart::kFit)] = std::isnan(fit_sd) ? kNaN : std::abs(fit_sd);
   parts[static_cast<size_t>(BudgetPart::kOnsetHeight)] = std::isfinite(onset_sd) ? std::abs(onset_sd) : 0.0;
   if (s.gravity_ruler) {
     // e_L = e_g + e_plane + 2 e_rate: the rig's scale drops out.

@@ -59,8 +59,8 @@ BudgetPart BudgetPartFromString(const std::string& text);
 bool SharedBetweenClips(BudgetPart part);
 
 // A figure's budget: each part's contribution (in the figure's unit, >= 0; NaN when the part
-// could not be evaluated, e.g. the fit gave no sd), their combination (eq. 10) and the part that
-// contributes most.
+// could not be evaluated, e.g. the fit gave no sd; infinite for a parameter the data do not
+// determine), their combination (eq. 10) and the part that contributes most.
 struct FigureBudget {
   std::array<double, kBudgetParts> parts{};  // indexed by BudgetPart
   double sd = 0.0;                           // combined; NaN when the fit part is NaN

@@ -15,6 +15,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <limits>
 #include <stdexcept>
 
 namespace dropfit::analysis {
@@ -72,6 +73,10 @@ TEST(UncertaintyBudget, AFigureDominatedByOnePartNamesIt) {
   EXPECT_THROW(BudgetPartFromString("tape"), std::invalid_argument);
   // A fit that gave no sd gives no combined sd.
   EXPECT_TRUE(std::isnan(BudgetOf({1.0, -1.0}, 2.4, std::nan(""), 0.0, s).sd));
+  // A parameter the data do not determine keeps its infinite sd, and the fit is its dominant part.
+  b = BudgetOf({0.0, -2.0}, 4e4, std::numeric_limits<double>::infinity(), 0.0, s);
+  EXPECT_TRUE(std::isinf(b.sd));
+  EXPECT_EQ(b.dominant, BudgetPart::kFit);
 }
 
 // With the gravity ruler the lengths follow g and the rate: check the sensitivities against the
