@@ -390,7 +390,8 @@ SymmetryFitResult SymmetryFitter::Fit(const cv::Mat& grey, cv::Point2d start_px)
   }
   if (res.converged) {
     res.robust_shift_px = RobustShift(rows, options_.fit_light_gradient);
-    res.robust_centre_px = RobustCentre(patch, offsets_, rows, state, options_.fit_light_gradient, patch.origin);
+    if (options_.robust_centre)
+      res.robust_centre_px = RobustCentre(patch, offsets_, rows, state, options_.fit_light_gradient, patch.origin);
   }
   return res;
 }

@@ -76,6 +76,9 @@ struct SymmetryFitOptions {
   double presmooth_sigma_px = 0.7;
   // Estimate the linear light terms a, b (see above); false fits the centre alone.
   bool fit_light_gradient = true;
+  // Also carry the reweighted fit to convergence (SymmetryFitResult::robust_centre_px, "Robust
+  // centre" above): a few more Gauss-Newton steps per fit, so only where it is used (dots).
+  bool robust_centre = false;
 };
 // A message naming the first field out of range, or nothing.
 std::optional<std::string> ValidateSymmetryFitOptions(const SymmetryFitOptions& options);
@@ -86,7 +89,8 @@ struct SymmetryFitResult {
   double residual_rms = 0.0;      // RMS of r(d) [grey levels]
   double window_sd = 0.0;         // s.d. of the window's samples (unsmoothed) [grey levels]: its contrast
   double robust_shift_px = -1.0;  // see "Robust shift" above; -1 when not converged
-  cv::Point2d robust_centre_px;   // see "Robust centre" above; set when converged
+  // See "Robust centre" above; set when converged and options.robust_centre.
+  std::optional<cv::Point2d> robust_centre_px;
   int iterations = 0;
   bool converged = false;  // false: did not settle, moved too far, or left the image
   bool inside = true;      // false: part of the window fell outside the image

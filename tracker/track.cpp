@@ -112,7 +112,7 @@ struct FitFigures {
   double misfit = 0.0;     // 1 - quality
   double window_sd = 0.0;  // [grey levels]
   double robust_shift_px = 0.0;
-  cv::Point2d robust_centre_px;  // the reweighted fit's centre (tracker/symmetry_fit.h)
+  std::optional<cv::Point2d> robust_centre_px;  // the reweighted fit's centre, dots only (tracker/symmetry_fit.h)
 };
 
 double Median(std::vector<double> v) {
@@ -134,12 +134,12 @@ std::pair<double, double> MedianAndScaledMad(const std::vector<double>& v) {
 
 // Leaves empty the found frames whose fit stands out from the clip's own (header, TrackOptions):
 // the robust centre and spread of the misfit and the window contrast over the frames found.
-// `robust_centre`: a kept frame whose robust shift stands out takes the robust centre (dots:
-// their fit window reaches past the rim, where a touching card or glint enters; a quadrant disc's
-// lies inside the disc, and there the replacement only adds noise: 0.0114 against 0.0107 px RMS
-// on clean clips, bench/track_bench).
+// A kept frame with a robust centre whose robust shift stands out takes that centre. Only dots
+// carry one (ChooseFrom): their fit window reaches past the rim, where a touching card or glint
+// enters; a quadrant disc's lies inside the disc, and there the replacement only added noise
+// (0.0114 against 0.0107 px RMS on clean clips, bench/track_bench).
 void JudgeAgainstClip(const TrackOptions& o, const std::vector<FitFigures>& figures, std::vector<TrackSample>& samples,
-                      std::vector<EmptyFrame>& left_empty, bool robust_centre) {
+                      std::vector<EmptyFrame>& left_empty) {
   std::vector<double> misfits, contrasts, shifts;
   for (const TrackSample& s : samples) {
     const size_t f = static_cast<size_t>(s.frame);
@@ -174,9 +174,9 @@ void JudgeAgainstClip(const TrackOptions& o, const std::vector<FitFigures>& figu
       // Kept. A dot's frame whose robust shift stands out from the clip's, though not enough to
       // leave it empty (a card or a glint at the marker's edge), takes the centre its fitting
       // pixels agree on: the robust centre.
-      if (robust_centre && g.robust_shift_px > std::max(o.min_robust_shift_px * o.robust_centre_fraction,
-                                                        shift_median + o.robust_centre_mads * shift_mad))
-        s.centre_px = g.robust_centre_px;
+      if (g.robust_centre_px && g.robust_shift_px > std::max(o.min_robust_shift_px * o.robust_centre_fraction,
+                                                             shift_median + o.robust_centre_mads * shift_mad))
+        s.centre_px = *g.robust_centre_px;
       continue;
     }
     s.found = false;
@@ -260,6 +260,7 @@ struct MarkerTracker::Impl {
     so.presmooth_sigma_px = o.presmooth_sigma_px;
     so.max_shift_px = o.search_margin_px;
     so.window_radius_px = kind == MarkerKind::kQuadrant ? std::max(2.5, 0.75 * c.radius_px) : c.radius_px + 3.0;
+    so.robust_centre = kind == MarkerKind::kDot;  // see JudgeAgainstClip
     fitter.emplace(so);
   }
 
@@ -353,7 +354,7 @@ struct MarkerTracker::Impl {
     bool outside = false;
     double window_sd = -1;  // symmetry fits only
     double robust_shift_px = 0;
-    cv::Point2d robust_centre;
+    std::optional<cv::Point2d> robust_centre;
   };
 
   Located FitAt(const cv::Mat& grey, cv::Point2d start) const {
@@ -572,7 +573,7 @@ Track MarkerTracker::Finish(int frames, const std::string& clip_name) const {
   const std::string prefix = clip_name.empty() ? "" : clip_name + ": ";
   for (const std::string& w : im.warnings) t.warnings.push_back(prefix + w);
   if (im.o.judge_against_clip && im.chosen && im.kind != MarkerKind::kTemplate) {
-    JudgeAgainstClip(im.o, im.figures, t.samples, t.left_empty, im.kind == MarkerKind::kDot);
+    JudgeAgainstClip(im.o, im.figures, t.samples, t.left_empty);
   }
   if (!t.left_empty.empty()) {
     std::vector<FrameRange> ranges;
