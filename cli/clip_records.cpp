@@ -374,8 +374,6 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
     const double h = ExtraValue(result, "onset_height_m"), sd = ExtraValue(result, "onset_height_sd_m");
     if (std::isfinite(h) && std::isfinite(sd)) options.onset_from_fit = std::make_pair(h, sd);
   }
-  pipeline::ClipMeasurement m = pipeline::MeasureClip(request, rig, TimeSeriesFromTrackRows(track, result.capture_fps),
-                                                      result.capture_fps, options);
   // The gravity ruler's estimate as the result saved it (the run pools it over the specimen).
   const double est = ExtraValue(result, "marker_offset_gravity_m"),
                sd = ExtraValue(result, "marker_offset_gravity_sd_m");
@@ -384,11 +382,10 @@ pipeline::ClipMeasurement RemeasureClip(const pipeline::ClipRequest& request, co
     e.offset_m = est;
     e.sd_m = sd;
     e.flights = static_cast<int>(ExtraValue(result, "gravity_ruler_flights"));
-    m.gravity_offset = e;
-    pipeline::ClipScaleUncertainty scale = pipeline::ScaleUncertaintyOf(request, rig, m);
-    m.scale_uncertainty = scale.scale;
-    m.uncertainty_notes = std::move(scale.notes);
+    options.saved_gravity_offset = e;
   }
+  pipeline::ClipMeasurement m = pipeline::MeasureClip(request, rig, TimeSeriesFromTrackRows(track, result.capture_fps),
+                                                      result.capture_fps, options);
   return m;
 }
 

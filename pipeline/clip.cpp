@@ -287,6 +287,7 @@ ClipMeasurement MeasureClip(const ClipRequest& request, const calib::Rig& rig, a
   m.series = std::move(series);
   m.marker_offset = options.marker_offset;
   m.camera_distance_m = calib::CameraDistanceM(rig);
+  if (!options.track) m.gravity_offset = options.saved_gravity_offset;
   m.conditions = DropConditionsOf(request);
   m.fit_options = LawFitOptionsOf(m.conditions);
   const analysis::KinematicsOptions kinematics_options = KinematicsOptionsFor(request, rig, fps);

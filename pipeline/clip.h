@@ -174,6 +174,9 @@ struct MeasureOptions {
   // The track the series came from (its pixels): lets the gravity ruler map it onto other planes.
   // Without it (a clip rebuilt from track.csv) the ruler does not run.
   const tracker::Track* track = nullptr;
+  // Without a track: the ruler's estimate a saved result reports, kept as the measurement's
+  // gravity_offset (the uncertainty budgets and the specimen's pooled offset use it).
+  std::optional<analysis::MarkerOffsetEstimate> saved_gravity_offset;
 };
 
 // Measures a clip from its series. With options.track, a rig that knows its plane's pose and
